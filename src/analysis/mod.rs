@@ -1,0 +1,6 @@
+//! Analyses built on the physics and the engine: the resting report, sweeps, fits and run
+//! metrics. Every front end (window, command line) computes through these.
+
+pub mod rest;
+
+pub use rest::{RestReport, SpeciesRow, rest_report};

@@ -1,0 +1,25 @@
+//! Physical constants and the few unit conversions built on them, in one place.
+//!
+//! Values are CODATA 2018, exact in the 2019 SI. Nothing else in the crate writes these numbers.
+
+/// Faraday constant, C/mol.
+pub const FARADAY_C_PER_MOL: f64 = 96_485.332_12;
+/// Molar gas constant, J/(mol·K).
+pub const GAS_J_PER_MOL_K: f64 = 8.314_462_618;
+/// Offset between degrees Celsius and kelvin.
+pub const ZERO_CELSIUS_K: f64 = 273.15;
+
+/// Absolute temperature in kelvin.
+pub fn kelvin(temperature_c: f64) -> f64 {
+    temperature_c + ZERO_CELSIUS_K
+}
+
+/// RT/F in millivolts: the voltage scale of every Nernst and GHK expression.
+pub fn rt_over_f_mv(temperature_c: f64) -> f64 {
+    GAS_J_PER_MOL_K * kelvin(temperature_c) / FARADAY_C_PER_MOL * 1e3
+}
+
+/// The Nernst slope per tenfold change of concentration, ln(10)·RT/(zF), in mV.
+pub fn nernst_slope_mv_per_decade(temperature_c: f64, charge: i32) -> f64 {
+    std::f64::consts::LN_10 * rt_over_f_mv(temperature_c) / f64::from(charge)
+}

@@ -1,0 +1,292 @@
+//! Dormand–Prince 5(4) with a PI step-size controller and 4th-order dense output.
+//!
+//! Written here rather than taken from a crate because the run loop must stop exactly on every
+//! command edge, restart the first-same-as-last stage there, advance in bounded chunks across
+//! frames and report which state component failed; the general-purpose crates integrate a whole
+//! interval in one call. An independent crate (ode_solvers' DOP853) checks it in the tests.
+//! Coefficients: Dormand & Prince 1980, dense output after Hairer, Nørsett & Wanner (1993).
+
+/// Anything with a state vector and a derivative.
+pub trait System {
+    fn derivatives(&mut self, t: f64, y: &[f64], dy: &mut [f64]);
+}
+
+/// Tolerances and limits of the stepper.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Settings {
+    /// Relative tolerance on every component.
+    pub rtol: f64,
+    /// Absolute tolerance per component (the run sets these from each component's scale).
+    pub atol: Vec<f64>,
+    /// Largest step, ms.
+    pub h_max: f64,
+}
+
+/// Counts of the work done.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct Stats {
+    pub accepted: u64,
+    pub rejected: u64,
+    pub evaluations: u64,
+}
+
+/// Why a step could not be taken.
+#[derive(Debug, Clone, PartialEq)]
+pub enum StepFailure {
+    /// The step size fell below what the time's floating point can resolve; `component` had
+    /// the largest error.
+    Underflow { component: usize },
+    /// A derivative or new state was not finite.
+    NotFinite { component: usize },
+}
+
+const C2: f64 = 1.0 / 5.0;
+const C3: f64 = 3.0 / 10.0;
+const C4: f64 = 4.0 / 5.0;
+const C5: f64 = 8.0 / 9.0;
+const A21: f64 = 1.0 / 5.0;
+const A31: f64 = 3.0 / 40.0;
+const A32: f64 = 9.0 / 40.0;
+const A41: f64 = 44.0 / 45.0;
+const A42: f64 = -56.0 / 15.0;
+const A43: f64 = 32.0 / 9.0;
+const A51: f64 = 19372.0 / 6561.0;
+const A52: f64 = -25360.0 / 2187.0;
+const A53: f64 = 64448.0 / 6561.0;
+const A54: f64 = -212.0 / 729.0;
+const A61: f64 = 9017.0 / 3168.0;
+const A62: f64 = -355.0 / 33.0;
+const A63: f64 = 46732.0 / 5247.0;
+const A64: f64 = 49.0 / 176.0;
+const A65: f64 = -5103.0 / 18656.0;
+const A71: f64 = 35.0 / 384.0;
+const A73: f64 = 500.0 / 1113.0;
+const A74: f64 = 125.0 / 192.0;
+const A75: f64 = -2187.0 / 6784.0;
+const A76: f64 = 11.0 / 84.0;
+const E1: f64 = 71.0 / 57600.0;
+const E3: f64 = -71.0 / 16695.0;
+const E4: f64 = 71.0 / 1920.0;
+const E5: f64 = -17253.0 / 339200.0;
+const E6: f64 = 22.0 / 525.0;
+const E7: f64 = -1.0 / 40.0;
+const D1: f64 = -12715105075.0 / 11282082432.0;
+const D3: f64 = 87487479700.0 / 32700410799.0;
+const D4: f64 = -10690763975.0 / 1880347072.0;
+const D5: f64 = 701980252875.0 / 199316789632.0;
+const D6: f64 = -1453857185.0 / 822651844.0;
+const D7: f64 = 69997945.0 / 29380423.0;
+
+/// The stepper's working state between steps.
+#[derive(Debug, Clone)]
+pub struct Dopri5 {
+    pub settings: Settings,
+    pub stats: Stats,
+    /// Proposed next step size, ms (0 until the first step chooses one).
+    pub h: f64,
+    k: [Vec<f64>; 7],
+    y_stage: Vec<f64>,
+    y_new: Vec<f64>,
+    err: Vec<f64>,
+    /// Dense-output coefficients of the last accepted step, and its start and size.
+    cont: [Vec<f64>; 5],
+    t_old: f64,
+    h_old: f64,
+    /// `k[0]` holds f(t, y) for the present point.
+    fsal_valid: bool,
+    fac_old: f64,
+}
+
+impl Dopri5 {
+    pub fn new(dim: usize, settings: Settings) -> Self {
+        let z = || vec![0.0; dim];
+        Self {
+            settings,
+            stats: Stats::default(),
+            h: 0.0,
+            k: [z(), z(), z(), z(), z(), z(), z()],
+            y_stage: z(),
+            y_new: z(),
+            err: z(),
+            cont: [z(), z(), z(), z(), z()],
+            t_old: 0.0,
+            h_old: 0.0,
+            fsal_valid: false,
+            fac_old: 1e-4,
+        }
+    }
+
+    /// Forget the derivative at the present point: the system changed (a command edge or an edit).
+    pub fn invalidate(&mut self) {
+        self.fsal_valid = false;
+    }
+
+    fn scale(&self, i: usize, a: f64, b: f64) -> f64 {
+        self.settings.atol[i] + self.settings.rtol * a.abs().max(b.abs())
+    }
+
+    fn first_non_finite(v: &[f64]) -> Option<usize> {
+        v.iter().position(|x| !x.is_finite())
+    }
+
+    /// An initial step size (Hairer, Nørsett & Wanner's heuristic), bounded by `h_limit`.
+    fn initial_step(&mut self, sys: &mut impl System, t: f64, y: &[f64], h_limit: f64) -> f64 {
+        let n = y.len() as f64;
+        let (mut d0, mut d1) = (0.0, 0.0);
+        for i in 0..y.len() {
+            let sk = self.scale(i, y[i], y[i]);
+            d0 += (y[i] / sk).powi(2);
+            d1 += (self.k[0][i] / sk).powi(2);
+        }
+        let (d0, d1) = ((d0 / n).sqrt(), (d1 / n).sqrt());
+        let mut h0 = if d0 < 1e-10 || d1 < 1e-10 { 1e-6 } else { 0.01 * d0 / d1 };
+        h0 = h0.min(h_limit);
+        for i in 0..y.len() {
+            self.y_stage[i] = y[i] + h0 * self.k[0][i];
+        }
+        let ys = std::mem::take(&mut self.y_stage);
+        sys.derivatives(t + h0, &ys, &mut self.k[1]);
+        self.y_stage = ys;
+        self.stats.evaluations += 1;
+        let mut d2 = 0.0;
+        for i in 0..y.len() {
+            let sk = self.scale(i, y[i], y[i]);
+            d2 += ((self.k[1][i] - self.k[0][i]) / sk).powi(2);
+        }
+        let d2 = (d2 / n).sqrt() / h0;
+        let h1 = if d1.max(d2) <= 1e-15 { (h0 * 1e-3).max(1e-6) } else { (0.01 / d1.max(d2)).powf(0.2) };
+        (100.0 * h0).min(h1).min(h_limit)
+    }
+
+    /// Takes one accepted step from `(t, y)` that does not pass `t_end`; updates both.
+    /// Lands exactly on `t_end` when the step reaches it.
+    pub fn step(&mut self, sys: &mut impl System, t: &mut f64, y: &mut [f64], t_end: f64) -> Result<(), StepFailure> {
+        let n = y.len();
+        if !self.fsal_valid {
+            sys.derivatives(*t, y, &mut self.k[0]);
+            self.stats.evaluations += 1;
+            if let Some(c) = Self::first_non_finite(&self.k[0]) {
+                return Err(StepFailure::NotFinite { component: c });
+            }
+            self.fsal_valid = true;
+        }
+        let span = t_end - *t;
+        let h_limit = span.min(self.settings.h_max);
+        if self.h <= 0.0 {
+            self.h = self.initial_step(sys, *t, y, h_limit);
+        }
+        let mut h = self.h.min(h_limit);
+        let mut last_rejected = false;
+        loop {
+            // Land on t_end rather than leave a sliver of a step before it.
+            if *t + h >= t_end || t_end - (*t + h) < 1e-10 * h {
+                h = span;
+            }
+            if h.abs() <= 1e-14 * t.abs().max(1.0) {
+                let worst = (0..n).max_by(|&a, &b| self.err[a].abs().total_cmp(&self.err[b].abs())).unwrap_or(0);
+                return Err(StepFailure::Underflow { component: worst });
+            }
+            let [k1, k2, k3, k4, k5, k6, k7] = &mut self.k;
+            let ys = &mut self.y_stage;
+            for i in 0..n {
+                ys[i] = y[i] + h * A21 * k1[i];
+            }
+            sys.derivatives(*t + C2 * h, ys, k2);
+            for i in 0..n {
+                ys[i] = y[i] + h * (A31 * k1[i] + A32 * k2[i]);
+            }
+            sys.derivatives(*t + C3 * h, ys, k3);
+            for i in 0..n {
+                ys[i] = y[i] + h * (A41 * k1[i] + A42 * k2[i] + A43 * k3[i]);
+            }
+            sys.derivatives(*t + C4 * h, ys, k4);
+            for i in 0..n {
+                ys[i] = y[i] + h * (A51 * k1[i] + A52 * k2[i] + A53 * k3[i] + A54 * k4[i]);
+            }
+            sys.derivatives(*t + C5 * h, ys, k5);
+            for i in 0..n {
+                ys[i] = y[i] + h * (A61 * k1[i] + A62 * k2[i] + A63 * k3[i] + A64 * k4[i] + A65 * k5[i]);
+            }
+            sys.derivatives(*t + h, ys, k6);
+            let yn = &mut self.y_new;
+            for i in 0..n {
+                yn[i] = y[i] + h * (A71 * k1[i] + A73 * k3[i] + A74 * k4[i] + A75 * k5[i] + A76 * k6[i]);
+            }
+            sys.derivatives(*t + h, yn, k7);
+            self.stats.evaluations += 6;
+            let mut sum = 0.0;
+            let mut bad = None;
+            for i in 0..n {
+                let e = h * (E1 * k1[i] + E3 * k3[i] + E4 * k4[i] + E5 * k5[i] + E6 * k6[i] + E7 * k7[i]);
+                let sk = self.settings.atol[i] + self.settings.rtol * y[i].abs().max(yn[i].abs());
+                self.err[i] = e / sk;
+                sum += self.err[i] * self.err[i];
+                if bad.is_none() && !(yn[i].is_finite() && k7[i].is_finite()) {
+                    bad = Some(i);
+                }
+            }
+            let err = (sum / n as f64).sqrt();
+            // A non-finite trial is treated as a large error: shrink and try again, and only
+            // report it when the step cannot shrink further.
+            if bad.is_some() || !err.is_finite() {
+                self.stats.rejected += 1;
+                h *= 0.1;
+                if h.abs() <= 1e-14 * t.abs().max(1.0) {
+                    return Err(StepFailure::NotFinite { component: bad.unwrap_or(0) });
+                }
+                last_rejected = true;
+                continue;
+            }
+            // PI controller (Hairer's dopri5 constants: β = 0.04, safety 0.9, factors 0.2..10).
+            const BETA: f64 = 0.04;
+            let expo1 = 0.2 - BETA * 0.75;
+            let fac11 = err.powf(expo1);
+            if err <= 1.0 {
+                let mut fac = fac11 / self.fac_old.powf(BETA);
+                fac = (fac / 0.9).clamp(0.1, 5.0);
+                let mut h_new = h / fac;
+                if last_rejected {
+                    h_new = h_new.min(h);
+                }
+                self.fac_old = err.max(1e-4);
+                self.stats.accepted += 1;
+                // Dense output of this step.
+                for i in 0..n {
+                    let ydiff = yn[i] - y[i];
+                    let bspl = h * k1[i] - ydiff;
+                    self.cont[0][i] = y[i];
+                    self.cont[1][i] = ydiff;
+                    self.cont[2][i] = bspl;
+                    self.cont[3][i] = ydiff - h * k7[i] - bspl;
+                    self.cont[4][i] =
+                        h * (D1 * k1[i] + D3 * k3[i] + D4 * k4[i] + D5 * k5[i] + D6 * k6[i] + D7 * k7[i]);
+                }
+                self.t_old = *t;
+                self.h_old = h;
+                y.copy_from_slice(yn);
+                std::mem::swap(k1, k7);
+                *t = if h == span { t_end } else { *t + h };
+                self.h = h_new.min(self.settings.h_max);
+                return Ok(());
+            }
+            self.stats.rejected += 1;
+            h /= (fac11 / 0.9).min(5.0);
+            last_rejected = true;
+        }
+    }
+
+    /// The dense-output value of component `i` at `t` inside the last accepted step.
+    pub fn dense(&self, i: usize, t: f64) -> f64 {
+        let theta = (t - self.t_old) / self.h_old;
+        let theta1 = 1.0 - theta;
+        let c = &self.cont;
+        c[0][i] + theta * (c[1][i] + theta1 * (c[2][i] + theta * (c[3][i] + theta1 * c[4][i])))
+    }
+
+    /// The dense-output state at `t` into `out`.
+    pub fn dense_all(&self, t: f64, out: &mut [f64]) {
+        for (i, o) in out.iter_mut().enumerate() {
+            *o = self.dense(i, t);
+        }
+    }
+}

@@ -1,0 +1,27 @@
+//! Time courses: the cell as an ODE ([`model`]), an adaptive stepper ([`dopri5`]) and a
+//! streaming run that advances in bounded chunks ([`run`]).
+
+pub mod dopri5;
+pub mod model;
+pub mod run;
+
+pub use dopri5::Stats;
+pub use model::Model;
+pub use run::{Budget, Progress, Run, SolverSettings, Trace};
+
+use crate::physics::Undefined;
+
+/// Why a run could not start or continue. Every variant that happens in time carries the time.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum EngineError {
+    #[error("{place} names the species \"{name}\", which the scenario does not have")]
+    UnknownSpecies { place: String, name: String },
+    #[error("cannot start at rest: {reason}")]
+    NoRestingState { reason: Undefined },
+    #[error("at t = {t_ms} ms the step size became too small to resolve {quantity}; the model is too stiff or changes too abruptly there")]
+    StepUnderflow { t_ms: f64, quantity: String },
+    #[error("at t = {t_ms} ms {quantity} became infinite or not a number")]
+    NotFinite { t_ms: f64, quantity: String },
+    #[error("the scenario is not valid: {0}")]
+    Invalid(String),
+}

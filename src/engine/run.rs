@@ -1,0 +1,356 @@
+//! A streaming run: advance in bounded chunks, read the samples so far, change the scenario
+//! mid-run and continue from the present state, or cancel. The window calls this every frame;
+//! the command line runs it to the end.
+
+use super::EngineError;
+use super::dopri5::{Dopri5, Settings, Stats, StepFailure, System};
+use super::model::Model;
+use crate::scenario::Scenario;
+
+/// Tolerances of a run. The defaults meet model.md's accuracy (0.01 mV against a reference).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolverSettings {
+    pub rtol: f64,
+    /// Absolute tolerance on V, mV.
+    pub atol_v_mv: f64,
+    /// Absolute tolerance on gates (0..1).
+    pub atol_gate: f64,
+    /// Absolute tolerance relative to each lagged input's and concentration's own scale.
+    pub atol_relative: f64,
+    /// Largest step, ms.
+    pub h_max_ms: f64,
+}
+
+impl Default for SolverSettings {
+    fn default() -> Self {
+        Self { rtol: 1e-6, atol_v_mv: 1e-5, atol_gate: 1e-7, atol_relative: 1e-7, h_max_ms: f64::INFINITY }
+    }
+}
+
+/// How much one call to [`Run::advance`] may do.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Budget {
+    /// Stop once simulated time reaches this (ms).
+    pub until_ms: f64,
+    /// Stop after this many accepted steps.
+    pub max_steps: u64,
+}
+
+impl Budget {
+    pub fn to_end() -> Self {
+        Self { until_ms: f64::INFINITY, max_steps: u64::MAX }
+    }
+    pub fn steps(n: u64) -> Self {
+        Self { until_ms: f64::INFINITY, max_steps: n }
+    }
+}
+
+/// Where a run stands after [`Run::advance`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Progress {
+    /// The budget ran out; call again.
+    Running,
+    /// The run reached its duration.
+    Finished,
+}
+
+/// Samples of the state at the output times, stored by column so that one quantity can be
+/// borrowed as a slice.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Trace {
+    pub names: Vec<String>,
+    pub t_ms: Vec<f64>,
+    /// `columns[i][k]` is state component `i` at `t_ms[k]`.
+    pub columns: Vec<Vec<f64>>,
+    /// Samples dropped from the front by [`Trace::discard_front`] (the command line writes and
+    /// drops them as it goes, so a long run needs no memory for the whole trace).
+    pub discarded: usize,
+}
+
+impl Trace {
+    fn new(names: Vec<String>) -> Self {
+        let n = names.len();
+        Self { names, t_ms: Vec::new(), columns: vec![Vec::new(); n], discarded: 0 }
+    }
+    pub fn len(&self) -> usize {
+        self.t_ms.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.t_ms.is_empty()
+    }
+    pub fn v_mv(&self) -> &[f64] {
+        &self.columns[0]
+    }
+    /// The state vector of sample `k` into `out`.
+    pub fn state(&self, k: usize, out: &mut [f64]) {
+        for (o, c) in out.iter_mut().zip(&self.columns) {
+            *o = c[k];
+        }
+    }
+    fn push(&mut self, t: f64, y: &[f64]) {
+        self.t_ms.push(t);
+        for (c, v) in self.columns.iter_mut().zip(y) {
+            c.push(*v);
+        }
+    }
+    /// Drops every stored sample but keeps counting them.
+    pub fn discard_front(&mut self) {
+        self.discarded += self.t_ms.len();
+        self.t_ms.clear();
+        for c in &mut self.columns {
+            c.clear();
+        }
+    }
+}
+
+struct Wrapped<'a>(&'a mut Model);
+impl System for Wrapped<'_> {
+    fn derivatives(&mut self, _t: f64, y: &[f64], dy: &mut [f64]) {
+        self.0.derivatives(y, dy);
+    }
+}
+
+/// One run in progress.
+pub struct Run {
+    model: Model,
+    settings: SolverSettings,
+    stepper: Dopri5,
+    y: Vec<f64>,
+    t_ms: f64,
+    /// End of the present command segment (next edge or the duration).
+    seg_end: f64,
+    segment_open: bool,
+    /// Output grid: sample k is at `grid_origin + (k − grid_first)·sample`; see `sample_time`.
+    next_sample: u64,
+    last_sample_written: bool,
+    trace: Trace,
+    finished: bool,
+    scratch: Vec<f64>,
+}
+
+impl Run {
+    /// Starts a run of a validated scenario at t = 0.
+    pub fn new(s: &Scenario, settings: SolverSettings) -> Result<Run, EngineError> {
+        let problems = crate::scenario::validate(s);
+        if let Some(p) = problems.first() {
+            return Err(EngineError::Invalid(p.to_string()));
+        }
+        let mut model = Model::new(s)?;
+        let y = model.initial_state()?;
+        let stepper = Dopri5::new(y.len(), Settings { rtol: settings.rtol, atol: atol_for(&model, &settings, &y), h_max: settings.h_max_ms });
+        let trace = Trace::new(model.state_names());
+        let n = y.len();
+        Ok(Run {
+            model,
+            settings,
+            stepper,
+            y,
+            t_ms: 0.0,
+            seg_end: 0.0,
+            segment_open: false,
+            next_sample: 0,
+            last_sample_written: false,
+            trace,
+            finished: false,
+            scratch: vec![0.0; n],
+        })
+    }
+
+    pub fn model(&self) -> &Model {
+        &self.model
+    }
+    pub fn model_mut(&mut self) -> &mut Model {
+        &mut self.model
+    }
+    pub fn trace(&self) -> &Trace {
+        &self.trace
+    }
+    pub fn trace_mut(&mut self) -> &mut Trace {
+        &mut self.trace
+    }
+    pub fn t_ms(&self) -> f64 {
+        self.t_ms
+    }
+    pub fn state(&self) -> &[f64] {
+        &self.y
+    }
+    pub fn v_mv(&self) -> f64 {
+        self.y[0]
+    }
+    pub fn stats(&self) -> Stats {
+        self.stepper.stats
+    }
+    pub fn is_finished(&self) -> bool {
+        self.finished
+    }
+    pub fn duration_ms(&self) -> f64 {
+        self.model.duration_ms
+    }
+
+    /// Output time of sample `k`: a product, never a running sum (model.md).
+    fn sample_time(&self, k: u64) -> f64 {
+        k as f64 * self.model.sample_ms
+    }
+
+    /// Number of grid samples `N + 1` with `N = floor(duration/sample + 1e-9)`.
+    fn grid_len(&self) -> u64 {
+        (self.model.duration_ms / self.model.sample_ms + 1e-9).floor() as u64 + 1
+    }
+
+    /// Whether the duration lies off the grid and is written as one more row.
+    fn needs_last_row(&self) -> bool {
+        let last = self.sample_time(self.grid_len() - 1);
+        self.model.duration_ms - last > 1e-9 * self.model.duration_ms.max(1.0)
+    }
+
+    /// Emit grid samples with time `< t_limit` (or `≤` when `inclusive`) from the last step's
+    /// dense output, or from the present state when they fall exactly on it.
+    fn emit_samples(&mut self, t_limit: f64, inclusive: bool, from_dense: bool) {
+        let n = self.grid_len();
+        while self.next_sample < n {
+            let ts = self.sample_time(self.next_sample);
+            let due = if inclusive { ts <= t_limit + 1e-12 * t_limit.abs().max(1.0) } else { ts < t_limit };
+            if !due {
+                break;
+            }
+            if from_dense && ts < self.t_ms {
+                self.stepper.dense_all(ts, &mut self.scratch);
+                self.trace.push(ts, &self.scratch);
+            } else {
+                let y = self.y.clone();
+                self.trace.push(ts, &y);
+            }
+            self.next_sample += 1;
+        }
+    }
+
+    /// Advances within `budget`. Samples are appended to [`Run::trace`] as they are passed.
+    pub fn advance(&mut self, budget: Budget) -> Result<Progress, EngineError> {
+        if self.finished {
+            return Ok(Progress::Finished);
+        }
+        let duration = self.model.duration_ms;
+        let mut steps = 0u64;
+        loop {
+            if !self.segment_open {
+                self.model.begin_segment(self.t_ms, &mut self.y);
+                self.stepper.invalidate();
+                // Samples exactly at a segment start take the new segment's instant inputs.
+                self.emit_samples(self.t_ms, true, false);
+                self.seg_end = self.model.next_edge_after(self.t_ms).map_or(duration, |e| e.min(duration));
+                self.segment_open = true;
+            }
+            if self.t_ms >= duration {
+                self.emit_samples(duration, true, false);
+                if self.needs_last_row() && !self.last_sample_written {
+                    let y = self.y.clone();
+                    self.trace.push(duration, &y);
+                    self.last_sample_written = true;
+                }
+                self.finished = true;
+                return Ok(Progress::Finished);
+            }
+            if steps >= budget.max_steps || self.t_ms >= budget.until_ms {
+                return Ok(Progress::Running);
+            }
+            let t_before = self.t_ms;
+            let mut sys = Wrapped(&mut self.model);
+            match self.stepper.step(&mut sys, &mut self.t_ms, &mut self.y, self.seg_end) {
+                Ok(()) => {}
+                Err(StepFailure::Underflow { component }) => {
+                    return Err(EngineError::StepUnderflow { t_ms: t_before, quantity: self.trace.names[component].clone() });
+                }
+                Err(StepFailure::NotFinite { component }) => {
+                    return Err(EngineError::NotFinite { t_ms: t_before, quantity: self.trace.names[component].clone() });
+                }
+            }
+            steps += 1;
+            self.emit_samples(self.t_ms, false, true);
+            if self.t_ms >= self.seg_end {
+                self.segment_open = false;
+            }
+        }
+    }
+
+    /// Runs to the end.
+    pub fn run_to_end(&mut self) -> Result<(), EngineError> {
+        self.advance(Budget::to_end()).map(|_| ())
+    }
+
+    /// Replaces the scenario mid-run: the edit takes effect now and the run continues from the
+    /// present state. V and tracked concentrations carry over; gates carry over where the
+    /// channel (by label and gate count) is unchanged, and start at steady state otherwise;
+    /// lagged inputs carry over by name, and new ones start at their present command.
+    pub fn update_scenario(&mut self, s: &Scenario) -> Result<(), EngineError> {
+        let problems = crate::scenario::validate(s);
+        if let Some(p) = problems.first() {
+            return Err(EngineError::Invalid(p.to_string()));
+        }
+        let model = Model::new(s)?;
+        let mut y = vec![0.0; model.dim()];
+        y[0] = self.y[0];
+        let ng = model.membrane.gate_count();
+        model.membrane.steady_gates(y[0], &mut y[1..1 + ng]);
+        let old_names = self.model.state_names();
+        let new_names = model.state_names();
+        for (i, name) in new_names.iter().enumerate().skip(1) {
+            if let Some(j) = old_names.iter().position(|n| n == name) {
+                y[i] = self.y[j];
+            } else if i >= model.lag_offset() && i < model.conc_offset() {
+                y[i] = model.lags[i - model.lag_offset()].command(self.t_ms);
+            } else if i >= model.conc_offset() {
+                y[i] = model.membrane.ions[i - model.conc_offset()].inside_mm;
+            }
+        }
+        if new_names != old_names {
+            // The trace's columns describe the old layout; keep V and time, map the rest.
+            let mut columns = vec![Vec::new(); new_names.len()];
+            for (i, name) in new_names.iter().enumerate() {
+                if let Some(j) = old_names.iter().position(|n| n == name) {
+                    columns[i] = std::mem::take(&mut self.trace.columns[j]);
+                } else {
+                    columns[i] = vec![f64::NAN; self.trace.t_ms.len()];
+                }
+            }
+            self.trace.columns = columns;
+            self.trace.names = new_names;
+        }
+        let old_sample = self.model.sample_ms;
+        self.stepper = Dopri5::new(
+            y.len(),
+            Settings { rtol: self.settings.rtol, atol: atol_for(&model, &self.settings, &y), h_max: self.settings.h_max_ms },
+        );
+        self.scratch = vec![0.0; y.len()];
+        self.model = model;
+        self.y = y;
+        if old_sample != self.model.sample_ms {
+            // Continue the new grid from the present time.
+            self.next_sample = (self.t_ms / self.model.sample_ms).ceil() as u64;
+        }
+        self.segment_open = false;
+        self.finished = self.t_ms >= self.model.duration_ms && self.finished;
+        Ok(())
+    }
+}
+
+/// Absolute tolerances per component, from each one's natural scale.
+fn atol_for(model: &Model, s: &SolverSettings, y: &[f64]) -> Vec<f64> {
+    let mut a = vec![s.atol_gate; y.len()];
+    a[0] = s.atol_v_mv;
+    let lo = model.lag_offset();
+    for (i, l) in model.lags.iter().enumerate() {
+        let scale = l.command(0.0).abs().max(1.0).max(match &l.kind {
+            super::model::LagKind::Bath { changes, file_mm, .. } => changes.iter().fold(*file_mm, |m, c| m.max(c.1)),
+            super::model::LagKind::Scale { factor, .. } => *factor,
+            super::model::LagKind::Agent { dose_um, .. } => *dose_um,
+        });
+        a[lo + i] = s.atol_relative * scale;
+    }
+    if model.track_concentrations {
+        let co = model.conc_offset();
+        for sp in 0..model.species_count() {
+            a[co + sp] = s.atol_relative * model.membrane.ions[sp].inside_mm.max(1e-3);
+        }
+    }
+    a
+}

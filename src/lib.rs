@@ -1,0 +1,12 @@
+//! permeant: how a single cell's membrane potential follows its solutions, temperature, pump
+//! and permeabilities, at rest and over time.
+//!
+//! The core (`constants`, `physics`, `scenario`, `engine`, `analysis`, `report`) has no UI
+//! dependency; `cli` and `ui` are thin fronts over it.
+
+pub mod analysis;
+pub mod constants;
+pub mod engine;
+pub mod physics;
+pub mod report;
+pub mod scenario;

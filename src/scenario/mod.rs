@@ -1,0 +1,251 @@
+//! Scenario files, format 1: the serde types, reading with validation, and atomic saving.
+//!
+//! The types mirror scenario-format.md field for field and in the same order, because the
+//! saved file's field order is the struct order. Field names carry their units.
+
+mod read;
+mod save;
+mod validate;
+
+use serde::{Deserialize, Serialize};
+
+pub use crate::physics::Kinetics;
+pub use read::{Location, Problem, ScenarioError, from_str, read_file};
+pub use save::{save_atomic, to_ron_string, write_atomic};
+pub use validate::{MAX_OUTPUT_SAMPLES, validate, warnings};
+
+/// The newest scenario format this build reads and writes.
+pub const FORMAT: u32 = 1;
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Scenario {
+    pub format: u32,
+    #[serde(default)]
+    pub title: String,
+    #[serde(default)]
+    pub notes: String,
+    #[serde(default = "default_temperature_c")]
+    pub temperature_c: f64,
+    #[serde(default)]
+    pub cell: Cell,
+    pub species: Vec<Species>,
+    #[serde(default)]
+    pub pump: Option<Pump>,
+    #[serde(default)]
+    pub channels: Vec<Channel>,
+    #[serde(default)]
+    pub protocol: Vec<Event>,
+    pub run: RunSettings,
+}
+
+fn default_temperature_c() -> f64 {
+    37.0
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct Cell {
+    pub diameter_um: f64,
+    pub capacitance_uf_per_cm2: f64,
+    pub track_concentrations: bool,
+}
+
+impl Default for Cell {
+    fn default() -> Self {
+        Self { diameter_um: 20.0, capacitance_uf_per_cm2: 1.0, track_concentrations: false }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Species {
+    pub name: String,
+    pub charge: i32,
+    pub inside_mm: f64,
+    pub outside_mm: f64,
+    pub permeability_cm_per_s: f64,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Pump {
+    pub exports: String,
+    pub imports: String,
+    pub exported_per_cycle: u32,
+    pub imported_per_cycle: u32,
+    pub max_current_ua_per_cm2: f64,
+    pub half_saturation_inside_mm: f64,
+    pub hill_inside: f64,
+    pub half_saturation_outside_mm: f64,
+    pub hill_outside: f64,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Channel {
+    pub label: String,
+    pub species: String,
+    pub max_permeability_cm_per_s: f64,
+    #[serde(default)]
+    pub shift_mv: f64,
+    #[serde(default = "default_q10")]
+    pub q10: f64,
+    #[serde(default = "default_reference_c")]
+    pub reference_temperature_c: f64,
+    pub gates: Vec<Gate>,
+}
+
+fn default_q10() -> f64 {
+    3.0
+}
+fn default_reference_c() -> f64 {
+    6.3
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Gate {
+    pub kinetics: Kinetics,
+    pub power: u32,
+}
+
+/// One protocol event. Times in ms from the start of the run.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub enum Event {
+    /// Multiply one species' resting and gated permeability by `factor` inside `[from, until)`.
+    PermeabilityScale {
+        species: String,
+        factor: f64,
+        from_ms: f64,
+        #[serde(default)]
+        until_ms: Option<f64>,
+        #[serde(default)]
+        lag_ms: f64,
+    },
+    /// Exchange the bath: one species' outside concentration becomes `outside_mm` from `at_ms`.
+    BathChange {
+        species: String,
+        outside_mm: f64,
+        at_ms: f64,
+        #[serde(default)]
+        lag_ms: f64,
+    },
+    /// A blocker applied inside `[from, until)`, blocking `max_block·d^n/(d^n + IC50^n)`.
+    Agent {
+        label: String,
+        species: String,
+        #[serde(default = "one")]
+        max_block: f64,
+        ic50_um: f64,
+        #[serde(default = "one")]
+        hill: f64,
+        dose_um: f64,
+        from_ms: f64,
+        #[serde(default)]
+        until_ms: Option<f64>,
+        #[serde(default)]
+        onset_ms: f64,
+        #[serde(default)]
+        washout_ms: f64,
+    },
+    /// One rectangular current pulse, depolarizing when positive.
+    Inject { amplitude_ua_per_cm2: f64, from_ms: f64, until_ms: f64 },
+    /// `count` rectangular pulses, one every `period_ms`.
+    InjectTrain { amplitude_ua_per_cm2: f64, width_ms: f64, period_ms: f64, count: u32, from_ms: f64 },
+}
+
+fn one() -> f64 {
+    1.0
+}
+
+impl Event {
+    /// The kind's name as written in the file.
+    pub fn kind(&self) -> &'static str {
+        match self {
+            Event::PermeabilityScale { .. } => "PermeabilityScale",
+            Event::BathChange { .. } => "BathChange",
+            Event::Agent { .. } => "Agent",
+            Event::Inject { .. } => "Inject",
+            Event::InjectTrain { .. } => "InjectTrain",
+        }
+    }
+
+    /// The species the event acts on, if any.
+    pub fn species(&self) -> Option<&str> {
+        match self {
+            Event::PermeabilityScale { species, .. }
+            | Event::BathChange { species, .. }
+            | Event::Agent { species, .. } => Some(species),
+            Event::Inject { .. } | Event::InjectTrain { .. } => None,
+        }
+    }
+
+    /// When the event is in force, `[start, end)` in ms; `end` is `None` for "to the end".
+    pub fn span_ms(&self) -> (f64, Option<f64>) {
+        match *self {
+            Event::PermeabilityScale { from_ms, until_ms, .. } | Event::Agent { from_ms, until_ms, .. } => {
+                (from_ms, until_ms)
+            }
+            Event::BathChange { at_ms, .. } => (at_ms, None),
+            Event::Inject { from_ms, until_ms, .. } => (from_ms, Some(until_ms)),
+            Event::InjectTrain { from_ms, width_ms, period_ms, count, .. } => {
+                let last = f64::from(count.saturating_sub(1));
+                (from_ms, Some(from_ms + last * period_ms + width_ms))
+            }
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub enum Start {
+    /// The steady state of everything under the commands in force at t = 0.
+    Rest,
+    /// This membrane potential, mV, with gates at their steady state for it.
+    Voltage(f64),
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RunSettings {
+    pub duration_ms: f64,
+    #[serde(default = "default_sample_ms")]
+    pub sample_ms: f64,
+    #[serde(default = "default_start")]
+    pub start: Start,
+}
+
+fn default_sample_ms() -> f64 {
+    0.1
+}
+fn default_start() -> Start {
+    Start::Rest
+}
+
+impl Scenario {
+    /// Index of the species called `name`.
+    pub fn species_index(&self, name: &str) -> Option<usize> {
+        self.species.iter().position(|s| s.name == name)
+    }
+
+    /// A small passive cell in a normal bath: the window's starting point for "New".
+    pub fn new_default() -> Self {
+        Scenario {
+            format: FORMAT,
+            title: "Untitled cell".into(),
+            notes: String::new(),
+            temperature_c: 37.0,
+            cell: Cell::default(),
+            species: vec![
+                Species { name: "K+".into(), charge: 1, inside_mm: 140.0, outside_mm: 5.0, permeability_cm_per_s: 5.0e-7 },
+                Species { name: "Na+".into(), charge: 1, inside_mm: 12.0, outside_mm: 145.0, permeability_cm_per_s: 2.5e-8 },
+                Species { name: "Cl-".into(), charge: -1, inside_mm: 10.0, outside_mm: 120.0, permeability_cm_per_s: 1.0e-7 },
+            ],
+            pump: None,
+            channels: vec![],
+            protocol: vec![],
+            run: RunSettings { duration_ms: 200.0, sample_ms: 0.1, start: Start::Rest },
+        }
+    }
+}
