@@ -5,8 +5,10 @@
 //! dependency; `cli` and `ui` are thin fronts over it.
 
 pub mod analysis;
+pub mod cli;
 pub mod constants;
 pub mod engine;
+pub mod palette;
 pub mod physics;
 pub mod report;
 pub mod scenario;

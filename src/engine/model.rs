@@ -202,7 +202,7 @@ impl Model {
                     crate::physics::Kinetics::HhPotassiumActivation => "n".to_string(),
                     crate::physics::Kinetics::Boltzmann { .. } => format!("gate{j}"),
                 };
-                gate_names.push(format!("{} {short}", c.label));
+                gate_names.push(format!("gate:{}:{short}", c.label));
             }
         }
         let pump = match &s.pump {
@@ -229,7 +229,7 @@ impl Model {
                 Event::PermeabilityScale { species, factor, from_ms, until_ms, lag_ms } => {
                     let sp = idx(species, format!("protocol[{i}].species"))?;
                     lags.push(Lag {
-                        name: format!("scale {species} #{i}"),
+                        name: format!("factor:{species}:event{i}"),
                         kind: LagKind::Scale { species: sp, factor: *factor, from_ms: *from_ms, until_ms: *until_ms, lag_ms: *lag_ms },
                     });
                 }
@@ -239,7 +239,7 @@ impl Model {
                         Some(l) => l,
                         None => {
                             lags.push(Lag {
-                                name: format!("bath {species} (mM)"),
+                                name: format!("bath_mm:{species}"),
                                 kind: LagKind::Bath { species: sp, file_mm: s.species[sp].outside_mm, changes: vec![] },
                             });
                             bath_lag[sp] = Some(lags.len() - 1);
@@ -253,7 +253,7 @@ impl Model {
                 Event::Agent { label, species, max_block, ic50_um, hill, dose_um, from_ms, until_ms, onset_ms, washout_ms } => {
                     let sp = idx(species, format!("protocol[{i}].species"))?;
                     lags.push(Lag {
-                        name: format!("{label} dose (uM)"),
+                        name: format!("dose_um:{label}"),
                         kind: LagKind::Agent {
                             species: sp,
                             max_block: *max_block,
@@ -345,7 +345,7 @@ impl Model {
         n.extend(self.gate_names.iter().cloned());
         n.extend(self.lags.iter().map(|l| l.name.clone()));
         if self.track_concentrations {
-            n.extend(self.species_names.iter().map(|s| format!("{s} inside (mM)")));
+            n.extend(self.species_names.iter().map(|s| format!("inside_mm:{s}")));
         }
         n
     }

@@ -1,0 +1,95 @@
+//! The command line: argument parsing (clap) and the exit-code policy of command-line.md.
+//! Each subcommand lives in its own file and is a thin front over the core.
+
+mod check;
+mod rest;
+mod run;
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+/// A failure caused by what the user gave (arguments or files): exit status 2.
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct BadInput(pub String);
+
+/// Shorthand for returning a bad-input error.
+pub fn bad(msg: impl Into<String>) -> anyhow::Error {
+    anyhow::Error::new(BadInput(msg.into()))
+}
+
+#[derive(Debug, Parser)]
+#[command(
+    name = "permeant",
+    version,
+    about = "Membrane potential from solutions, permeabilities, pumps and channels",
+    long_about = "Membrane potential from solutions, permeabilities, pumps and channels.\n\
+        With no arguments, opens the window; with a scenario file, opens the window on it.\n\
+        For research and teaching, not for diagnosing or treating anyone.",
+    args_conflicts_with_subcommands = true
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Option<Command>,
+    /// A scenario file (.ron) to open in the window.
+    file: Option<PathBuf>,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Reversal potentials, the passive GHK potential and the steady state at t = 0.
+    Rest(rest::Args),
+    /// Integrate the protocol over time; write samples as CSV and optionally a figure as SVG.
+    Run(run::Args),
+    /// Validate a scenario file: prints `ok`, or the errors (exit status 2).
+    Check(check::Args),
+}
+
+/// Parses the arguments, runs, and turns the outcome into command-line.md's exit status.
+pub fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let _ = e.print();
+            return ExitCode::from(u8::try_from(e.exit_code()).unwrap_or(2));
+        }
+    };
+    let result = match cli.command {
+        Some(Command::Rest(a)) => rest::run(a),
+        Some(Command::Run(a)) => run::run(a),
+        Some(Command::Check(a)) => check::run(a),
+        None => open_window(cli.file),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("permeant: {e:#}");
+            if is_bad_input(&e) { ExitCode::from(2) } else { ExitCode::from(1) }
+        }
+    }
+}
+
+fn is_bad_input(e: &anyhow::Error) -> bool {
+    e.chain().any(|c| c.is::<BadInput>() || c.is::<crate::scenario::ScenarioError>())
+}
+
+fn open_window(file: Option<PathBuf>) -> anyhow::Result<()> {
+    use clap::CommandFactory;
+    let _ = file;
+    Cli::command().print_help()?;
+    Ok(())
+}
+
+/// Reads a scenario, turning its error into bad input (exit 2).
+pub fn load(path: &std::path::Path) -> anyhow::Result<crate::scenario::Scenario> {
+    crate::scenario::read_file(path).map_err(anyhow::Error::new)
+}
+
+/// Prints the scenario's warnings to stderr.
+pub fn print_warnings(path: &std::path::Path, s: &crate::scenario::Scenario) {
+    for w in crate::scenario::warnings(s) {
+        eprintln!("permeant: warning: {}: {w}", path.display());
+    }
+}

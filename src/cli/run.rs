@@ -1,0 +1,90 @@
+//! `permeant run FILE --csv OUT [--svg OUT] [--sample-ms X]`: integrate the protocol.
+
+use std::io::{BufWriter, IsTerminal, Write};
+use std::path::PathBuf;
+use std::time::Instant;
+
+use anyhow::Context;
+
+use crate::analysis::rest_report;
+use crate::engine::{Budget, Progress, Run, SolverSettings};
+use crate::report::{csv, svg};
+
+#[derive(Debug, clap::Args)]
+pub struct Args {
+    /// The scenario file.
+    file: PathBuf,
+    /// Where to write the samples (CSV).
+    #[arg(long, value_name = "OUT")]
+    csv: PathBuf,
+    /// Also write a figure of V(t) with reversal potentials (SVG).
+    #[arg(long, value_name = "OUT")]
+    svg: Option<PathBuf>,
+    /// Sample interval in ms, instead of the file's run.sample_ms.
+    #[arg(long, value_name = "X")]
+    sample_ms: Option<f64>,
+}
+
+pub fn run(a: Args) -> anyhow::Result<()> {
+    let mut s = super::load(&a.file)?;
+    if let Some(x) = a.sample_ms {
+        s.run.sample_ms = x;
+        if let Some(p) = crate::scenario::validate(&s).first() {
+            return Err(super::bad(format!("--sample-ms {x}: {}", p.message)));
+        }
+    }
+    super::print_warnings(&a.file, &s);
+    let mut run = Run::new(&s, SolverSettings::default()).map_err(|e| super::bad(format!("{}: {e}", a.file.display())))?;
+    let file = std::fs::File::create(&a.csv).map_err(|e| super::bad(format!("cannot write {}: {e}", a.csv.display())))?;
+    let mut w = BufWriter::new(file);
+    let model = run.model().clone();
+    csv::write_header(&mut w, &model, run.trace())?;
+    let mut model = model;
+    let (mut t_all, mut v_all) = (Vec::new(), Vec::new());
+    let keep_figure = a.svg.is_some();
+    let show_progress = std::io::stderr().is_terminal();
+    let started = Instant::now();
+    let mut last_note = Instant::now();
+    loop {
+        let progress = run.advance(Budget::steps(20_000)).map_err(|e| anyhow::anyhow!("{}: {e}", a.file.display()))?;
+        csv::write_rows(&mut w, &mut model, run.trace()).with_context(|| format!("writing {}", a.csv.display()))?;
+        if keep_figure {
+            t_all.extend_from_slice(&run.trace().t_ms);
+            v_all.extend_from_slice(run.trace().v_mv());
+        }
+        run.trace_mut().discard_front();
+        if show_progress && last_note.elapsed().as_secs_f64() > 0.5 {
+            eprint!("\rpermeant: {:.0}% ({:.0} of {:.0} ms)", 100.0 * run.t_ms() / run.duration_ms(), run.t_ms(), run.duration_ms());
+            last_note = Instant::now();
+        }
+        if progress == Progress::Finished {
+            break;
+        }
+    }
+    w.flush().with_context(|| format!("writing {}", a.csv.display()))?;
+    if show_progress {
+        let st = run.stats();
+        eprintln!(
+            "\rpermeant: done in {:.2} s: {} steps accepted, {} rejected, {} derivative evaluations",
+            started.elapsed().as_secs_f64(),
+            st.accepted,
+            st.rejected,
+            st.evaluations
+        );
+    }
+    if let Some(path) = &a.svg {
+        let report = rest_report(&s)?;
+        let fig = svg::Figure {
+            title: if s.title.is_empty() { a.file.display().to_string() } else { s.title.clone() },
+            t_ms: &t_all,
+            v_mv: &v_all,
+            reversals: report.species.iter().enumerate().map(|(i, r)| (r.name.clone(), i, r.reversal_mv)).collect(),
+            ghk_mv: report.ghk_mv.ok(),
+            events: svg::event_spans(&s),
+            duration_ms: s.run.duration_ms,
+        };
+        let text = svg::render(&fig).map_err(|e| anyhow::anyhow!(e))?;
+        crate::scenario::write_atomic(path, text.as_bytes()).map_err(|e| super::bad(format!("cannot write {}: {e}", path.display())))?;
+    }
+    Ok(())
+}
