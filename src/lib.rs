@@ -5,10 +5,13 @@
 //! dependency; `cli` and `ui` are thin fronts over it.
 
 pub mod analysis;
+pub mod autosave;
 pub mod cli;
 pub mod constants;
 pub mod engine;
+pub mod notes;
 pub mod palette;
 pub mod physics;
 pub mod report;
 pub mod scenario;
+pub mod ui;

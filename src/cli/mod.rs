@@ -2,8 +2,10 @@
 //! Each subcommand lives in its own file and is a thin front over the core.
 
 mod check;
+mod fit;
 mod rest;
 mod run;
+mod sweep;
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -45,6 +47,10 @@ enum Command {
     Run(run::Args),
     /// Validate a scenario file: prints `ok`, or the errors (exit status 2).
     Check(check::Args),
+    /// Vary one input over a range: the GHK and the steady-state potential at each value.
+    Sweep(sweep::Args),
+    /// Fit permeability ratios (relative to the first species) to measured potentials.
+    Fit(fit::Args),
 }
 
 /// Parses the arguments, runs, and turns the outcome into command-line.md's exit status.
@@ -60,26 +66,30 @@ pub fn main() -> ExitCode {
         Some(Command::Rest(a)) => rest::run(a),
         Some(Command::Run(a)) => run::run(a),
         Some(Command::Check(a)) => check::run(a),
+        Some(Command::Sweep(a)) => sweep::run(a),
+        Some(Command::Fit(a)) => fit::run(a),
         None => open_window(cli.file),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("permeant: {e:#}");
-            if is_bad_input(&e) { ExitCode::from(2) } else { ExitCode::from(1) }
+            if is_bad_input(&e) {
+                ExitCode::from(2)
+            } else {
+                ExitCode::from(1)
+            }
         }
     }
 }
 
 fn is_bad_input(e: &anyhow::Error) -> bool {
-    e.chain().any(|c| c.is::<BadInput>() || c.is::<crate::scenario::ScenarioError>())
+    e.chain()
+        .any(|c| c.is::<BadInput>() || c.is::<crate::scenario::ScenarioError>())
 }
 
 fn open_window(file: Option<PathBuf>) -> anyhow::Result<()> {
-    use clap::CommandFactory;
-    let _ = file;
-    Cli::command().print_help()?;
-    Ok(())
+    crate::ui::run(file)
 }
 
 /// Reads a scenario, turning its error into bad input (exit 2).

@@ -17,7 +17,11 @@ pub enum Kinetics {
     /// Hodgkin & Huxley 1952 potassium activation, n.
     HhPotassiumActivation,
     /// `x∞ = 1/(1 + e^(−(V' − v_half)/slope))` approached with a fixed time constant.
-    Boltzmann { v_half_mv: f64, slope_mv: f64, tau_ms: f64 },
+    Boltzmann {
+        v_half_mv: f64,
+        slope_mv: f64,
+        tau_ms: f64,
+    },
 }
 
 /// Gate rate arguments are kept within ±2000 mV: beyond that every gate is saturated anyway, and
@@ -60,9 +64,9 @@ impl Kinetics {
     /// Steady-state value x∞ at `v_prime_mv`.
     pub fn steady_state(&self, v_prime_mv: f64) -> f64 {
         match *self {
-            Kinetics::Boltzmann { v_half_mv, slope_mv, .. } => {
-                1.0 / (1.0 + (-(v_prime_mv - v_half_mv) / slope_mv).exp())
-            }
+            Kinetics::Boltzmann {
+                v_half_mv, slope_mv, ..
+            } => 1.0 / (1.0 + (-(v_prime_mv - v_half_mv) / slope_mv).exp()),
             _ => {
                 let (a, b) = self.rates_per_ms(v_prime_mv).unwrap_or((0.0, 1.0));
                 a / (a + b)

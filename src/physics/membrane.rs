@@ -114,7 +114,14 @@ impl Membrane {
             gate_offsets.push(n);
             n += c.gates.len();
         }
-        Self { temperature_c, capacitance_uf_per_cm2, ions, channels, pump, gate_offsets }
+        Self {
+            temperature_c,
+            capacitance_uf_per_cm2,
+            ions,
+            channels,
+            pump,
+            gate_offsets,
+        }
     }
 
     pub fn gate_count(&self) -> usize {
@@ -208,6 +215,11 @@ impl Membrane {
         let ze = f64::from(self.ions[p.exported].charge) * f64::from(p.exported_per_cycle);
         let zi = f64::from(self.ions[p.imported].charge) * f64::from(p.imported_per_cycle);
         let q = ze - zi;
-        Some((p.exported, pump_ua_per_cm2 * ze / q, p.imported, -pump_ua_per_cm2 * zi / q))
+        Some((
+            p.exported,
+            pump_ua_per_cm2 * ze / q,
+            p.imported,
+            -pump_ua_per_cm2 * zi / q,
+        ))
     }
 }

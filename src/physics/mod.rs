@@ -76,7 +76,9 @@ pub enum Undefined {
         "the net current is outward at every potential (no permeant ion can carry inward current), so it never crosses zero"
     )]
     AlwaysOutward,
-    #[error("the net current has no zero crossing at which it increases with potential between -1000 and +1000 mV")]
+    #[error(
+        "the net current has no zero crossing at which it increases with potential between -1000 and +1000 mV"
+    )]
     NoStableCrossing,
     #[error("a concentration, permeability or temperature is not a finite number")]
     NotFinite,
@@ -88,9 +90,9 @@ pub enum Undefined {
 /// method. Each GHK current increases with V, so the root is unique when it exists.
 pub fn ghk_potential_mv(ions: &[Ion], temperature_c: f64) -> Result<f64, Undefined> {
     if !temperature_c.is_finite()
-        || ions.iter().any(|i| {
-            !(i.inside_mm.is_finite() && i.outside_mm.is_finite() && i.p_cm_per_s.is_finite())
-        })
+        || ions
+            .iter()
+            .any(|i| !(i.inside_mm.is_finite() && i.outside_mm.is_finite() && i.p_cm_per_s.is_finite()))
     {
         return Err(Undefined::NotFinite);
     }
@@ -100,25 +102,45 @@ pub fn ghk_potential_mv(ions: &[Ion], temperature_c: f64) -> Result<f64, Undefin
     let net = |v: f64| -> f64 {
         ions.iter()
             .map(|i| {
-                ghk_current_ua_per_cm2(i.p_cm_per_s, i.charge, i.inside_mm, i.outside_mm, v, temperature_c)
+                ghk_current_ua_per_cm2(
+                    i.p_cm_per_s,
+                    i.charge,
+                    i.inside_mm,
+                    i.outside_mm,
+                    v,
+                    temperature_c,
+                )
             })
             .sum()
     };
     let (mut lo, mut hi) = (-1000.0, 1000.0);
     let (mut f_lo, mut f_hi) = (net(lo), net(hi));
     // Widening: far from the root the stable forms approach straight lines or constants, so a
-    // few doublings find a sign change if one exists at all.
+    // few doublings find a sign change if one exists at all. A current that has decayed to
+    // exactly 0 far out (its exponential underflowed, e.g. when the only permeant ion is absent
+    // on one side) has not changed sign, so it ends the widening without making a bracket.
+    let (mut lo_done, mut hi_done) = (false, false);
     for _ in 0..12 {
-        if f_lo <= 0.0 && f_hi >= 0.0 {
+        if (lo_done || f_lo <= 0.0) && (hi_done || f_hi >= 0.0) {
             break;
         }
-        if f_lo > 0.0 {
-            lo *= 2.0;
-            f_lo = net(lo);
+        if !lo_done && f_lo > 0.0 {
+            let f = net(lo * 2.0);
+            if f == 0.0 {
+                lo_done = true;
+            } else {
+                lo *= 2.0;
+                f_lo = f;
+            }
         }
-        if f_hi < 0.0 {
-            hi *= 2.0;
-            f_hi = net(hi);
+        if !hi_done && f_hi < 0.0 {
+            let f = net(hi * 2.0);
+            if f == 0.0 {
+                hi_done = true;
+            } else {
+                hi *= 2.0;
+                f_hi = f;
+            }
         }
     }
     if f_hi < 0.0 {

@@ -8,14 +8,7 @@
 /// Finds a root of `f` in `[a, b]`, given `fa = f(a)` and `fb = f(b)` of opposite signs (or one
 /// of them zero). Stops when the bracket is narrower than `tol` (absolute, in the units of x)
 /// or `f` is exactly 0. Returns `None` if the bracket is not valid or `f` gives a non-finite value.
-pub fn brent(
-    mut f: impl FnMut(f64) -> f64,
-    a: f64,
-    b: f64,
-    fa: f64,
-    fb: f64,
-    tol: f64,
-) -> Option<f64> {
+pub fn brent(mut f: impl FnMut(f64) -> f64, a: f64, b: f64, fa: f64, fb: f64, tol: f64) -> Option<f64> {
     let (mut a, mut b, mut fa, mut fb) = (a, b, fa, fb);
     if !(fa.is_finite() && fb.is_finite()) || fa * fb > 0.0 {
         return None;

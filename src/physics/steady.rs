@@ -30,7 +30,13 @@ fn scan_grid() -> Vec<f64> {
 
 impl Membrane {
     /// Steady-state net current at `v_mv` (gates at x∞(V)), outward positive.
-    pub fn steady_net_current(&self, v_mv: f64, cond: &Conditions, gates: &mut [f64], scratch: &mut [f64]) -> f64 {
+    pub fn steady_net_current(
+        &self,
+        v_mv: f64,
+        cond: &Conditions,
+        gates: &mut [f64],
+        scratch: &mut [f64],
+    ) -> f64 {
         self.steady_gates(v_mv, gates);
         self.net_current(v_mv, gates, cond, scratch)
     }
@@ -40,48 +46,85 @@ impl Membrane {
         let mut gates = vec![0.0; self.gate_count()];
         let mut scratch = vec![0.0; self.ions.len()];
         let all_finite = self.temperature_c.is_finite()
-            && cond.inside_mm.iter().chain(cond.outside_mm).chain(cond.p_factor).all(|x| x.is_finite())
+            && cond
+                .inside_mm
+                .iter()
+                .chain(cond.outside_mm)
+                .chain(cond.p_factor)
+                .all(|x| x.is_finite())
             && cond.inject_ua_per_cm2.is_finite();
         if !all_finite {
-            return SteadyState { crossings: vec![], resting_mv: Err(Undefined::NotFinite) };
+            return SteadyState {
+                crossings: vec![],
+                resting_mv: Err(Undefined::NotFinite),
+            };
         }
         let mut f = |v: f64| self.steady_net_current(v, cond, &mut gates, &mut scratch);
-        let mut xs = if self.channels.is_empty() { vec![-1000.0, 1000.0] } else { scan_grid() };
+        let mut xs = if self.channels.is_empty() {
+            vec![-1000.0, 1000.0]
+        } else {
+            scan_grid()
+        };
         let mut fs: Vec<f64> = xs.iter().map(|&v| f(v)).collect();
         // Widen past ±1000 mV while the ends keep the same sign as their neighbourhood needs.
+        // A current that has decayed to exactly 0 far out (its exponential underflowed, e.g. when
+        // the only permeant ion is absent on one side) has not changed sign: nothing lies beyond.
+        let (mut lo_done, mut hi_done) = (false, false);
         for _ in 0..12 {
             let (f_lo, f_hi) = (fs[0], fs[fs.len() - 1]);
-            if f_lo <= 0.0 && f_hi >= 0.0 {
+            if (lo_done || f_lo <= 0.0) && (hi_done || f_hi >= 0.0) {
                 break;
             }
-            if f_lo > 0.0 {
+            if !lo_done && f_lo > 0.0 {
                 let v = xs[0] * 2.0;
-                xs.insert(0, v);
-                fs.insert(0, f(v));
+                let fv = f(v);
+                if fv == 0.0 {
+                    lo_done = true;
+                } else {
+                    xs.insert(0, v);
+                    fs.insert(0, fv);
+                }
             }
-            if f_hi < 0.0 {
+            if !hi_done && f_hi < 0.0 {
                 let v = xs[xs.len() - 1] * 2.0;
-                xs.push(v);
-                fs.push(f(v));
+                let fv = f(v);
+                if fv == 0.0 {
+                    hi_done = true;
+                } else {
+                    xs.push(v);
+                    fs.push(fv);
+                }
             }
         }
         if fs.iter().any(|x| !x.is_finite()) {
-            return SteadyState { crossings: vec![], resting_mv: Err(Undefined::NotFinite) };
+            return SteadyState {
+                crossings: vec![],
+                resting_mv: Err(Undefined::NotFinite),
+            };
         }
         let mut crossings = Vec::new();
         for k in 0..xs.len() - 1 {
             let (a, b, fa, fb) = (xs[k], xs[k + 1], fs[k], fs[k + 1]);
             if fa == 0.0 {
                 let before = if k > 0 { fs[k - 1] } else { fa };
-                crossings.push(Crossing { v_mv: a, increasing: fb > 0.0 || before < 0.0 });
-            } else if fa * fb < 0.0 {
-                if let Some(v) = root::brent(&mut f, a, b, fa, fb, 1e-12) {
-                    crossings.push(Crossing { v_mv: v, increasing: fb > fa });
-                }
+                crossings.push(Crossing {
+                    v_mv: a,
+                    increasing: fb > 0.0 || before < 0.0,
+                });
+            } else if fa * fb < 0.0
+                && let Some(v) = root::brent(&mut f, a, b, fa, fb, 1e-12)
+            {
+                crossings.push(Crossing {
+                    v_mv: v,
+                    increasing: fb > fa,
+                });
             }
         }
         if fs[fs.len() - 1] == 0.0 {
-            crossings.push(Crossing { v_mv: xs[xs.len() - 1], increasing: true });
+            crossings.push(Crossing {
+                v_mv: xs[xs.len() - 1],
+                increasing: true,
+            });
         }
         let resting_mv = match crossings.iter().find(|c| c.increasing) {
             Some(c) => Ok(c.v_mv),
@@ -89,6 +132,9 @@ impl Membrane {
             None if fs.iter().all(|&x| x > 0.0) => Err(Undefined::AlwaysOutward),
             None => Err(Undefined::NoStableCrossing),
         };
-        SteadyState { crossings, resting_mv }
+        SteadyState {
+            crossings,
+            resting_mv,
+        }
     }
 }

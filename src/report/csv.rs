@@ -54,3 +54,53 @@ pub fn write_rows(w: &mut impl Write, model: &mut Model, trace: &Trace) -> io::R
     }
     Ok(())
 }
+
+/// One trace for a traces export: its name, times and potentials.
+pub struct NamedTrace<'a> {
+    pub name: &'a str,
+    pub t_ms: &'a [f64],
+    pub v_mv: &'a [f64],
+}
+
+/// The current and kept traces as one CSV in long form (`trace,time_ms,v_mv`), so traces
+/// with different sample times sit in one file. Comment lines (`#`) first record the program
+/// version, the scenario title and when it was written.
+pub fn traces_csv(title: &str, traces: &[NamedTrace], written: std::time::SystemTime) -> String {
+    let mut o = String::new();
+    o += &format!("# permeant {}\n", env!("CARGO_PKG_VERSION"));
+    o += &format!("# scenario: {}\n", title.replace(['\n', '\r'], " "));
+    o += &format!("# written: {}\n", humantime::format_rfc3339_seconds(written));
+    o += "trace,time_ms,v_mv\n";
+    for t in traces {
+        let name = field(t.name);
+        for (time, v) in t.t_ms.iter().zip(t.v_mv) {
+            o += &format!("{name},{time},{v}\n");
+        }
+    }
+    o
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn traces_csv_has_its_header_and_one_row_per_sample() {
+        let when = std::time::UNIX_EPOCH + std::time::Duration::from_secs(1_800_000_000);
+        let text = traces_csv(
+            "Raised bath",
+            &[
+                NamedTrace { name: "now", t_ms: &[0.0, 0.5], v_mv: &[-70.0, -69.5] },
+                NamedTrace { name: "with, comma", t_ms: &[0.0], v_mv: &[-60.25] },
+            ],
+            when,
+        );
+        let lines: Vec<&str> = text.lines().collect();
+        assert_eq!(lines[0], format!("# permeant {}", env!("CARGO_PKG_VERSION")));
+        assert_eq!(lines[1], "# scenario: Raised bath");
+        // 1.8e9 s after the epoch is 2027-01-15T08:00:00Z (humantime, checked by hand).
+        assert_eq!(lines[2], "# written: 2027-01-15T08:00:00Z");
+        assert_eq!(lines[3], "trace,time_ms,v_mv");
+        assert_eq!(&lines[4..], ["now,0,-70", "now,0.5,-69.5", "\"with, comma\",0,-60.25"]);
+    }
+}

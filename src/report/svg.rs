@@ -30,14 +30,30 @@ pub fn event_spans(s: &Scenario) -> Vec<(String, f64, f64)> {
             let end = until.unwrap_or(s.run.duration_ms).min(s.run.duration_ms);
             let label = match e {
                 Event::PermeabilityScale { species, factor, .. } => format!("P({species}) ×{factor}"),
-                Event::BathChange { species, outside_mm, .. } => format!("bath {species} → {outside_mm} mM"),
+                Event::BathChange {
+                    species, outside_mm, ..
+                } => format!("bath {species} → {outside_mm} mM"),
                 Event::Agent { label, dose_um, .. } => format!("{label} {dose_um} µM"),
-                Event::Inject { amplitude_ua_per_cm2, .. } => format!("inject {amplitude_ua_per_cm2} µA/cm²"),
-                Event::InjectTrain { amplitude_ua_per_cm2, count, .. } => {
+                Event::Inject {
+                    amplitude_ua_per_cm2, ..
+                } => format!("inject {amplitude_ua_per_cm2} µA/cm²"),
+                Event::InjectTrain {
+                    amplitude_ua_per_cm2,
+                    count,
+                    ..
+                } => {
                     format!("{count} × {amplitude_ua_per_cm2} µA/cm²")
                 }
             };
-            (label, from, if matches!(e, Event::BathChange { .. }) { from } else { end })
+            (
+                label,
+                from,
+                if matches!(e, Event::BathChange { .. }) {
+                    from
+                } else {
+                    end
+                },
+            )
         })
         .collect()
 }
@@ -79,14 +95,21 @@ pub fn render(fig: &Figure) -> Result<String, String> {
     {
         let root = SVGBackend::with_string(&mut out, (1000, 620)).into_drawing_area();
         draw(&root, fig).map_err(|e| format!("could not draw the figure: {e}"))?;
-        root.present().map_err(|e| format!("could not write the figure: {e}"))?;
+        root.present()
+            .map_err(|e| format!("could not write the figure: {e}"))?;
     }
     Ok(out)
 }
 
-fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, plotters::coord::Shift>, fig: &Figure) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
+fn draw<DB: DrawingBackend>(
+    root: &DrawingArea<DB, plotters::coord::Shift>,
+    fig: &Figure,
+) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
     root.fill(&WHITE)?;
-    let t_end = fig.duration_ms.max(fig.t_ms.last().copied().unwrap_or(0.0)).max(1e-9);
+    let t_end = fig
+        .duration_ms
+        .max(fig.t_ms.last().copied().unwrap_or(0.0))
+        .max(1e-9);
     let mut lo = fig.v_mv.iter().copied().fold(f64::INFINITY, f64::min);
     let mut hi = fig.v_mv.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     // Reversal lines within a plausible window widen the axis; far-off ones are labelled at the edge.
@@ -106,7 +129,7 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, plotters::coord::Shift>, fig:
         .margin(16)
         .x_label_area_size(52)
         .y_label_area_size(72)
-        .right_y_label_area_size(110)
+        .margin_right(150)
         .build_cartesian_2d(0.0..t_end, lo..hi)?;
     chart
         .configure_mesh()
@@ -118,24 +141,60 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, plotters::coord::Shift>, fig:
         .draw()?;
     // Events: shaded bands from their start to their end, with the label above.
     for (i, (label, from, until)) in fig.events.iter().enumerate() {
-        let until = if until > from { *until } else { from + t_end * 0.003 };
+        let until = if until > from {
+            *until
+        } else {
+            from + t_end * 0.003
+        };
         let shade = RGBColor(120, 120, 120).mix(0.12);
-        chart.draw_series(std::iter::once(Rectangle::new([(*from, lo), (until, hi)], shade.filled())))?;
+        chart.draw_series(std::iter::once(Rectangle::new(
+            [(*from, lo), (until, hi)],
+            shade.filled(),
+        )))?;
         let y = hi - (hi - lo) * (0.04 + 0.05 * (i % 4) as f64);
-        chart.draw_series(std::iter::once(Text::new(label.clone(), (*from, y), ("sans-serif", 14).into_font())))?;
+        chart.draw_series(std::iter::once(Text::new(
+            label.clone(),
+            (*from, y),
+            ("sans-serif", 14).into_font(),
+        )))?;
     }
+    // Horizontal reference lines, labelled at the right end; labels closer than a line of text
+    // are pushed apart so that none hides another.
+    let mut lines: Vec<(f64, f64, String, RGBColor, bool)> = Vec::new();
     for (name, idx, e) in &fig.reversals {
         let Some(e) = *e else { continue };
-        let c = rgb(species_rgb(*idx));
         let shown = e.clamp(lo, hi);
-        chart.draw_series(DashedLineSeries::new([(0.0, shown), (t_end, shown)], 8, 5, c.stroke_width(2)))?;
-        let note = if (shown - e).abs() > 1e-9 { format!("E {name} {e:.1} mV (off scale)") } else { format!("E {name} {e:.1} mV") };
-        chart.draw_series(std::iter::once(Text::new(note, (t_end, shown), ("sans-serif", 14).into_font().color(&c))))?;
+        let note = if (shown - e).abs() > 1e-9 {
+            format!("E {name} {e:.1} mV (off scale)")
+        } else {
+            format!("E {name} {e:.1} mV")
+        };
+        lines.push((shown, shown, note, rgb(species_rgb(*idx)), true));
     }
     if let Some(g) = fig.ghk_mv.filter(|g| *g > lo && *g < hi) {
-        let c = RGBColor(110, 110, 110);
-        chart.draw_series(DashedLineSeries::new([(0.0, g), (t_end, g)], 3, 4, c.stroke_width(1)))?;
-        chart.draw_series(std::iter::once(Text::new(format!("GHK {g:.1} mV"), (t_end, g), ("sans-serif", 14).into_font().color(&c))))?;
+        lines.push((g, g, format!("GHK {g:.1} mV"), RGBColor(110, 110, 110), false));
+    }
+    lines.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let gap = (hi - lo) * 0.04;
+    for i in 1..lines.len() {
+        if lines[i].1 - lines[i - 1].1 < gap {
+            lines[i].1 = lines[i - 1].1 + gap;
+        }
+    }
+    for (y, label_y, note, c, dashed_long) in &lines {
+        let (dash, space, width) = if *dashed_long { (8, 5, 2) } else { (3, 4, 1) };
+        chart.draw_series(DashedLineSeries::new(
+            [(0.0, *y), (t_end, *y)],
+            dash,
+            space,
+            c.stroke_width(width),
+        ))?;
+        let pos = (t_end + t_end * 0.01, *label_y + (hi - lo) * 0.012);
+        chart.draw_series(std::iter::once(Text::new(
+            note.clone(),
+            pos,
+            ("sans-serif", 14).into_font().color(c),
+        )))?;
     }
     let pts = thin(fig.t_ms, fig.v_mv, 3000);
     chart.draw_series(LineSeries::new(pts, rgb(potential_rgb()).stroke_width(2)))?;
