@@ -7,8 +7,11 @@ use serde::{Deserialize, Serialize};
 
 use super::ghk_factor;
 
-/// The kinetics of one gate. Names are the scenario file's (format 1).
+/// The kinetics of one gate. Names are the scenario file's (format 1); misspelt fields are
+/// refused like everywhere else in the file, so `Boltzmann(tau: 5.0, …)` cannot silently lose
+/// its time constant.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub enum Kinetics {
     /// Hodgkin & Huxley 1952 sodium activation, m.
     HhSodiumActivation,

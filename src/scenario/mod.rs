@@ -11,7 +11,7 @@ use serde::{Deserialize, Serialize};
 
 pub use crate::physics::Kinetics;
 pub use read::{Location, Problem, ScenarioError, from_str, read_file};
-pub use save::{save_atomic, to_ron_string, write_atomic};
+pub use save::{save_atomic, to_ron, to_ron_string, write_atomic};
 pub use validate::{MAX_OUTPUT_SAMPLES, validate, warnings};
 
 /// The newest scenario format this build reads and writes.
@@ -53,7 +53,11 @@ pub struct Cell {
 
 impl Default for Cell {
     fn default() -> Self {
-        Self { diameter_um: 20.0, capacitance_uf_per_cm2: 1.0, track_concentrations: false }
+        Self {
+            diameter_um: 20.0,
+            capacitance_uf_per_cm2: 1.0,
+            track_concentrations: false,
+        }
     }
 }
 
@@ -151,9 +155,19 @@ pub enum Event {
         washout_ms: f64,
     },
     /// One rectangular current pulse, depolarizing when positive.
-    Inject { amplitude_ua_per_cm2: f64, from_ms: f64, until_ms: f64 },
+    Inject {
+        amplitude_ua_per_cm2: f64,
+        from_ms: f64,
+        until_ms: f64,
+    },
     /// `count` rectangular pulses, one every `period_ms`.
-    InjectTrain { amplitude_ua_per_cm2: f64, width_ms: f64, period_ms: f64, count: u32, from_ms: f64 },
+    InjectTrain {
+        amplitude_ua_per_cm2: f64,
+        width_ms: f64,
+        period_ms: f64,
+        count: u32,
+        from_ms: f64,
+    },
 }
 
 fn one() -> f64 {
@@ -185,12 +199,23 @@ impl Event {
     /// When the event is in force, `[start, end)` in ms; `end` is `None` for "to the end".
     pub fn span_ms(&self) -> (f64, Option<f64>) {
         match *self {
-            Event::PermeabilityScale { from_ms, until_ms, .. } | Event::Agent { from_ms, until_ms, .. } => {
-                (from_ms, until_ms)
+            Event::PermeabilityScale {
+                from_ms, until_ms, ..
             }
+            | Event::Agent {
+                from_ms, until_ms, ..
+            } => (from_ms, until_ms),
             Event::BathChange { at_ms, .. } => (at_ms, None),
-            Event::Inject { from_ms, until_ms, .. } => (from_ms, Some(until_ms)),
-            Event::InjectTrain { from_ms, width_ms, period_ms, count, .. } => {
+            Event::Inject {
+                from_ms, until_ms, ..
+            } => (from_ms, Some(until_ms)),
+            Event::InjectTrain {
+                from_ms,
+                width_ms,
+                period_ms,
+                count,
+                ..
+            } => {
                 let last = f64::from(count.saturating_sub(1));
                 (from_ms, Some(from_ms + last * period_ms + width_ms))
             }
@@ -238,14 +263,36 @@ impl Scenario {
             temperature_c: 37.0,
             cell: Cell::default(),
             species: vec![
-                Species { name: "K+".into(), charge: 1, inside_mm: 140.0, outside_mm: 5.0, permeability_cm_per_s: 5.0e-7 },
-                Species { name: "Na+".into(), charge: 1, inside_mm: 12.0, outside_mm: 145.0, permeability_cm_per_s: 2.5e-8 },
-                Species { name: "Cl-".into(), charge: -1, inside_mm: 10.0, outside_mm: 120.0, permeability_cm_per_s: 1.0e-7 },
+                Species {
+                    name: "K+".into(),
+                    charge: 1,
+                    inside_mm: 140.0,
+                    outside_mm: 5.0,
+                    permeability_cm_per_s: 5.0e-7,
+                },
+                Species {
+                    name: "Na+".into(),
+                    charge: 1,
+                    inside_mm: 12.0,
+                    outside_mm: 145.0,
+                    permeability_cm_per_s: 2.5e-8,
+                },
+                Species {
+                    name: "Cl-".into(),
+                    charge: -1,
+                    inside_mm: 10.0,
+                    outside_mm: 120.0,
+                    permeability_cm_per_s: 1.0e-7,
+                },
             ],
             pump: None,
             channels: vec![],
             protocol: vec![],
-            run: RunSettings { duration_ms: 200.0, sample_ms: 0.1, start: Start::Rest },
+            run: RunSettings {
+                duration_ms: 200.0,
+                sample_ms: 0.1,
+                start: Start::Rest,
+            },
         }
     }
 }
