@@ -1034,8 +1034,35 @@ fn gate_power_zero_is_refused() {
     assert_problem(
         &with("power: 4", "power: 0"),
         "channels[1].gates[0].power",
-        &["at least 1"],
+        &["from 1 to 16"],
     );
+}
+
+#[test]
+fn gate_power_too_large_is_refused() {
+    // A power past i32's range once wrapped to a negative exponent (x⁻¹): refused outright.
+    assert_problem(
+        &with("power: 4", "power: 4294967295"),
+        "channels[1].gates[0].power",
+        &["from 1 to 16", "4294967295"],
+    );
+}
+
+#[test]
+fn a_train_with_too_many_pulses_in_the_run_is_refused() {
+    let text = with(
+        "protocol: [",
+        "protocol: [InjectTrain(amplitude_ua_per_cm2: 1.0, width_ms: 1e-6, period_ms: 2e-6, count: 4000000000, from_ms: 0.0),",
+    );
+    let problems = problems_of(&text);
+    assert!(problems.iter().any(|p| p.path.ends_with(".count") && p.message.contains("limit")), "{problems:?}");
+}
+
+#[test]
+fn a_run_longer_than_the_limit_is_refused() {
+    let text = with("duration_ms: 250.0,", "duration_ms: 1e20,");
+    let problems = problems_of(&text);
+    assert!(problems.iter().any(|p| p.path == "run.duration_ms" && p.message.contains("longest run")), "{problems:?}");
 }
 
 #[test]

@@ -11,6 +11,5 @@ pub struct Args {
 pub fn run(a: Args) -> anyhow::Result<()> {
     let s = super::load(&a.file)?;
     super::print_warnings(&a.file, &s);
-    println!("ok");
-    Ok(())
+    super::emit("ok\n")
 }

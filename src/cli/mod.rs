@@ -92,6 +92,19 @@ fn open_window(file: Option<PathBuf>) -> anyhow::Result<()> {
     crate::ui::run(file)
 }
 
+/// Writes command output to stdout. A closed pipe (`permeant rest f.ron | head -1`) ends the
+/// output quietly; any other write failure is reported instead of panicking as `println!` would.
+pub fn emit(text: &str) -> anyhow::Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => {
+            Err(anyhow::anyhow!("cannot write the output: {e}"))
+        }
+        _ => Ok(()),
+    }
+}
+
 /// Reads a scenario, turning its error into bad input (exit 2).
 pub fn load(path: &std::path::Path) -> anyhow::Result<crate::scenario::Scenario> {
     crate::scenario::read_file(path).map_err(anyhow::Error::new)

@@ -44,11 +44,17 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             ghk_mv: r.ghk_mv.as_ref().ok().copied(),
             resting_mv: r.resting_mv(),
             steady_states_mv: r.steady.crossings.iter().map(|c| c.v_mv).collect(),
-            stable_steady_states_mv: r.steady.crossings.iter().filter(|c| c.increasing).map(|c| c.v_mv).collect(),
+            stable_steady_states_mv: r
+                .steady
+                .crossings
+                .iter()
+                .filter(|c| c.increasing)
+                .map(|c| c.v_mv)
+                .collect(),
         };
-        println!("{}", serde_json::to_string(&j)?);
+        super::emit(&format!("{}\n", serde_json::to_string(&j)?))?;
     } else {
-        print!("{}", table(&s.title, &r));
+        super::emit(&table(&s.title, &r))?;
     }
     Ok(())
 }
@@ -63,8 +69,18 @@ pub fn table(title: &str, r: &RestReport) -> String {
     if !title.is_empty() {
         o += &format!("{title}\n");
     }
-    o += &format!("temperature {:.2} °C (RT/F = {:.3} mV)\n\n", r.temperature_c, rt_over_f_mv(r.temperature_c));
-    let name_w = r.species.iter().map(|s| s.name.chars().count()).max().unwrap_or(0).max(7);
+    o += &format!(
+        "temperature {:.2} °C (RT/F = {:.3} mV)\n\n",
+        r.temperature_c,
+        rt_over_f_mv(r.temperature_c)
+    );
+    let name_w = r
+        .species
+        .iter()
+        .map(|s| s.name.chars().count())
+        .max()
+        .unwrap_or(0)
+        .max(7);
     o += &format!(
         "{:<name_w$}  {:>6}  {:>12}  {:>12}  {:>14}  {:>10}  {:>12}\n",
         "species", "charge", "inside (mM)", "outside (mM)", "P (cm/s)", "P/P_max", "E_rev (mV)"
@@ -77,19 +93,32 @@ pub fn table(title: &str, r: &RestReport) -> String {
             format!("{}", s.inside_mm),
             format!("{}", s.outside_mm),
             s.permeability_cm_per_s,
-            s.relative_permeability.map_or("—".to_string(), |x| format!("{x:.4}")),
+            s.relative_permeability
+                .map_or("—".to_string(), |x| format!("{x:.4}")),
             s.reversal_mv.map_or("—".to_string(), |v| format!("{v:.2}")),
         );
     }
     o += "\n";
-    o += &format!("GHK potential (passive, resting permeabilities): {}\n", mv(r.ghk_mv.as_ref().ok().copied()));
-    o += &format!("resting potential (steady state at t = 0, pump and channels included): {}\n", mv(r.resting_mv()));
+    o += &format!(
+        "GHK potential (passive, resting permeabilities): {}\n",
+        mv(r.ghk_mv.as_ref().ok().copied())
+    );
+    o += &format!(
+        "resting potential (steady state at t = 0, pump and channels included): {}\n",
+        mv(r.resting_mv())
+    );
     if r.steady.crossings.len() > 1 {
         let list: Vec<String> = r
             .steady
             .crossings
             .iter()
-            .map(|c| format!("{:.2} mV ({})", c.v_mv, if c.increasing { "stable in V" } else { "unstable" }))
+            .map(|c| {
+                format!(
+                    "{:.2} mV ({})",
+                    c.v_mv,
+                    if c.increasing { "stable in V" } else { "unstable" }
+                )
+            })
             .collect();
         o += &format!("all steady states: {}\n", list.join(", "));
     }

@@ -4,8 +4,6 @@ use std::io::{BufWriter, IsTerminal, Write};
 use std::path::PathBuf;
 use std::time::Instant;
 
-use anyhow::Context;
-
 use crate::analysis::rest_report;
 use crate::engine::{Budget, Progress, Run, SolverSettings};
 use crate::report::{csv, svg};
@@ -34,34 +32,53 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         }
     }
     super::print_warnings(&a.file, &s);
-    let mut run = Run::new(&s, SolverSettings::default()).map_err(|e| super::bad(format!("{}: {e}", a.file.display())))?;
-    let file = std::fs::File::create(&a.csv).map_err(|e| super::bad(format!("cannot write {}: {e}", a.csv.display())))?;
-    let mut w = BufWriter::new(file);
-    let model = run.model().clone();
-    csv::write_header(&mut w, &model, run.trace())?;
-    let mut model = model;
+    let mut run = Run::new(&s, SolverSettings::default())
+        .map_err(|e| super::bad(format!("{}: {e}", a.file.display())))?;
     let (mut t_all, mut v_all) = (Vec::new(), Vec::new());
     let keep_figure = a.svg.is_some();
     let show_progress = std::io::stderr().is_terminal();
     let started = Instant::now();
-    let mut last_note = Instant::now();
-    loop {
-        let progress = run.advance(Budget::steps(20_000)).map_err(|e| anyhow::anyhow!("{}: {e}", a.file.display()))?;
-        csv::write_rows(&mut w, &mut model, run.trace()).with_context(|| format!("writing {}", a.csv.display()))?;
-        if keep_figure {
-            t_all.extend_from_slice(&run.trace().t_ms);
-            v_all.extend_from_slice(run.trace().v_mv());
+    // The run streams into a temporary file that replaces the target only when the whole run
+    // succeeded: a failed run never leaves a truncated CSV that looks complete.
+    let mut failure: Option<anyhow::Error> = None;
+    let written = crate::scenario::write_atomic_with(&a.csv, |file| {
+        let mut w = BufWriter::new(file);
+        let mut model = run.model().clone();
+        csv::write_header(&mut w, &model, run.trace())?;
+        let mut last_note = Instant::now();
+        loop {
+            let progress = match run.advance(Budget::steps(20_000)) {
+                Ok(p) => p,
+                Err(e) => {
+                    failure = Some(anyhow::anyhow!("{}: {e}", a.file.display()));
+                    return Err(std::io::Error::other("the run failed"));
+                }
+            };
+            csv::write_rows(&mut w, &mut model, run.trace())?;
+            if keep_figure {
+                t_all.extend_from_slice(&run.trace().t_ms);
+                v_all.extend_from_slice(run.trace().v_mv());
+            }
+            run.trace_mut().discard_front();
+            if show_progress && last_note.elapsed().as_secs_f64() > 0.5 {
+                eprint!(
+                    "\rpermeant: {:.0}% ({:.0} of {:.0} ms)",
+                    100.0 * run.t_ms() / run.duration_ms(),
+                    run.t_ms(),
+                    run.duration_ms()
+                );
+                last_note = Instant::now();
+            }
+            if progress == Progress::Finished {
+                break;
+            }
         }
-        run.trace_mut().discard_front();
-        if show_progress && last_note.elapsed().as_secs_f64() > 0.5 {
-            eprint!("\rpermeant: {:.0}% ({:.0} of {:.0} ms)", 100.0 * run.t_ms() / run.duration_ms(), run.t_ms(), run.duration_ms());
-            last_note = Instant::now();
-        }
-        if progress == Progress::Finished {
-            break;
-        }
+        w.flush()
+    });
+    if let Some(e) = failure {
+        return Err(e);
     }
-    w.flush().with_context(|| format!("writing {}", a.csv.display()))?;
+    written.map_err(|e| super::bad(format!("cannot write {}: {e}", a.csv.display())))?;
     if show_progress {
         let st = run.stats();
         eprintln!(
@@ -75,16 +92,26 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     if let Some(path) = &a.svg {
         let report = rest_report(&s)?;
         let fig = svg::Figure {
-            title: if s.title.is_empty() { a.file.display().to_string() } else { s.title.clone() },
+            title: if s.title.is_empty() {
+                a.file.display().to_string()
+            } else {
+                s.title.clone()
+            },
             t_ms: &t_all,
             v_mv: &v_all,
-            reversals: report.species.iter().enumerate().map(|(i, r)| (r.name.clone(), i, r.reversal_mv)).collect(),
+            reversals: report
+                .species
+                .iter()
+                .enumerate()
+                .map(|(i, r)| (r.name.clone(), i, r.reversal_mv))
+                .collect(),
             ghk_mv: report.ghk_mv.ok(),
             events: svg::event_spans(&s),
             duration_ms: s.run.duration_ms,
         };
         let text = svg::render(&fig).map_err(|e| anyhow::anyhow!(e))?;
-        crate::scenario::write_atomic(path, text.as_bytes()).map_err(|e| super::bad(format!("cannot write {}: {e}", path.display())))?;
+        crate::scenario::write_atomic(path, text.as_bytes())
+            .map_err(|e| super::bad(format!("cannot write {}: {e}", path.display())))?;
     }
     Ok(())
 }

@@ -50,7 +50,7 @@ impl GatedChannel {
         self.gates
             .iter()
             .zip(x)
-            .map(|((_, p), &x)| x.clamp(0.0, 1.0).powi(*p as i32))
+            .map(|((_, p), &x)| x.clamp(0.0, 1.0).powi(i32::try_from(*p).unwrap_or(i32::MAX)))
             .product()
     }
 }

@@ -21,10 +21,32 @@ pub struct SteadyState {
 
 /// Grid used to find every crossing when gates make the current non-monotonic: fine where
 /// gates move, coarse outside, where the current is nearly a sum of straight lines.
-fn scan_grid() -> Vec<f64> {
+/// Steep Boltzmann gates (a slope of a fraction of a millivolt) can make two crossings within
+/// one 2 mV cell, so the grid is refined to half a slope around each gate's midpoint.
+fn scan_grid(m: &Membrane) -> Vec<f64> {
     let mut g: Vec<f64> = (0..32).map(|k| -1000.0 + 25.0 * f64::from(k)).collect(); // −1000..−225
     g.extend((0..=200).map(|k| -200.0 + 2.0 * f64::from(k))); // −200..200 by 2 mV
     g.extend((1..=32).map(|k| 200.0 + 25.0 * f64::from(k))); // 225..1000
+    for ch in &m.channels {
+        for (k, _) in &ch.gates {
+            if let crate::physics::Kinetics::Boltzmann {
+                v_half_mv, slope_mv, ..
+            } = *k
+            {
+                let step = (slope_mv.abs() / 2.0).max(1e-3);
+                if step < 2.0 {
+                    let mid = v_half_mv + ch.shift_mv;
+                    g.extend(
+                        (-32..=32)
+                            .map(|j| mid + step * f64::from(j))
+                            .filter(|v| v.abs() < 1000.0),
+                    );
+                }
+            }
+        }
+    }
+    g.sort_by(f64::total_cmp);
+    g.dedup();
     g
 }
 
@@ -63,7 +85,7 @@ impl Membrane {
         let mut xs = if self.channels.is_empty() {
             vec![-1000.0, 1000.0]
         } else {
-            scan_grid()
+            scan_grid(self)
         };
         let mut fs: Vec<f64> = xs.iter().map(|&v| f(v)).collect();
         // Widen past ±1000 mV while the ends keep the same sign as their neighbourhood needs.
@@ -109,7 +131,7 @@ impl Membrane {
                 let before = if k > 0 { fs[k - 1] } else { fa };
                 crossings.push(Crossing {
                     v_mv: a,
-                    increasing: fb > 0.0 || before < 0.0,
+                    increasing: fb > 0.0 && before <= 0.0,
                 });
             } else if fa * fb < 0.0
                 && let Some(v) = root::brent(&mut f, a, b, fa, fb, 1e-12)

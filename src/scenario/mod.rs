@@ -11,7 +11,7 @@ use serde::{Deserialize, Serialize};
 
 pub use crate::physics::Kinetics;
 pub use read::{Location, Problem, ScenarioError, from_str, read_file};
-pub use save::{save_atomic, to_ron, to_ron_string, write_atomic};
+pub use save::{save_atomic, to_ron, to_ron_string, write_atomic, write_atomic_with};
 pub use validate::{MAX_OUTPUT_SAMPLES, validate, warnings};
 
 /// The newest scenario format this build reads and writes.

@@ -35,6 +35,15 @@ pub fn save_atomic(s: &Scenario, path: &Path) -> std::io::Result<()> {
 /// Writes bytes to `path` through a temporary file in the same directory and a rename.
 /// On failure the temporary file is removed and the target is untouched.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    write_atomic_with(path, |f| f.write_all(bytes))
+}
+
+/// Like [`write_atomic`], for output produced as it goes (a long run's CSV): `fill` writes the
+/// temporary file, and only when it succeeds does the file replace the target.
+pub fn write_atomic_with(
+    path: &Path,
+    fill: impl FnOnce(&mut std::fs::File) -> std::io::Result<()>,
+) -> std::io::Result<()> {
     // Through a symbolic link, replace the file it points at rather than the link itself.
     let target = std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf());
     let dir = match target.parent() {
@@ -54,7 +63,7 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
             .write(true)
             .create_new(true)
             .open(&tmp)?;
-        f.write_all(bytes)?;
+        fill(&mut f)?;
         // Keep the permissions of the file being replaced (a shared, read-only-for-others file
         // stays so); a new file gets the usual ones.
         if let Ok(meta) = std::fs::metadata(&target) {

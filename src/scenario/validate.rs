@@ -6,6 +6,12 @@ use std::collections::HashSet;
 
 /// Largest number of output samples a run may ask for.
 pub const MAX_OUTPUT_SAMPLES: f64 = 1e7;
+/// Longest run, ms (about 11.6 days): beyond it a stepper's time no longer resolves its steps.
+pub const MAX_DURATION_MS: f64 = 1e9;
+/// Largest gate power: published channels use at most 4; far larger ones only underflow.
+pub const MAX_GATE_POWER: u32 = 16;
+/// Most injected-pulse edges a run may hold (two per pulse): the stepper stops at each one.
+pub const MAX_PULSE_EDGES: f64 = 1e7;
 
 /// Temperatures the model accepts, °C; outside `WARN_*` a warning is shown.
 const MIN_TEMPERATURE_C: f64 = -5.0;
@@ -235,8 +241,14 @@ pub fn validate(s: &Scenario) -> Vec<Problem> {
         }
         for (j, g) in ch.gates.iter().enumerate() {
             let gp = format!("{p}.gates[{j}]");
-            if g.power == 0 {
-                c.fail(format!("{gp}.power"), "a gate power must be at least 1");
+            if g.power == 0 || g.power > MAX_GATE_POWER {
+                c.fail(
+                    format!("{gp}.power"),
+                    format!(
+                        "a gate power must be from 1 to {MAX_GATE_POWER} (got {})",
+                        g.power
+                    ),
+                );
             }
             if let Kinetics::Boltzmann {
                 v_half_mv,
@@ -352,11 +364,37 @@ pub fn validate(s: &Scenario) -> Vec<Problem> {
                         format!("a pulse ({width_ms} ms) cannot be longer than the period ({period_ms} ms)"),
                     );
                 }
+                // Pulses that start within the run, and whether their edges stay apart in f64.
+                if *period_ms > 0.0 && *width_ms > 0.0 && s.run.duration_ms.is_finite() && from_ms.is_finite()
+                {
+                    let within = ((s.run.duration_ms - from_ms) / period_ms).floor() + 1.0;
+                    let pulses = within.clamp(0.0, f64::from(*count));
+                    if 2.0 * pulses > MAX_PULSE_EDGES {
+                        c.fail(
+                            format!("{p}.count"),
+                            format!("{pulses:.0} pulses fall within the run, more than the limit of {:.0}; use a longer period or fewer pulses", MAX_PULSE_EDGES / 2.0),
+                        );
+                    } else if pulses > 0.0 && *width_ms < 1e-9 * (from_ms + pulses * period_ms).max(1.0) {
+                        c.fail(
+                            format!("{p}.width_ms"),
+                            format!("a pulse of {width_ms} ms is too short to tell its start from its end this far into the run"),
+                        );
+                    }
+                }
             }
         }
     }
 
     c.positive("run.duration_ms", s.run.duration_ms, "the duration");
+    if s.run.duration_ms > MAX_DURATION_MS {
+        c.fail(
+            "run.duration_ms",
+            format!(
+                "{} ms is longer than the longest run this program integrates ({MAX_DURATION_MS:e} ms)",
+                s.run.duration_ms
+            ),
+        );
+    }
     c.positive("run.sample_ms", s.run.sample_ms, "the sample interval");
     if s.run.duration_ms.is_finite() && s.run.sample_ms.is_finite() && s.run.sample_ms > 0.0 {
         let n = (s.run.duration_ms / s.run.sample_ms).floor() + 1.0;
