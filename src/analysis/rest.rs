@@ -39,7 +39,12 @@ impl RestReport {
 pub fn file_ions(s: &Scenario) -> Vec<Ion> {
     s.species
         .iter()
-        .map(|x| Ion { charge: x.charge, inside_mm: x.inside_mm, outside_mm: x.outside_mm, p_cm_per_s: x.permeability_cm_per_s })
+        .map(|x| Ion {
+            charge: x.charge,
+            inside_mm: x.inside_mm,
+            outside_mm: x.outside_mm,
+            p_cm_per_s: x.permeability_cm_per_s,
+        })
         .collect()
 }
 
@@ -51,7 +56,11 @@ pub fn rest_report(s: &Scenario) -> Result<RestReport, EngineError> {
 
 /// The report for a scenario whose model is already built.
 pub fn rest_report_with(s: &Scenario, model: &mut Model) -> RestReport {
-    let p_max = s.species.iter().map(|x| x.permeability_cm_per_s).fold(0.0, f64::max);
+    let p_max = s
+        .species
+        .iter()
+        .map(|x| x.permeability_cm_per_s)
+        .fold(0.0, f64::max);
     let species = s
         .species
         .iter()

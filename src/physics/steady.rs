@@ -19,14 +19,15 @@ pub struct SteadyState {
     pub resting_mv: Result<f64, Undefined>,
 }
 
-/// Grid used to find every crossing when gates make the current non-monotonic: fine where
-/// gates move, coarse outside, where the current is nearly a sum of straight lines.
-/// Steep Boltzmann gates (a slope of a fraction of a millivolt) can make two crossings within
-/// one 2 mV cell, so the grid is refined to half a slope around each gate's midpoint.
+/// Grid used to find every crossing when gates make the current non-monotonic: 4 mV steps where
+/// gates move, a few points outside ±200 mV, where gates are saturated and the current is a sum
+/// of GHK curves. Steep Boltzmann gates (a slope of a fraction of a millivolt) can make two
+/// crossings within one cell, so the grid is refined to half a slope around each gate's midpoint;
+/// any other pair of crossings hidden inside one cell is found by [`refine_near_misses`].
 fn scan_grid(m: &Membrane) -> Vec<f64> {
-    let mut g: Vec<f64> = (0..32).map(|k| -1000.0 + 25.0 * f64::from(k)).collect(); // −1000..−225
-    g.extend((0..=200).map(|k| -200.0 + 2.0 * f64::from(k))); // −200..200 by 2 mV
-    g.extend((1..=32).map(|k| 200.0 + 25.0 * f64::from(k))); // 225..1000
+    let mut g = vec![-1000.0, -600.0, -400.0, -300.0, -250.0];
+    g.extend((0..=100).map(|k| -200.0 + 4.0 * f64::from(k))); // −200..200 by 4 mV
+    g.extend([250.0, 300.0, 400.0, 600.0, 1000.0]);
     for ch in &m.channels {
         for (k, _) in &ch.gates {
             if let crate::physics::Kinetics::Boltzmann {
@@ -34,7 +35,7 @@ fn scan_grid(m: &Membrane) -> Vec<f64> {
             } = *k
             {
                 let step = (slope_mv.abs() / 2.0).max(1e-3);
-                if step < 2.0 {
+                if step < 4.0 {
                     let mid = v_half_mv + ch.shift_mv;
                     g.extend(
                         (-32..=32)
@@ -48,6 +49,44 @@ fn scan_grid(m: &Membrane) -> Vec<f64> {
     g.sort_by(f64::total_cmp);
     g.dedup();
     g
+}
+
+/// Where |I| has a local minimum on the grid without a sign change, the curve may dip through
+/// zero and back between grid points: sample the two cells around it 16 times finer, twice over.
+fn refine_near_misses(xs: &mut Vec<f64>, fs: &mut Vec<f64>, f: &mut impl FnMut(f64) -> f64) {
+    for _ in 0..2 {
+        let mut added = false;
+        let mut k = 1;
+        while k + 1 < xs.len() {
+            let (a, b, c) = (fs[k - 1], fs[k], fs[k + 1]);
+            let same_sign = (a > 0.0 && b > 0.0 && c > 0.0) || (a < 0.0 && b < 0.0 && c < 0.0);
+            if same_sign && b.abs() < a.abs() && b.abs() < c.abs() {
+                let (lo, hi) = (xs[k - 1], xs[k + 1]);
+                let mut nx = Vec::with_capacity(31);
+                let mut nf = Vec::with_capacity(31);
+                for j in 1..32 {
+                    let v = lo + (hi - lo) * f64::from(j) / 32.0;
+                    if v != xs[k] {
+                        nx.push(v);
+                        nf.push(f(v));
+                    }
+                }
+                let mut merged: Vec<(f64, f64)> = nx.into_iter().zip(nf).collect();
+                merged.push((xs[k], fs[k]));
+                merged.sort_by(|p, q| p.0.total_cmp(&q.0));
+                let n = merged.len();
+                xs.splice(k..k + 1, merged.iter().map(|p| p.0));
+                fs.splice(k..k + 1, merged.iter().map(|p| p.1));
+                k += n + 1;
+                added = true;
+            } else {
+                k += 1;
+            }
+        }
+        if !added {
+            break;
+        }
+    }
 }
 
 impl Membrane {
@@ -88,6 +127,9 @@ impl Membrane {
             scan_grid(self)
         };
         let mut fs: Vec<f64> = xs.iter().map(|&v| f(v)).collect();
+        if !self.channels.is_empty() {
+            refine_near_misses(&mut xs, &mut fs, &mut f);
+        }
         // Widen past ±1000 mV while the ends keep the same sign as their neighbourhood needs.
         // A current that has decayed to exactly 0 far out (its exponential underflowed, e.g. when
         // the only permeant ion is absent on one side) has not changed sign: nothing lies beyond.

@@ -1,0 +1,268 @@
+//! `permeant sweep FILE --vary WHAT --from A --to B --points N [--log] [--csv OUT] [--json]`:
+//! the GHK and steady-state potentials across a range of one input, on every core.
+
+use std::io::IsTerminal;
+use std::path::PathBuf;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::time::Duration;
+
+use serde::Serialize;
+
+use crate::analysis::sweep::{NernstLine, SweepControl, SweepPoint, SweepRange, Vary, nernst_line, sweep};
+use crate::physics::Undefined;
+
+#[derive(Debug, clap::Args)]
+pub struct Args {
+    /// The scenario file.
+    file: PathBuf,
+    /// What to vary: temperature_c, outside_mm:NAME, inside_mm:NAME, permeability:NAME (NAME a
+    /// species) or dose_um:LABEL (LABEL an agent).
+    #[arg(long, value_name = "WHAT")]
+    vary: String,
+    /// First value of the range.
+    #[arg(long, value_name = "A", allow_negative_numbers = true)]
+    from: f64,
+    /// Last value of the range.
+    #[arg(long, value_name = "B", allow_negative_numbers = true)]
+    to: f64,
+    /// Number of values, ends included.
+    #[arg(long, value_name = "N")]
+    points: usize,
+    /// Space the values evenly on a log scale (both ends above 0).
+    #[arg(long)]
+    log: bool,
+    /// Also write `value,ghk_mv,resting_mv` rows to this CSV file (an undefined potential is an
+    /// empty cell).
+    #[arg(long, value_name = "OUT")]
+    csv: Option<PathBuf>,
+    /// Print one JSON object instead of a table.
+    #[arg(long)]
+    json: bool,
+}
+
+#[derive(Serialize)]
+struct PointJson {
+    value: f64,
+    ghk_mv: Option<f64>,
+    resting_mv: Option<f64>,
+}
+
+#[derive(Serialize)]
+struct SweepJson<'a> {
+    vary: &'a str,
+    points: Vec<PointJson>,
+}
+
+pub fn run(a: Args) -> anyhow::Result<()> {
+    let s = super::load(&a.file)?;
+    super::print_warnings(&a.file, &s);
+    let in_file = |e: &dyn std::fmt::Display| format!("{}: {e}", a.file.display());
+    let vary =
+        Vary::parse(&a.vary, &s).map_err(|e| super::bad(format!("{}: --vary: {e}", a.file.display())))?;
+    let range = SweepRange {
+        from: a.from,
+        to: a.to,
+        points: a.points,
+        log: a.log,
+    };
+
+    let progress = Arc::new(AtomicUsize::new(0));
+    let control = SweepControl {
+        progress: Some(progress.clone()),
+        cancel: None,
+    };
+    let done = Arc::new(AtomicBool::new(false));
+    let points = std::thread::scope(|scope| {
+        if std::io::stderr().is_terminal() {
+            let (progress, done, n) = (progress.clone(), done.clone(), a.points);
+            scope.spawn(move || {
+                let mut shown = false;
+                loop {
+                    std::thread::sleep(Duration::from_millis(250));
+                    if done.load(Ordering::Relaxed) {
+                        break;
+                    }
+                    eprint!("\rpermeant: {} of {n} points", progress.load(Ordering::Relaxed));
+                    shown = true;
+                }
+                if shown {
+                    eprintln!();
+                }
+            });
+        }
+        let r = sweep(&s, &vary, &range, &control);
+        done.store(true, Ordering::Relaxed);
+        r
+    })
+    .map_err(|e| {
+        let msg = in_file(&e);
+        if e.is_bad_input() {
+            super::bad(msg)
+        } else {
+            anyhow::anyhow!(msg)
+        }
+    })?;
+
+    report_undefined(&vary, &points);
+    if let Some(path) = &a.csv {
+        crate::scenario::write_atomic(path, csv(&points).as_bytes())
+            .map_err(|e| super::bad(format!("cannot write {}: {e}", path.display())))?;
+    }
+    if a.json {
+        let j = SweepJson {
+            vary: &a.vary,
+            points: points
+                .iter()
+                .map(|p| PointJson {
+                    value: p.value,
+                    ghk_mv: p.ghk_mv,
+                    resting_mv: p.resting_mv,
+                })
+                .collect(),
+        };
+        super::emit(&format!("{}\n", serde_json::to_string(&j)?))?;
+    } else {
+        let values: Vec<f64> = points.iter().map(|p| p.value).collect();
+        super::emit(&table(
+            &s.title,
+            &vary,
+            &range,
+            &points,
+            nernst_line(&s, &vary, &values).as_ref(),
+        ))?;
+    }
+    Ok(())
+}
+
+/// One stderr line per distinct reason a potential is undefined, with how often and where first.
+fn report_undefined(vary: &Vary, points: &[SweepPoint]) {
+    for (what, get) in [
+        (
+            "GHK potential",
+            (|p: &SweepPoint| p.ghk_undefined.clone()) as fn(&SweepPoint) -> Option<Undefined>,
+        ),
+        ("resting potential", |p: &SweepPoint| p.resting_undefined.clone()),
+    ] {
+        let mut seen: Vec<(Undefined, usize, f64)> = Vec::new();
+        for p in points {
+            if let Some(why) = get(p) {
+                match seen.iter_mut().find(|x| x.0 == why) {
+                    Some(x) => x.1 += 1,
+                    None => seen.push((why, 1, p.value)),
+                }
+            }
+        }
+        for (why, count, first) in seen {
+            eprintln!(
+                "permeant: the {what} is undefined at {count} point(s), first at {vary} = {first}: {why}"
+            );
+        }
+    }
+}
+
+fn cell(x: Option<f64>) -> String {
+    x.map_or(String::new(), |v| format!("{v}"))
+}
+
+/// `value,ghk_mv,resting_mv` rows; shortest round-trip numbers, an empty cell where undefined.
+pub fn csv(points: &[SweepPoint]) -> String {
+    let mut o = String::from("value,ghk_mv,resting_mv\n");
+    for p in points {
+        o += &format!("{},{},{}\n", p.value, cell(p.ghk_mv), cell(p.resting_mv));
+    }
+    o
+}
+
+/// A value for reading: up to six significant digits, scientific form outside 0.001–10⁶.
+fn readable(x: f64) -> String {
+    if x == 0.0 {
+        "0".to_string()
+    } else if (1e-3..1e6).contains(&x.abs()) {
+        let digits = (5 - x.abs().log10().floor() as i32).clamp(0, 9) as usize;
+        let s = format!("{x:.digits$}");
+        if s.contains('.') {
+            s.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            s
+        }
+    } else {
+        format!("{x:.5e}")
+    }
+}
+
+fn mv(x: Option<f64>) -> String {
+    x.map_or("—".to_string(), |v| format!("{v:.2}"))
+}
+
+/// The human-readable table.
+fn table(
+    title: &str,
+    vary: &Vary,
+    range: &SweepRange,
+    points: &[SweepPoint],
+    nernst: Option<&NernstLine>,
+) -> String {
+    let mut o = String::new();
+    if !title.is_empty() {
+        o += &format!("{title}\n");
+    }
+    o += &format!(
+        "{} from {} to {}, {} point(s), {} spacing\n",
+        vary.label(),
+        readable(range.from),
+        readable(range.to),
+        range.points,
+        if range.log { "log" } else { "linear" }
+    );
+    if let Some(n) = nernst {
+        o += &format!(
+            "E_{} is its Nernst potential ({:+.2} mV per decade)\n",
+            n.species, n.slope_mv_per_decade
+        );
+    }
+    o += "\n";
+    let head = format!("{} ({})", vary.quantity(), vary.unit());
+    let w = head.chars().count().max(12);
+    o += &format!("{head:>w$}  {:>10}  {:>12}", "GHK (mV)", "resting (mV)");
+    if let Some(n) = nernst {
+        o += &format!("  {:>12}", format!("E_{} (mV)", n.species));
+    }
+    o += "\n";
+    for (k, p) in points.iter().enumerate() {
+        o += &format!(
+            "{:>w$}  {:>10}  {:>12}",
+            readable(p.value),
+            mv(p.ghk_mv),
+            mv(p.resting_mv)
+        );
+        if let Some(n) = nernst {
+            o += &format!("  {:>12}", mv(n.e_mv.get(k).copied().flatten()));
+        }
+        o += "\n";
+    }
+    o
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn csv_writes_undefined_as_an_empty_cell() {
+        let p = |value: f64, ghk_mv: Option<f64>, resting_mv: Option<f64>| SweepPoint {
+            value,
+            ghk_mv,
+            resting_mv,
+            ghk_undefined: ghk_mv.is_none().then_some(Undefined::AlwaysOutward),
+            resting_undefined: resting_mv.is_none().then_some(Undefined::AlwaysOutward),
+        };
+        let text = csv(&[p(0.1, Some(-70.25), Some(-71.0)), p(0.0, None, None)]);
+        assert_eq!(text, "value,ghk_mv,resting_mv\n0.1,-70.25,-71\n0,,\n");
+        assert_eq!(readable(1.2589254117941673), "1.25893");
+        assert_eq!(readable(150.0), "150");
+        assert_eq!(readable(2.5e-8), "2.50000e-8");
+        assert_eq!(readable(0.0), "0");
+        assert_eq!(readable(-12.5), "-12.5");
+    }
+}

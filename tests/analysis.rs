@@ -1,0 +1,807 @@
+//! Sweeps, fits, trace metrics and dose–response against outside references: the Nernst slope
+//! from CODATA constants, the resting permeability ratio of Hodgkin & Katz 1949, the statistics
+//! of least-squares standard errors, and exact agreement with the single-point resting report.
+//! Each check names its source; "from memory" marks a published value quoted without the paper
+//! at hand, "common practice" a textbook-level fact with no single source. The cells below are
+//! invented for these tests.
+
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+
+use permeant::analysis::fit::{DataError, DataPoint, FitError, FitSpace, fit, parse_points};
+use permeant::analysis::metrics::{SpikeSettings, dose_response, first_event_ms, trace_metrics};
+use permeant::analysis::rest_report;
+use permeant::analysis::sweep::{
+    SweepControl, SweepError, SweepPoint, SweepRange, Vary, apply, nernst_line, sweep, sweep_point,
+};
+use permeant::constants::nernst_slope_mv_per_decade;
+use permeant::engine::{Model, Run, SolverSettings};
+use permeant::physics::{Conditions, Kinetics};
+use permeant::scenario::{Channel, Event, Gate, Pump, Scenario, Species};
+
+// ---------------------------------------------------------------------------------------------
+// Cells
+
+fn species(name: &str, charge: i32, inside_mm: f64, outside_mm: f64, p_cm_per_s: f64) -> Species {
+    Species {
+        name: name.into(),
+        charge,
+        inside_mm,
+        outside_mm,
+        permeability_cm_per_s: p_cm_per_s,
+    }
+}
+
+/// A passive cell with K+, Na+ and Cl- permeabilities in the ratio 1 : r_na : r_cl.
+fn passive(temperature_c: f64, r_na: f64, r_cl: f64) -> Scenario {
+    let mut s = Scenario::new_default();
+    s.temperature_c = temperature_c;
+    s.species = vec![
+        species("K+", 1, 140.0, 5.0, 1.0e-6),
+        species("Na+", 1, 12.0, 145.0, r_na * 1.0e-6),
+        species("Cl-", -1, 10.0, 120.0, r_cl * 1.0e-6),
+    ];
+    s
+}
+
+/// A cold-water giant axon in round invented numbers, at the resting ratio of Hodgkin & Katz.
+fn axon_hodgkin_katz() -> Scenario {
+    let mut s = Scenario::new_default();
+    s.temperature_c = 18.0;
+    s.species = vec![
+        species("K+", 1, 360.0, 10.0, 1.0e-6),
+        species("Na+", 1, 50.0, 440.0, 0.04e-6),
+        species("Cl-", -1, 70.0, 500.0, 0.45e-6),
+    ];
+    s
+}
+
+/// An excitable cell (Hodgkin–Huxley 1952 gates on GHK channels) with a pump, a sodium-channel
+/// blocker arriving at 60 ms and a train of suprathreshold pulses.
+fn excitable() -> Scenario {
+    let mut s = Scenario::new_default();
+    s.temperature_c = 6.3;
+    s.species = vec![
+        species("K+", 1, 140.0, 5.0, 5.0e-7),
+        species("Na+", 1, 12.0, 145.0, 1.0e-8),
+        species("Cl-", -1, 10.0, 120.0, 5.0e-8),
+    ];
+    s.pump = Some(Pump {
+        exports: "Na+".into(),
+        imports: "K+".into(),
+        exported_per_cycle: 3,
+        imported_per_cycle: 2,
+        max_current_ua_per_cm2: 0.5,
+        half_saturation_inside_mm: 10.0,
+        hill_inside: 1.0,
+        half_saturation_outside_mm: 1.5,
+        hill_outside: 1.0,
+    });
+    s.channels = vec![
+        Channel {
+            label: "fast sodium".into(),
+            species: "Na+".into(),
+            max_permeability_cm_per_s: 8.0e-5,
+            shift_mv: 0.0,
+            q10: 3.0,
+            reference_temperature_c: 6.3,
+            gates: vec![
+                Gate {
+                    kinetics: Kinetics::HhSodiumActivation,
+                    power: 3,
+                },
+                Gate {
+                    kinetics: Kinetics::HhSodiumInactivation,
+                    power: 1,
+                },
+            ],
+        },
+        Channel {
+            label: "delayed potassium".into(),
+            species: "K+".into(),
+            max_permeability_cm_per_s: 2.5e-5,
+            shift_mv: 0.0,
+            q10: 3.0,
+            reference_temperature_c: 6.3,
+            gates: vec![Gate {
+                kinetics: Kinetics::HhPotassiumActivation,
+                power: 4,
+            }],
+        },
+    ];
+    s.protocol = vec![
+        Event::Agent {
+            label: "sodium blocker".into(),
+            species: "Na+".into(),
+            max_block: 1.0,
+            ic50_um: 1.0,
+            hill: 1.0,
+            dose_um: 3.0,
+            from_ms: 60.0,
+            until_ms: None,
+            onset_ms: 5.0,
+            washout_ms: 5.0,
+        },
+        Event::InjectTrain {
+            amplitude_ua_per_cm2: 25.0,
+            width_ms: 1.0,
+            period_ms: 25.0,
+            count: 4,
+            from_ms: 10.0,
+        },
+    ];
+    s.run.duration_ms = 110.0;
+    s
+}
+
+/// Measured-looking points: the model's own resting potentials at `values`, plus noise.
+fn synthetic(s: &Scenario, vary: &Vary, values: &[f64], noise: &mut dyn FnMut() -> f64) -> Vec<DataPoint> {
+    values
+        .iter()
+        .enumerate()
+        .map(|(k, &x)| {
+            let r = rest_report(&apply(s, vary, x).expect("applies")).expect("report");
+            DataPoint {
+                value: x,
+                v_mv: r.resting_mv().expect("defined") + noise(),
+                row: k + 2,
+            }
+        })
+        .collect()
+}
+
+fn log_values(from: f64, to: f64, n: usize) -> Vec<f64> {
+    SweepRange {
+        from,
+        to,
+        points: n,
+        log: true,
+    }
+    .values()
+    .expect("range")
+}
+
+/// A tiny deterministic generator (xorshift64*) with Box–Muller normals, so noisy fits are
+/// reproducible without a dependency.
+struct Rng(u64);
+impl Rng {
+    fn new(seed: u64) -> Self {
+        Rng(seed.wrapping_mul(0x9E37_79B9_7F4A_7C15) | 1)
+    }
+    fn uniform(&mut self) -> f64 {
+        self.0 ^= self.0 >> 12;
+        self.0 ^= self.0 << 25;
+        self.0 ^= self.0 >> 27;
+        let x = self.0.wrapping_mul(0x2545_F491_4F6C_DD1D);
+        ((x >> 11) as f64 + 0.5) / (1u64 << 53) as f64
+    }
+    fn normal(&mut self) -> f64 {
+        let (u1, u2) = (self.uniform(), self.uniform());
+        (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
+    }
+}
+
+fn names(v: &[&str]) -> Vec<String> {
+    v.iter().map(|s| s.to_string()).collect()
+}
+
+// ---------------------------------------------------------------------------------------------
+// Sweeps
+
+#[test]
+fn bath_potassium_sweep_approaches_the_nernst_slope() {
+    // CODATA 2018 constants give ln(10)·RT/F = 61.5 mV per decade at 37 °C.
+    let nernst = nernst_slope_mv_per_decade(37.0, 1);
+    assert!((nernst - 61.5).abs() < 0.05);
+    // A potassium-dominated cell (P_Na/P_K = 0.01, chloride impermeant).
+    let s = passive(37.0, 0.01, 0.0);
+    let vary = Vary::parse("outside_mm:K+", &s).expect("parses");
+    let range = SweepRange {
+        from: 1.0,
+        to: 150.0,
+        points: 41,
+        log: true,
+    };
+    let pts = sweep(&s, &vary, &range, &SweepControl::default()).expect("sweep");
+    let slope = |a: &SweepPoint, b: &SweepPoint| {
+        (b.resting_mv.expect("defined") - a.resting_mv.expect("defined")) / (b.value / a.value).log10()
+    };
+    let high = slope(&pts[39], &pts[40]);
+    assert!(
+        (high - 61.5).abs() / 61.5 < 0.05,
+        "slope at high K+ {high} mV/decade"
+    );
+    // Common practice: at low bath potassium the sodium leak matters more and the curve
+    // flattens away from the Nernst line; the slope rises steadily with potassium.
+    let low = slope(&pts[0], &pts[1]);
+    assert!(low < 0.6 * high, "slope at low K+ {low} vs {high} mV/decade");
+    let slopes: Vec<f64> = pts.windows(2).map(|w| slope(&w[0], &w[1])).collect();
+    assert!(slopes.windows(2).all(|w| w[1] > w[0]), "slopes {slopes:?}");
+    // The reference line is the Nernst potential itself, with the CODATA slope.
+    let values: Vec<f64> = pts.iter().map(|p| p.value).collect();
+    let line = nernst_line(&s, &vary, &values).expect("a concentration sweep has a line");
+    assert_eq!(line.species, "K+");
+    assert_eq!(line.slope_mv_per_decade, nernst);
+    let e_first = line.e_mv[0].expect("defined");
+    let e_last = line.e_mv[40].expect("defined");
+    assert!(((e_last - e_first) / 150f64.log10() - nernst).abs() < 1e-9);
+    // The Nernst potential bounds the resting potential from below in a cell where the only
+    // other permeant ion (Na+) reverses positive (common practice).
+    assert!(
+        pts.iter()
+            .zip(&line.e_mv)
+            .all(|(p, e)| p.resting_mv.expect("defined") > e.expect("defined"))
+    );
+}
+
+#[test]
+fn sweep_points_equal_single_rest_reports() {
+    let s = excitable();
+    let cases = [
+        ("temperature_c", 0.0, 30.0, false),
+        ("outside_mm:K+", 1.0, 60.0, true),
+        ("inside_mm:Na+", 5.0, 40.0, false),
+        ("permeability:Cl-", 1e-9, 1e-6, true),
+        ("dose_um:sodium blocker", 0.01, 100.0, true),
+    ];
+    for (what, from, to, log) in cases {
+        let vary = Vary::parse(what, &s).expect("parses");
+        assert_eq!(
+            vary.to_string(),
+            what,
+            "Display gives the command-line spelling back"
+        );
+        let pts = sweep(
+            &s,
+            &vary,
+            &SweepRange {
+                from,
+                to,
+                points: 7,
+                log,
+            },
+            &SweepControl::default(),
+        )
+        .expect("sweep");
+        assert_eq!(pts.len(), 7);
+        assert_eq!((pts[0].value, pts[6].value), (from, to), "ends are exact");
+        for p in &pts {
+            let r = rest_report(&apply(&s, &vary, p.value).expect("applies")).expect("report");
+            assert_eq!(p.ghk_mv, r.ghk_mv.as_ref().ok().copied(), "{what} = {}", p.value);
+            assert_eq!(p.resting_mv, r.resting_mv(), "{what} = {}", p.value);
+            assert!(
+                p.resting_mv.is_some(),
+                "{what} = {} has a resting potential",
+                p.value
+            );
+        }
+    }
+    // A dose puts the agent in force from t = 0, so the steady state includes its block: the
+    // sodium blocker hyperpolarizes this cell a little, more at the larger dose.
+    let vary = Vary::DoseUm("sodium blocker".into());
+    let lo = sweep_point(&s, &vary, 0.01)
+        .expect("point")
+        .resting_mv
+        .expect("defined");
+    let hi = sweep_point(&s, &vary, 100.0)
+        .expect("point")
+        .resting_mv
+        .expect("defined");
+    assert!(hi < lo - 0.1, "{hi} vs {lo}");
+}
+
+#[test]
+fn multi_core_sweep_equals_single_core() {
+    let s = excitable();
+    let vary = Vary::OutsideMm("K+".into());
+    let range = SweepRange {
+        from: 1.0,
+        to: 100.0,
+        points: 64,
+        log: true,
+    };
+    let many = sweep(&s, &vary, &range, &SweepControl::default()).expect("sweep");
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .expect("pool");
+    let one = pool
+        .install(|| sweep(&s, &vary, &range, &SweepControl::default()))
+        .expect("sweep");
+    assert_eq!(many, one);
+}
+
+#[test]
+fn progress_counts_points_and_cancel_stops() {
+    let s = passive(37.0, 0.05, 0.2);
+    let vary = Vary::TemperatureC;
+    let range = SweepRange {
+        from: 5.0,
+        to: 40.0,
+        points: 30,
+        log: false,
+    };
+    let progress = Arc::new(AtomicUsize::new(0));
+    let control = SweepControl {
+        progress: Some(progress.clone()),
+        cancel: None,
+    };
+    let pts = sweep(&s, &vary, &range, &control).expect("sweep");
+    assert_eq!(progress.load(Ordering::Relaxed), 30);
+    // Linear values: an index times the step from the start, never a running sum.
+    assert_eq!(pts[10].value, 5.0 + 35.0 * (10.0 / 29.0));
+    let cancel = Arc::new(AtomicBool::new(true));
+    let control = SweepControl {
+        progress: None,
+        cancel: Some(cancel),
+    };
+    assert_eq!(sweep(&s, &vary, &range, &control), Err(SweepError::Cancelled));
+}
+
+#[test]
+fn sweep_requests_are_checked_with_plain_messages() {
+    let s = excitable();
+    let e = Vary::parse("outside_mm:Ca2+", &s)
+        .expect_err("no such species")
+        .to_string();
+    assert!(
+        e.contains("\"Ca2+\"") && e.contains("\"K+\", \"Na+\", \"Cl-\""),
+        "{e}"
+    );
+    let e = Vary::parse("dose_um:TTX", &s)
+        .expect_err("no such agent")
+        .to_string();
+    assert!(e.contains("\"TTX\"") && e.contains("\"sodium blocker\""), "{e}");
+    let e = Vary::parse("dose_um:x", &passive(37.0, 0.05, 0.2))
+        .expect_err("no agents")
+        .to_string();
+    assert!(e.contains("has no agents"), "{e}");
+    let e = Vary::parse("voltage", &s).expect_err("unknown").to_string();
+    assert!(
+        e.contains("\"voltage\"") && e.contains("temperature_c") && e.contains("dose_um:LABEL"),
+        "{e}"
+    );
+    let vary = Vary::TemperatureC;
+    let control = SweepControl::default();
+    let go = |from: f64, to: f64, points: usize, log: bool| {
+        sweep(
+            &s,
+            &vary,
+            &SweepRange {
+                from,
+                to,
+                points,
+                log,
+            },
+            &control,
+        )
+        .expect_err("refused")
+        .to_string()
+    };
+    assert!(go(5.0, 30.0, 0, false).contains("at least 1"));
+    assert!(go(f64::NAN, 30.0, 5, false).contains("start"));
+    assert!(go(5.0, f64::INFINITY, 5, false).contains("end"));
+    assert!(go(0.0, 30.0, 5, true).contains("log range"));
+    let e = go(5.0, 70.0, 5, false);
+    assert!(e.contains("temperature_c = 70") && e.contains("−5 to 60"), "{e}");
+    let e = sweep(
+        &s,
+        &Vary::OutsideMm("K+".into()),
+        &SweepRange {
+            from: -1.0,
+            to: 5.0,
+            points: 3,
+            log: false,
+        },
+        &control,
+    )
+    .expect_err("negative")
+    .to_string();
+    assert!(e.contains("species[0].outside_mm"), "{e}");
+    // A single point is the start value.
+    let one = sweep(
+        &s,
+        &vary,
+        &SweepRange {
+            from: 20.0,
+            to: 30.0,
+            points: 1,
+            log: false,
+        },
+        &control,
+    )
+    .expect("sweep");
+    assert_eq!(one.len(), 1);
+    assert_eq!(one[0].value, 20.0);
+}
+
+#[test]
+fn undefined_potentials_are_reported_not_nan() {
+    // model.md: with K+ the only permeant ion and none of it outside, no ion can carry inward
+    // current, so neither potential exists; the sweep reports why instead of a number.
+    let s = passive(37.0, 0.0, 0.0);
+    let vary = Vary::OutsideMm("K+".into());
+    let pts = sweep(
+        &s,
+        &vary,
+        &SweepRange {
+            from: 0.0,
+            to: 5.0,
+            points: 2,
+            log: false,
+        },
+        &SweepControl::default(),
+    )
+    .expect("sweep");
+    assert_eq!((pts[0].ghk_mv, pts[0].resting_mv), (None, None));
+    assert!(pts[0].ghk_undefined.is_some() && pts[0].resting_undefined.is_some());
+    assert!(pts[1].resting_mv.is_some_and(f64::is_finite));
+    // Its Nernst line is undefined there too.
+    let line = nernst_line(&s, &vary, &[0.0, 5.0]).expect("line");
+    assert_eq!(line.e_mv[0], None);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Fits
+
+#[test]
+fn fit_recovers_known_ratios_from_exact_points() {
+    let truth = passive(37.0, 0.05, 0.3);
+    let vary = Vary::OutsideMm("K+".into());
+    let data = synthetic(&truth, &vary, &log_values(2.0, 100.0, 20), &mut || 0.0);
+    // Start far from the truth, and in both parameter spaces.
+    let start = passive(37.0, 0.5, 0.02);
+    for space in [FitSpace::LogRatio, FitSpace::Direct] {
+        let r = fit(&start, &vary, &names(&["Na+", "Cl-"]), &data, space).expect("fits");
+        assert_eq!(r.reference, "K+");
+        for (got, want) in r.ratios.iter().zip([0.05, 0.3]) {
+            assert!(
+                (got.ratio - want).abs() < 1e-8 * want,
+                "{space:?} {}: {} vs {want}",
+                got.name,
+                got.ratio
+            );
+            // Exact data leave only rounding: the error is within a standard error that is
+            // itself at rounding level.
+            assert!(
+                got.standard_error < 1e-9,
+                "{space:?} {} SE {}",
+                got.name,
+                got.standard_error
+            );
+            assert!((got.ratio - want).abs() <= got.standard_error.max(1e-12) * 10.0);
+            assert!((got.p_cm_per_s - want * 1e-6).abs() < 1e-14);
+        }
+        assert!(r.rms_residual_mv < 1e-9);
+        assert_eq!(r.degrees_of_freedom, 18);
+        assert_eq!(r.residuals.len(), 20);
+        assert_eq!(r.residuals[0].row, 2);
+    }
+}
+
+#[test]
+fn noisy_fits_have_honest_standard_errors() {
+    // Least-squares theory (common practice): with Gaussian noise the estimate lies within one
+    // standard error of the truth about 68 % of the time, and almost always within three.
+    let truth = passive(37.0, 0.05, 0.3);
+    let vary = Vary::OutsideMm("K+".into());
+    let values = log_values(2.0, 100.0, 20);
+    let trials = 60;
+    let mut within_one = [0usize; 2];
+    for seed in 1..=trials {
+        let mut rng = Rng::new(seed);
+        let data = synthetic(&truth, &vary, &values, &mut || 0.5 * rng.normal());
+        let r = fit(&truth, &vary, &names(&["Na+", "Cl-"]), &data, FitSpace::LogRatio).expect("fits");
+        // The rms residual estimates the noise, 0.5 mV.
+        assert!(
+            r.rms_residual_mv > 0.2 && r.rms_residual_mv < 0.8,
+            "seed {seed}: {}",
+            r.rms_residual_mv
+        );
+        for (c, (got, want)) in r.ratios.iter().zip([0.05, 0.3]).enumerate() {
+            let z = (got.ratio - want) / got.standard_error;
+            if seed <= 10 {
+                assert!(
+                    z.abs() < 3.0,
+                    "seed {seed} {}: {} ± {} vs {want}",
+                    got.name,
+                    got.ratio,
+                    got.standard_error
+                );
+            }
+            if z.abs() <= 1.0 {
+                within_one[c] += 1;
+            }
+        }
+    }
+    for (c, n) in within_one.iter().enumerate() {
+        let f = *n as f64 / trials as f64;
+        // 60 trials at p = 0.68: the binomial spread is ±0.06, so 0.5–0.85 is a wide margin.
+        assert!(
+            (0.5..=0.85).contains(&f),
+            "parameter {c}: {n} of {trials} within one SE"
+        );
+    }
+}
+
+#[test]
+fn hodgkin_katz_resting_ratio_fits_back_from_a_bath_potassium_series() {
+    // Hodgkin & Katz 1949, J. Physiol. 108:37 (from memory): at rest P_K : P_Na : P_Cl =
+    // 1 : 0.04 : 0.45 in the squid giant axon.
+    let truth = axon_hodgkin_katz();
+    let vary = Vary::OutsideMm("K+".into());
+    let data = synthetic(&truth, &vary, &log_values(2.0, 100.0, 12), &mut || 0.0);
+    let mut start = truth.clone();
+    start.species[1].permeability_cm_per_s = 0.2e-6;
+    start.species[2].permeability_cm_per_s = 0.05e-6;
+    let r = fit(&start, &vary, &names(&["Na+", "Cl-"]), &data, FitSpace::LogRatio).expect("fits");
+    assert!((r.ratios[0].ratio - 0.04).abs() < 1e-8, "{:?}", r.ratios);
+    assert!((r.ratios[1].ratio - 0.45).abs() < 1e-8, "{:?}", r.ratios);
+}
+
+#[test]
+fn fit_through_a_pump_and_gated_channels() {
+    // The model potential is the full steady state, so the fit must also recover ratios where a
+    // pump and open channels shift the potential away from the GHK value.
+    let truth = excitable();
+    let vary = Vary::OutsideMm("K+".into());
+    let data = synthetic(&truth, &vary, &log_values(2.0, 20.0, 10), &mut || 0.0);
+    let mut start = truth.clone();
+    start.species[1].permeability_cm_per_s = 5e-9;
+    start.species[2].permeability_cm_per_s = 2e-7;
+    let r = fit(&start, &vary, &names(&["Na+", "Cl-"]), &data, FitSpace::LogRatio).expect("fits");
+    assert!((r.ratios[0].ratio - 0.02).abs() < 1e-7, "{:?}", r.ratios);
+    assert!((r.ratios[1].ratio - 0.1).abs() < 1e-6, "{:?}", r.ratios);
+}
+
+#[test]
+fn three_ratios_with_a_divalent_ion_from_a_distant_start() {
+    // Ca2+ and Na+ both carry inward current at rest, so over a bath-potassium series their
+    // effects are nearly alike; from these starting ratios a single minimisation slides the
+    // Ca2+ ratio towards 0. The other starts must find the exact minimum.
+    let mut truth = passive(37.0, 0.04, 0.3);
+    truth.species.push(species("Ca2+", 2, 1.0e-4, 2.0, 0.4e-6));
+    let vary = Vary::OutsideMm("K+".into());
+    let data = synthetic(&truth, &vary, &log_values(1.0, 150.0, 20), &mut || 0.0);
+    let mut start = truth.clone();
+    for (i, p) in [(1, 2.0e-7), (2, 5.0e-8), (3, 1.0e-7)] {
+        start.species[i].permeability_cm_per_s = p;
+    }
+    let r = fit(
+        &start,
+        &vary,
+        &names(&["Na+", "Cl-", "Ca2+"]),
+        &data,
+        FitSpace::LogRatio,
+    )
+    .expect("fits");
+    for (got, want) in r.ratios.iter().zip([0.04, 0.3, 0.4]) {
+        assert!(
+            (got.ratio - want).abs() < 1e-8,
+            "{}: {} vs {want}",
+            got.name,
+            got.ratio
+        );
+    }
+}
+
+#[test]
+fn bad_data_messages_name_the_row_or_parameter() {
+    let e = parse_points("value,v_mv\n2,-80\n5,abc\n").expect_err("bad cell");
+    assert_eq!(
+        e,
+        DataError::NotNumber {
+            row: 3,
+            column: "v_mv",
+            cell: "abc".into()
+        }
+    );
+    assert!(e.to_string().contains("row 3") && e.to_string().contains("v_mv"));
+    let e = parse_points("2,-80\n\n1.5.2,-70\n")
+        .expect_err("bad cell")
+        .to_string();
+    assert!(
+        e.contains("row 3") && e.contains("value") && e.contains("1.5.2"),
+        "{e}"
+    );
+    let e = parse_points("value,v_mv\n2,-80,7\n")
+        .expect_err("three cells")
+        .to_string();
+    assert!(e.contains("row 2") && e.contains("3"), "{e}");
+    let e = parse_points("value,v_mv\n2,NaN\n")
+        .expect_err("not finite")
+        .to_string();
+    assert!(e.contains("row 2") && e.contains("finite"), "{e}");
+    assert_eq!(parse_points("value,v_mv\n\n"), Err(DataError::NoPoints));
+    // Spreadsheet habits are accepted: a byte-order mark, quotes, CRLF, trailing empty cells.
+    let ok = parse_points("\u{feff}\"value\",\"v_mv\"\r\n\"2\",\"-80.5\",\r\n# note\r\n10,-50\r\n")
+        .expect("reads");
+    assert_eq!(
+        ok,
+        vec![
+            DataPoint {
+                value: 2.0,
+                v_mv: -80.5,
+                row: 2
+            },
+            DataPoint {
+                value: 10.0,
+                v_mv: -50.0,
+                row: 4
+            }
+        ]
+    );
+
+    let s = passive(37.0, 0.05, 0.3);
+    let vary = Vary::OutsideMm("K+".into());
+    let data = synthetic(&s, &vary, &log_values(2.0, 100.0, 6), &mut || 0.0);
+    let free = |v: &[&str]| fit(&s, &vary, &names(v), &data, FitSpace::LogRatio).expect_err("refused");
+    assert!(matches!(free(&[]), FitError::NothingFree));
+    let e = free(&["Ca2+"]).to_string();
+    assert!(e.contains("\"Ca2+\"") && e.contains("\"Cl-\""), "{e}");
+    assert!(free(&["K+"]).to_string().contains("reference"));
+    assert!(free(&["Na+", "Na+"]).to_string().contains("twice"));
+    let e = fit(&s, &vary, &names(&["Na+", "Cl-"]), &data[..2], FitSpace::LogRatio)
+        .expect_err("too few")
+        .to_string();
+    assert!(e.contains("2 data point(s)") && e.contains("at least 3"), "{e}");
+    let e = fit(
+        &s,
+        &Vary::Permeability("Na+".into()),
+        &names(&["Na+"]),
+        &data,
+        FitSpace::LogRatio,
+    )
+    .expect_err("varied");
+    assert!(matches!(e, FitError::VariedIsFree { .. }), "{e}");
+    // A point whose value makes the cell invalid is named by its row.
+    let mut bad = data.clone();
+    bad[3].value = -4.0;
+    let e = fit(&s, &vary, &names(&["Na+"]), &bad, FitSpace::LogRatio)
+        .expect_err("negative")
+        .to_string();
+    assert!(
+        e.contains(&format!("row {}", bad[3].row)) && e.contains("outside_mm"),
+        "{e}"
+    );
+
+    // A free species absent on both sides cannot be determined.
+    let mut absent = s.clone();
+    absent.species.push(species("Li+", 1, 0.0, 0.0, 1e-8));
+    let e = fit(&absent, &vary, &names(&["Na+", "Li+"]), &data, FitSpace::LogRatio).expect_err("absent");
+    assert_eq!(e, FitError::NoConcentration { name: "Li+".into() });
+    // Two cations with the same concentrations act on the potential in exact proportion.
+    let mut twin = s.clone();
+    twin.species.push(species("Li+", 1, 12.0, 145.0, 1e-8));
+    let e = fit(&twin, &vary, &names(&["Na+", "Li+"]), &data, FitSpace::LogRatio).expect_err("collinear");
+    match e {
+        FitError::Undetermined { names, .. } => assert_eq!(names, vec!["Na+".to_string(), "Li+".to_string()]),
+        other => panic!("expected Undetermined, got {other}"),
+    }
+    // Data made without any chloride permeability drive that ratio towards 0, where the
+    // potentials no longer depend on it.
+    let no_cl = passive(37.0, 0.05, 0.0);
+    let data = synthetic(&no_cl, &vary, &log_values(2.0, 100.0, 8), &mut || 0.0);
+    let e = fit(&s, &vary, &names(&["Na+", "Cl-"]), &data, FitSpace::LogRatio).expect_err("flat");
+    match e {
+        FitError::Undetermined { names, .. } => assert_eq!(names, vec!["Cl-".to_string()]),
+        other => panic!("expected Undetermined, got {other}"),
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Trace metrics and dose–response
+
+#[test]
+fn passive_step_response_has_the_membrane_time_constant() {
+    // Common practice: a small current step into a passive membrane charges it exponentially
+    // with τ = C/G (G the slope conductance at rest) to ΔV = I/G, so half the change takes τ·ln 2.
+    let mut s = passive(37.0, 0.05, 0.3);
+    let i_ua = 0.05;
+    s.protocol = vec![Event::Inject {
+        amplitude_ua_per_cm2: i_ua,
+        from_ms: 20.0,
+        until_ms: 400.0,
+    }];
+    s.run.duration_ms = 200.0;
+    s.run.sample_ms = 0.02;
+    let mut run = Run::new(&s, SolverSettings::default()).expect("run");
+    run.run_to_end().expect("runs");
+    let tr = run.trace();
+    let m =
+        trace_metrics(&tr.t_ms, tr.v_mv(), first_event_ms(&s), SpikeSettings::default()).expect("metrics");
+
+    let mut model = Model::new(&s).expect("model");
+    let v0 = model.steady_state_at_start().resting_mv.expect("rest");
+    let (inside, outside, factor) = model.membrane.file_values();
+    let cond = Conditions {
+        inside_mm: &inside,
+        outside_mm: &outside,
+        p_factor: &factor,
+        inject_ua_per_cm2: 0.0,
+    };
+    let mut scratch = vec![0.0; 3];
+    let h = 1e-3;
+    let g_ms = (model
+        .membrane
+        .steady_net_current(v0 + h, &cond, &mut [], &mut scratch)
+        - model
+            .membrane
+            .steady_net_current(v0 - h, &cond, &mut [], &mut scratch))
+        / (2.0 * h);
+    let tau_ms = s.cell.capacitance_uf_per_cm2 / g_ms;
+
+    assert!((m.before_first_event_mv - v0).abs() < 1e-6);
+    let dv = m.final_mv - m.before_first_event_mv;
+    assert!(
+        (dv - i_ua / g_ms).abs() < 0.02 * i_ua / g_ms,
+        "ΔV {dv} vs {}",
+        i_ua / g_ms
+    );
+    let half = m.half_change_ms.expect("half time");
+    assert!(
+        (half - tau_ms * std::f64::consts::LN_2).abs() < 0.02 * tau_ms,
+        "half {half} ms, τ {tau_ms} ms"
+    );
+    // The fastest rise is at the step: I/C.
+    let rise = m.max_dvdt_mv_per_ms.expect("slope");
+    assert!(
+        (rise - i_ua / s.cell.capacitance_uf_per_cm2).abs() < 0.02 * i_ua,
+        "{rise}"
+    );
+    assert_eq!(m.spike_count, 0);
+}
+
+#[test]
+fn sodium_blocker_dose_response_silences_an_excitable_cell() {
+    let s = excitable();
+    // Untreated, every pulse of the train fires an overshooting spike (common practice for
+    // clearly suprathreshold pulses).
+    let mut control = s.clone();
+    control.protocol.retain(|e| !matches!(e, Event::Agent { .. }));
+    let mut run = Run::new(&control, SolverSettings::default()).expect("run");
+    run.run_to_end().expect("runs");
+    let m = trace_metrics(
+        &run.trace().t_ms,
+        run.trace().v_mv(),
+        first_event_ms(&control),
+        SpikeSettings::default(),
+    )
+    .expect("metrics");
+    assert_eq!(m.spike_count, 4);
+    assert!(m.peak_mv > 20.0, "peak {}", m.peak_mv);
+    let lat = m.first_spike_latency_ms.expect("fires");
+    assert!(lat > 0.0 && lat < 5.0, "latency {lat}");
+
+    let progress = Arc::new(AtomicUsize::new(0));
+    let ctl = SweepControl {
+        progress: Some(progress.clone()),
+        cancel: None,
+    };
+    let dr = dose_response(
+        &s,
+        "sodium blocker",
+        0.001,
+        1000.0,
+        4,
+        Some(SpikeSettings::default()),
+        &ctl,
+    )
+    .expect("dose-response");
+    assert_eq!(progress.load(Ordering::Relaxed), 8, "steady states and runs");
+    assert_eq!(dr.ic50_um, 1.0);
+    let counts: Vec<usize> = dr
+        .points
+        .iter()
+        .map(|p| p.spike_count.expect("counted"))
+        .collect();
+    // 0.001 µM blocks 0.1 % (still fires every pulse); 1000 µM blocks 99.9 % (silent).
+    assert_eq!(counts[0], 4, "{counts:?}");
+    assert_eq!(counts[3], 0, "{counts:?}");
+    assert!(counts.windows(2).all(|w| w[1] <= w[0]), "{counts:?}");
+    // Blocking the sodium leak hyperpolarizes; the half effect lies inside the dose range.
+    let v: Vec<f64> = dr.points.iter().map(|p| p.resting_mv.expect("defined")).collect();
+    assert!(v.windows(2).all(|w| w[1] < w[0]), "{v:?}");
+    let half = dr.half_effect_dose_um.expect("crosses");
+    assert!(half > 0.001 && half < 1000.0, "{half}");
+}
