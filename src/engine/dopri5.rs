@@ -5,40 +5,20 @@
 //! frames and report which state component failed; the general-purpose crates integrate a whole
 //! interval in one call. An independent crate (ode_solvers' DOP853) checks it in the tests.
 //! Coefficients: Dormand & Prince 1980, dense output after Hairer, Nørsett & Wanner (1993).
+//!
+//! Each accepted step also estimates the largest |λ| from its last two stages (Hairer's
+//! stiffness test). The estimate keeps the next step inside the stability boundary, so rounding
+//! noise is never amplified (a cell at rest stays flat), and counts the steps held there by
+//! stability: many in a row mean the cell is stiff, and `Method::Auto` hands over to the
+//! Rosenbrock stepper.
 
-/// Anything with a state vector and a derivative.
-pub trait System {
-    fn derivatives(&mut self, t: f64, y: &[f64], dy: &mut [f64]);
-}
+use super::stepper::{Settings, Stats, StepFailure, System, first_non_finite, initial_step, too_small};
 
-/// Tolerances and limits of the stepper.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Settings {
-    /// Relative tolerance on every component.
-    pub rtol: f64,
-    /// Absolute tolerance per component (the run sets these from each component's scale).
-    pub atol: Vec<f64>,
-    /// Largest step, ms.
-    pub h_max: f64,
-}
-
-/// Counts of the work done.
-#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
-pub struct Stats {
-    pub accepted: u64,
-    pub rejected: u64,
-    pub evaluations: u64,
-}
-
-/// Why a step could not be taken.
-#[derive(Debug, Clone, PartialEq)]
-pub enum StepFailure {
-    /// The step size fell below what the time's floating point can resolve; `component` had
-    /// the largest error.
-    Underflow { component: usize },
-    /// A derivative or new state was not finite.
-    NotFinite { component: usize },
-}
+/// Largest h·|λ| a step is allowed from the stiffness estimate (the real stability boundary
+/// of DOPRI5 is near 3.3).
+pub const STABLE_H_LAMBDA: f64 = 3.0;
+/// h·|λ| above which a step counts as held by stability.
+pub const STIFF_H_LAMBDA: f64 = 2.5;
 
 const C2: f64 = 1.0 / 5.0;
 const C3: f64 = 3.0 / 10.0;
@@ -95,6 +75,11 @@ pub struct Dopri5 {
     /// `k[0]` holds f(t, y) for the present point.
     fsal_valid: bool,
     fac_old: f64,
+    /// Stiffness detection (Hairer, Nørsett & Wanner 1993, II.10 and their DOPRI5 code):
+    /// accepted steps in a row whose h·λ sits on the stability boundary, and recent ones that
+    /// did not.
+    stiff_count: u32,
+    nonstiff_count: u32,
 }
 
 impl Dopri5 {
@@ -113,7 +98,28 @@ impl Dopri5 {
             h_old: 0.0,
             fsal_valid: false,
             fac_old: 1e-4,
+            stiff_count: 0,
+            nonstiff_count: 0,
         }
+    }
+
+    /// Whether the recent steps were held by stability rather than accuracy: 15 accepted
+    /// steps with h·λ above [`STIFF_H_LAMBDA`], λ estimated from the last two stages, not
+    /// interrupted by 6 that were not (the counts of Hairer's DOPRI5 code, whose threshold of
+    /// 3.25 is lowered here because steps are kept at h·λ ≤ [`STABLE_H_LAMBDA`]).
+    pub fn stiffness_detected(&self) -> bool {
+        self.stiff_count >= 15
+    }
+
+    /// Start the stiffness count afresh.
+    pub fn reset_stiffness(&mut self) {
+        self.stiff_count = 0;
+        self.nonstiff_count = 0;
+    }
+
+    /// Size of the last accepted step.
+    pub fn last_step(&self) -> f64 {
+        self.h_old
     }
 
     /// Forget the derivative at the present point: the system changed (a command edge or an edit).
@@ -121,51 +127,20 @@ impl Dopri5 {
         self.fsal_valid = false;
     }
 
-    fn scale(&self, i: usize, a: f64, b: f64) -> f64 {
-        self.settings.atol[i] + self.settings.rtol * a.abs().max(b.abs())
-    }
-
-    fn first_non_finite(v: &[f64]) -> Option<usize> {
-        v.iter().position(|x| !x.is_finite())
-    }
-
-    /// An initial step size (Hairer, Nørsett & Wanner's heuristic), bounded by `h_limit`.
-    fn initial_step(&mut self, sys: &mut impl System, t: f64, y: &[f64], h_limit: f64) -> f64 {
-        let n = y.len() as f64;
-        let (mut d0, mut d1) = (0.0, 0.0);
-        for i in 0..y.len() {
-            let sk = self.scale(i, y[i], y[i]);
-            d0 += (y[i] / sk).powi(2);
-            d1 += (self.k[0][i] / sk).powi(2);
-        }
-        let (d0, d1) = ((d0 / n).sqrt(), (d1 / n).sqrt());
-        let mut h0 = if d0 < 1e-10 || d1 < 1e-10 { 1e-6 } else { 0.01 * d0 / d1 };
-        h0 = h0.min(h_limit);
-        for i in 0..y.len() {
-            self.y_stage[i] = y[i] + h0 * self.k[0][i];
-        }
-        let ys = std::mem::take(&mut self.y_stage);
-        sys.derivatives(t + h0, &ys, &mut self.k[1]);
-        self.y_stage = ys;
-        self.stats.evaluations += 1;
-        let mut d2 = 0.0;
-        for i in 0..y.len() {
-            let sk = self.scale(i, y[i], y[i]);
-            d2 += ((self.k[1][i] - self.k[0][i]) / sk).powi(2);
-        }
-        let d2 = (d2 / n).sqrt() / h0;
-        let h1 = if d1.max(d2) <= 1e-15 { (h0 * 1e-3).max(1e-6) } else { (0.01 / d1.max(d2)).powf(0.2) };
-        (100.0 * h0).min(h1).min(h_limit)
-    }
-
     /// Takes one accepted step from `(t, y)` that does not pass `t_end`; updates both.
     /// Lands exactly on `t_end` when the step reaches it.
-    pub fn step(&mut self, sys: &mut impl System, t: &mut f64, y: &mut [f64], t_end: f64) -> Result<(), StepFailure> {
+    pub fn step(
+        &mut self,
+        sys: &mut impl System,
+        t: &mut f64,
+        y: &mut [f64],
+        t_end: f64,
+    ) -> Result<(), StepFailure> {
         let n = y.len();
         if !self.fsal_valid {
             sys.derivatives(*t, y, &mut self.k[0]);
             self.stats.evaluations += 1;
-            if let Some(c) = Self::first_non_finite(&self.k[0]) {
+            if let Some(c) = first_non_finite(&self.k[0]) {
                 return Err(StepFailure::NotFinite { component: c });
             }
             self.fsal_valid = true;
@@ -173,7 +148,20 @@ impl Dopri5 {
         let span = t_end - *t;
         let h_limit = span.min(self.settings.h_max);
         if self.h <= 0.0 {
-            self.h = self.initial_step(sys, *t, y, h_limit);
+            let [k1, k2, ..] = &mut self.k;
+            self.h = initial_step(
+                sys,
+                &self.settings,
+                5,
+                Some(STABLE_H_LAMBDA),
+                *t,
+                y,
+                k1,
+                &mut self.y_stage,
+                k2,
+                h_limit,
+            );
+            self.stats.evaluations += 1;
         }
         let mut h = self.h.min(h_limit);
         let mut last_rejected = false;
@@ -182,8 +170,10 @@ impl Dopri5 {
             if *t + h >= t_end || t_end - (*t + h) < 1e-10 * h {
                 h = span;
             }
-            if h.abs() <= 1e-14 * t.abs().max(1.0) {
-                let worst = (0..n).max_by(|&a, &b| self.err[a].abs().total_cmp(&self.err[b].abs())).unwrap_or(0);
+            if too_small(h, *t) {
+                let worst = (0..n)
+                    .max_by(|&a, &b| self.err[a].abs().total_cmp(&self.err[b].abs()))
+                    .unwrap_or(0);
                 return Err(StepFailure::Underflow { component: worst });
             }
             let [k1, k2, k3, k4, k5, k6, k7] = &mut self.k;
@@ -225,14 +215,17 @@ impl Dopri5 {
                     bad = Some(i);
                 }
             }
+            // A ratio to a vanishing tolerance can overflow without anything being wrong with
+            // the state: that is a very large error, not a non-finite quantity.
             let err = (sum / n as f64).sqrt();
+            let err = if err.is_finite() { err } else { f64::MAX };
             // A non-finite trial is treated as a large error: shrink and try again, and only
             // report it when the step cannot shrink further.
-            if bad.is_some() || !err.is_finite() {
+            if let Some(component) = bad {
                 self.stats.rejected += 1;
                 h *= 0.1;
-                if h.abs() <= 1e-14 * t.abs().max(1.0) {
-                    return Err(StepFailure::NotFinite { component: bad.unwrap_or(0) });
+                if too_small(h, *t) {
+                    return Err(StepFailure::NotFinite { component });
                 }
                 last_rejected = true;
                 continue;
@@ -250,6 +243,32 @@ impl Dopri5 {
                 }
                 self.fac_old = err.max(1e-4);
                 self.stats.accepted += 1;
+                // Stages 6 and 7 both sit at t + h, so their difference quotient estimates
+                // the largest |λ| along the step (Hairer's stiffness test).
+                let (mut num, mut den, mut den_scaled) = (0.0, 0.0, 0.0);
+                for i in 0..n {
+                    let dy = yn[i] - ys[i];
+                    num += (k7[i] - k6[i]).powi(2);
+                    den += dy * dy;
+                    den_scaled += (dy / self.settings.scale(i, y[i], yn[i])).powi(2);
+                }
+                let lambda = if den > 0.0 { (num / den).sqrt() } else { 0.0 };
+                // Past |hλ| ≈ 3.3 the method is unstable on the negative real axis: rounding
+                // noise then grows until the error test notices it, which moves a cell at rest
+                // by about the tolerance. So the next step stays inside the boundary, unless
+                // the two stages differ by less than rounding, where the quotient means nothing.
+                if lambda.is_finite() && lambda > 0.0 && (den_scaled / n as f64).sqrt() > 1e-10 {
+                    h_new = h_new.min((STABLE_H_LAMBDA / lambda).max(0.01 * h));
+                }
+                if h * lambda > STIFF_H_LAMBDA {
+                    self.nonstiff_count = 0;
+                    self.stiff_count += 1;
+                } else {
+                    self.nonstiff_count += 1;
+                    if self.nonstiff_count == 6 {
+                        self.stiff_count = 0;
+                    }
+                }
                 // Dense output of this step.
                 for i in 0..n {
                     let ydiff = yn[i] - y[i];

@@ -1,13 +1,16 @@
-//! Time courses: the cell as an ODE ([`model`]), an adaptive stepper ([`dopri5`]) and a
-//! streaming run that advances in bounded chunks ([`run`]).
+//! Time courses: the cell as an ODE ([`model`]), two adaptive steppers — explicit
+//! ([`dopri5`]) and, for stiff cells, linearly implicit ([`rosenbrock`]) — and a streaming run
+//! that advances in bounded chunks ([`run`]).
 
 pub mod dopri5;
 pub mod model;
+pub mod rosenbrock;
 pub mod run;
+pub mod stepper;
 
-pub use dopri5::Stats;
 pub use model::Model;
 pub use run::{Budget, Progress, Run, SolverSettings, Trace};
+pub use stepper::{Method, Stats};
 
 use crate::physics::Undefined;
 
@@ -18,7 +21,9 @@ pub enum EngineError {
     UnknownSpecies { place: String, name: String },
     #[error("cannot start at rest: {reason}")]
     NoRestingState { reason: Undefined },
-    #[error("at t = {t_ms} ms the step size became too small to resolve {quantity}; the model is too stiff or changes too abruptly there")]
+    #[error(
+        "at t = {t_ms} ms the step size became too small to resolve {quantity}; the model is too stiff or changes too abruptly there"
+    )]
     StepUnderflow { t_ms: f64, quantity: String },
     #[error("at t = {t_ms} ms {quantity} became infinite or not a number")]
     NotFinite { t_ms: f64, quantity: String },

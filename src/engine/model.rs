@@ -13,10 +13,20 @@ use super::EngineError;
 #[derive(Debug, Clone, PartialEq)]
 pub enum LagKind {
     /// A permeability scale on one species (one per event).
-    Scale { species: usize, factor: f64, from_ms: f64, until_ms: Option<f64>, lag_ms: f64 },
+    Scale {
+        species: usize,
+        factor: f64,
+        from_ms: f64,
+        until_ms: Option<f64>,
+        lag_ms: f64,
+    },
     /// The bath concentration of one species: `(at_ms, outside_mm, lag_ms)` in time order,
     /// ties kept in file order so the later entry wins.
-    Bath { species: usize, file_mm: f64, changes: Vec<(f64, f64, f64)> },
+    Bath {
+        species: usize,
+        file_mm: f64,
+        changes: Vec<(f64, f64, f64)>,
+    },
     /// An agent's effective dose, µM.
     Agent {
         species: usize,
@@ -46,14 +56,34 @@ impl Lag {
     /// The command in force at `t` (right-continuous: an edge at `t` is already applied).
     pub fn command(&self, t_ms: f64) -> f64 {
         match &self.kind {
-            LagKind::Scale { factor, from_ms, until_ms, .. } => {
-                if in_span(t_ms, *from_ms, *until_ms) { *factor } else { 1.0 }
+            LagKind::Scale {
+                factor,
+                from_ms,
+                until_ms,
+                ..
+            } => {
+                if in_span(t_ms, *from_ms, *until_ms) {
+                    *factor
+                } else {
+                    1.0
+                }
             }
-            LagKind::Bath { file_mm, changes, .. } => {
-                changes.iter().rev().find(|c| c.0 <= t_ms).map_or(*file_mm, |c| c.1)
-            }
-            LagKind::Agent { dose_um, from_ms, until_ms, .. } => {
-                if in_span(t_ms, *from_ms, *until_ms) { *dose_um } else { 0.0 }
+            LagKind::Bath { file_mm, changes, .. } => changes
+                .iter()
+                .rev()
+                .find(|c| c.0 <= t_ms)
+                .map_or(*file_mm, |c| c.1),
+            LagKind::Agent {
+                dose_um,
+                from_ms,
+                until_ms,
+                ..
+            } => {
+                if in_span(t_ms, *from_ms, *until_ms) {
+                    *dose_um
+                } else {
+                    0.0
+                }
             }
         }
     }
@@ -63,8 +93,14 @@ impl Lag {
         match &self.kind {
             LagKind::Scale { lag_ms, .. } => *lag_ms,
             LagKind::Bath { changes, .. } => changes.iter().rev().find(|c| c.0 <= t_ms).map_or(0.0, |c| c.2),
-            LagKind::Agent { onset_ms, washout_ms, .. } => {
-                if self.command(t_ms) > e { *onset_ms } else { *washout_ms }
+            LagKind::Agent {
+                onset_ms, washout_ms, ..
+            } => {
+                if self.command(t_ms) > e {
+                    *onset_ms
+                } else {
+                    *washout_ms
+                }
             }
         }
     }
@@ -72,7 +108,12 @@ impl Lag {
     /// Every time at which the command may change.
     fn edges(&self, out: &mut Vec<f64>) {
         match &self.kind {
-            LagKind::Scale { from_ms, until_ms, .. } | LagKind::Agent { from_ms, until_ms, .. } => {
+            LagKind::Scale {
+                from_ms, until_ms, ..
+            }
+            | LagKind::Agent {
+                from_ms, until_ms, ..
+            } => {
                 out.push(*from_ms);
                 out.extend(until_ms);
             }
@@ -126,7 +167,11 @@ impl Pulses {
 
     /// First pulse edge strictly after `t`, if any.
     fn next_edge_after(&self, t_ms: f64) -> Option<f64> {
-        let k0 = if t_ms < self.from_ms { 0.0 } else { ((t_ms - self.from_ms) / self.period_ms).floor() - 1.0 };
+        let k0 = if t_ms < self.from_ms {
+            0.0
+        } else {
+            ((t_ms - self.from_ms) / self.period_ms).floor() - 1.0
+        };
         let mut k = k0.max(0.0);
         while k < f64::from(self.count) {
             let s = self.start(k as u32);
@@ -175,12 +220,20 @@ impl Model {
     /// species has is reported (validation already refuses it, so this is a second guard).
     pub fn new(s: &Scenario) -> Result<Model, EngineError> {
         let idx = |name: &str, place: String| {
-            s.species_index(name).ok_or(EngineError::UnknownSpecies { place, name: name.to_string() })
+            s.species_index(name).ok_or(EngineError::UnknownSpecies {
+                place,
+                name: name.to_string(),
+            })
         };
         let ions = s
             .species
             .iter()
-            .map(|x| Ion { charge: x.charge, inside_mm: x.inside_mm, outside_mm: x.outside_mm, p_cm_per_s: x.permeability_cm_per_s })
+            .map(|x| Ion {
+                charge: x.charge,
+                inside_mm: x.inside_mm,
+                outside_mm: x.outside_mm,
+                p_cm_per_s: x.permeability_cm_per_s,
+            })
             .collect();
         let mut channels = Vec::new();
         let mut gate_names = Vec::new();
@@ -219,28 +272,55 @@ impl Model {
             }),
             None => None,
         };
-        let membrane = Membrane::new(s.temperature_c, s.cell.capacitance_uf_per_cm2, ions, channels, pump);
+        let membrane = Membrane::new(
+            s.temperature_c,
+            s.cell.capacitance_uf_per_cm2,
+            ions,
+            channels,
+            pump,
+        );
 
         let mut lags = Vec::new();
         let mut pulses = Vec::new();
         let mut bath_lag: Vec<Option<usize>> = vec![None; s.species.len()];
         for (i, ev) in s.protocol.iter().enumerate() {
             match ev {
-                Event::PermeabilityScale { species, factor, from_ms, until_ms, lag_ms } => {
+                Event::PermeabilityScale {
+                    species,
+                    factor,
+                    from_ms,
+                    until_ms,
+                    lag_ms,
+                } => {
                     let sp = idx(species, format!("protocol[{i}].species"))?;
                     lags.push(Lag {
                         name: format!("factor:{species}:event{i}"),
-                        kind: LagKind::Scale { species: sp, factor: *factor, from_ms: *from_ms, until_ms: *until_ms, lag_ms: *lag_ms },
+                        kind: LagKind::Scale {
+                            species: sp,
+                            factor: *factor,
+                            from_ms: *from_ms,
+                            until_ms: *until_ms,
+                            lag_ms: *lag_ms,
+                        },
                     });
                 }
-                Event::BathChange { species, outside_mm, at_ms, lag_ms } => {
+                Event::BathChange {
+                    species,
+                    outside_mm,
+                    at_ms,
+                    lag_ms,
+                } => {
                     let sp = idx(species, format!("protocol[{i}].species"))?;
                     let l = match bath_lag[sp] {
                         Some(l) => l,
                         None => {
                             lags.push(Lag {
                                 name: format!("bath_mm:{species}"),
-                                kind: LagKind::Bath { species: sp, file_mm: s.species[sp].outside_mm, changes: vec![] },
+                                kind: LagKind::Bath {
+                                    species: sp,
+                                    file_mm: s.species[sp].outside_mm,
+                                    changes: vec![],
+                                },
                             });
                             bath_lag[sp] = Some(lags.len() - 1);
                             lags.len() - 1
@@ -250,7 +330,18 @@ impl Model {
                         changes.push((*at_ms, *outside_mm, *lag_ms));
                     }
                 }
-                Event::Agent { label, species, max_block, ic50_um, hill, dose_um, from_ms, until_ms, onset_ms, washout_ms } => {
+                Event::Agent {
+                    label,
+                    species,
+                    max_block,
+                    ic50_um,
+                    hill,
+                    dose_um,
+                    from_ms,
+                    until_ms,
+                    onset_ms,
+                    washout_ms,
+                } => {
                     let sp = idx(species, format!("protocol[{i}].species"))?;
                     lags.push(Lag {
                         name: format!("dose_um:{label}"),
@@ -267,14 +358,24 @@ impl Model {
                         },
                     });
                 }
-                Event::Inject { amplitude_ua_per_cm2, from_ms, until_ms } => pulses.push(Pulses {
+                Event::Inject {
+                    amplitude_ua_per_cm2,
+                    from_ms,
+                    until_ms,
+                } => pulses.push(Pulses {
                     amplitude_ua_per_cm2: *amplitude_ua_per_cm2,
                     from_ms: *from_ms,
                     width_ms: until_ms - from_ms,
                     period_ms: (until_ms - from_ms).max(f64::MIN_POSITIVE),
                     count: 1,
                 }),
-                Event::InjectTrain { amplitude_ua_per_cm2, width_ms, period_ms, count, from_ms } => pulses.push(Pulses {
+                Event::InjectTrain {
+                    amplitude_ua_per_cm2,
+                    width_ms,
+                    period_ms,
+                    count,
+                    from_ms,
+                } => pulses.push(Pulses {
                     amplitude_ua_per_cm2: *amplitude_ua_per_cm2,
                     from_ms: *from_ms,
                     width_ms: *width_ms,
@@ -336,7 +437,12 @@ impl Model {
     }
     /// Length of the state vector.
     pub fn dim(&self) -> usize {
-        self.conc_offset() + if self.track_concentrations { self.species_count() } else { 0 }
+        self.conc_offset()
+            + if self.track_concentrations {
+                self.species_count()
+            } else {
+                0
+            }
     }
 
     /// Names of the state components, for CSV headers and plots.
@@ -395,7 +501,11 @@ impl Model {
         let n = self.species_count();
         let lo = self.lag_offset();
         for s in 0..n {
-            self.scratch_inside[s] = if self.track_concentrations { y[self.conc_offset() + s].max(0.0) } else { self.membrane.ions[s].inside_mm };
+            self.scratch_inside[s] = if self.track_concentrations {
+                y[self.conc_offset() + s].max(0.0)
+            } else {
+                self.membrane.ions[s].inside_mm
+            };
             self.scratch_outside[s] = match self.bath_lag[s] {
                 Some(l) => y[lo + l].max(0.0),
                 None => self.membrane.ions[s].outside_mm,
@@ -406,7 +516,13 @@ impl Model {
             let e = y[lo + i];
             match &l.kind {
                 LagKind::Scale { species, .. } => self.scratch_factor[*species] *= e.max(0.0),
-                LagKind::Agent { species, max_block, ic50_um, hill, .. } => {
+                LagKind::Agent {
+                    species,
+                    max_block,
+                    ic50_um,
+                    hill,
+                    ..
+                } => {
                     self.scratch_factor[*species] *= 1.0 - fraction_blocked(*max_block, *ic50_um, *hill, e);
                 }
                 LagKind::Bath { .. } => {}
@@ -426,14 +542,21 @@ impl Model {
         let g0 = self.gate_offset();
         let ng = self.membrane.gate_count();
         let v = y[0];
-        let pump = self.membrane.currents(v, &y[g0..g0 + ng], &cond, &mut self.scratch_currents);
+        let pump = self
+            .membrane
+            .currents(v, &y[g0..g0 + ng], &cond, &mut self.scratch_currents);
         let net: f64 = self.scratch_currents.iter().sum::<f64>() + pump;
         dy[0] = (self.seg_inject - net) / self.membrane.capacitance_uf_per_cm2;
-        self.membrane.gate_derivatives(v, &y[g0..g0 + ng], &mut dy[g0..g0 + ng]);
+        self.membrane
+            .gate_derivatives(v, &y[g0..g0 + ng], &mut dy[g0..g0 + ng]);
         let lo = self.lag_offset();
         for i in 0..self.lags.len() {
             let tau = self.seg_tau[i];
-            dy[lo + i] = if tau > 0.0 { (self.seg_command[i] - y[lo + i]) / tau } else { 0.0 };
+            dy[lo + i] = if tau > 0.0 {
+                (self.seg_command[i] - y[lo + i]) / tau
+            } else {
+                0.0
+            };
         }
         if self.track_concentrations {
             let co = self.conc_offset();
@@ -473,7 +596,11 @@ impl Model {
     /// Conditions (inside, outside, permeability factor) at a stored state, copied out.
     pub fn conditions_at(&mut self, y: &[f64]) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
         self.fill_conditions(y);
-        (self.scratch_inside.clone(), self.scratch_outside.clone(), self.scratch_factor.clone())
+        (
+            self.scratch_inside.clone(),
+            self.scratch_outside.clone(),
+            self.scratch_factor.clone(),
+        )
     }
 
     /// The steady state under the commands in force at t = 0 (lags at their t = 0 commands,

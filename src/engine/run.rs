@@ -3,8 +3,8 @@
 //! the command line runs it to the end.
 
 use super::EngineError;
-use super::dopri5::{Dopri5, Settings, Stats, StepFailure, System};
 use super::model::Model;
+use super::stepper::{Method, Settings, Stats, StepFailure, Stepper, System};
 use crate::scenario::Scenario;
 
 /// Tolerances of a run. The defaults meet model.md's accuracy (0.01 mV against a reference).
@@ -19,11 +19,20 @@ pub struct SolverSettings {
     pub atol_relative: f64,
     /// Largest step, ms.
     pub h_max_ms: f64,
+    /// Which stepper; `Auto` switches to the linearly implicit one while the cell is stiff.
+    pub method: Method,
 }
 
 impl Default for SolverSettings {
     fn default() -> Self {
-        Self { rtol: 1e-6, atol_v_mv: 1e-5, atol_gate: 1e-7, atol_relative: 1e-7, h_max_ms: f64::INFINITY }
+        Self {
+            rtol: 1e-6,
+            atol_v_mv: 1e-5,
+            atol_gate: 1e-7,
+            atol_relative: 1e-7,
+            h_max_ms: f64::INFINITY,
+            method: Method::Auto,
+        }
     }
 }
 
@@ -38,10 +47,16 @@ pub struct Budget {
 
 impl Budget {
     pub fn to_end() -> Self {
-        Self { until_ms: f64::INFINITY, max_steps: u64::MAX }
+        Self {
+            until_ms: f64::INFINITY,
+            max_steps: u64::MAX,
+        }
     }
     pub fn steps(n: u64) -> Self {
-        Self { until_ms: f64::INFINITY, max_steps: n }
+        Self {
+            until_ms: f64::INFINITY,
+            max_steps: n,
+        }
     }
 }
 
@@ -70,7 +85,12 @@ pub struct Trace {
 impl Trace {
     fn new(names: Vec<String>) -> Self {
         let n = names.len();
-        Self { names, t_ms: Vec::new(), columns: vec![Vec::new(); n], discarded: 0 }
+        Self {
+            names,
+            t_ms: Vec::new(),
+            columns: vec![Vec::new(); n],
+            discarded: 0,
+        }
     }
     pub fn len(&self) -> usize {
         self.t_ms.len()
@@ -114,7 +134,7 @@ impl System for Wrapped<'_> {
 pub struct Run {
     model: Model,
     settings: SolverSettings,
-    stepper: Dopri5,
+    stepper: Stepper,
     y: Vec<f64>,
     t_ms: f64,
     /// End of the present command segment (next edge or the duration).
@@ -126,6 +146,8 @@ pub struct Run {
     trace: Trace,
     finished: bool,
     scratch: Vec<f64>,
+    /// Work of steppers replaced by [`Run::update_scenario`].
+    earlier_stats: Stats,
 }
 
 impl Run {
@@ -137,7 +159,7 @@ impl Run {
         }
         let mut model = Model::new(s)?;
         let y = model.initial_state()?;
-        let stepper = Dopri5::new(y.len(), Settings { rtol: settings.rtol, atol: atol_for(&model, &settings, &y), h_max: settings.h_max_ms });
+        let stepper = new_stepper(&model, &settings, &y);
         let trace = Trace::new(model.state_names());
         let n = y.len();
         Ok(Run {
@@ -153,6 +175,7 @@ impl Run {
             trace,
             finished: false,
             scratch: vec![0.0; n],
+            earlier_stats: Stats::default(),
         })
     }
 
@@ -177,8 +200,9 @@ impl Run {
     pub fn v_mv(&self) -> f64 {
         self.y[0]
     }
+    /// Work done so far, over every stepper the run has used.
     pub fn stats(&self) -> Stats {
-        self.stepper.stats
+        self.earlier_stats + self.stepper.stats()
     }
     pub fn is_finished(&self) -> bool {
         self.finished
@@ -209,7 +233,11 @@ impl Run {
         let n = self.grid_len();
         while self.next_sample < n {
             let ts = self.sample_time(self.next_sample);
-            let due = if inclusive { ts <= t_limit + 1e-12 * t_limit.abs().max(1.0) } else { ts < t_limit };
+            let due = if inclusive {
+                ts <= t_limit + 1e-12 * t_limit.abs().max(1.0)
+            } else {
+                ts < t_limit
+            };
             if !due {
                 break;
             }
@@ -217,8 +245,7 @@ impl Run {
                 self.stepper.dense_all(ts, &mut self.scratch);
                 self.trace.push(ts, &self.scratch);
             } else {
-                let y = self.y.clone();
-                self.trace.push(ts, &y);
+                self.trace.push(ts, &self.y);
             }
             self.next_sample += 1;
         }
@@ -237,14 +264,20 @@ impl Run {
                 self.stepper.invalidate();
                 // Samples exactly at a segment start take the new segment's instant inputs.
                 self.emit_samples(self.t_ms, true, false);
-                self.seg_end = self.model.next_edge_after(self.t_ms).map_or(duration, |e| e.min(duration));
+                self.seg_end = self
+                    .model
+                    .next_edge_after(self.t_ms)
+                    .map_or(duration, |e| e.min(duration));
                 self.segment_open = true;
             }
             if self.t_ms >= duration {
-                self.emit_samples(duration, true, false);
-                if self.needs_last_row() && !self.last_sample_written {
-                    let y = self.y.clone();
-                    self.trace.push(duration, &y);
+                // Every grid sample left is due: N = floor(duration/sample + 1e-9) may put the
+                // last one a hair past the duration, and it still belongs to the run.
+                self.emit_samples(f64::INFINITY, true, false);
+                // Only a run that landed on the duration writes it as a last row; one whose
+                // duration was shortened below the present time by an edit simply stops.
+                if self.needs_last_row() && !self.last_sample_written && self.t_ms == duration {
+                    self.trace.push(duration, &self.y);
                     self.last_sample_written = true;
                 }
                 self.finished = true;
@@ -253,15 +286,42 @@ impl Run {
             if steps >= budget.max_steps || self.t_ms >= budget.until_ms {
                 return Ok(Progress::Running);
             }
+            let span = self.seg_end - self.t_ms;
+            if span <= 1e-12 * self.t_ms.abs().max(1.0) {
+                // Two command edges closer than a step can resolve (a pulse's end and the next
+                // one's start rounded one ulp apart): cross the sliver with one Euler step.
+                self.model.derivatives(&self.y, &mut self.scratch);
+                if let Some(c) = self.scratch.iter().position(|d| !d.is_finite()) {
+                    return Err(EngineError::NotFinite {
+                        t_ms: self.t_ms,
+                        quantity: self.trace.names[c].clone(),
+                    });
+                }
+                for (y, d) in self.y.iter_mut().zip(&self.scratch) {
+                    *y += span * d;
+                }
+                self.t_ms = self.seg_end;
+                self.segment_open = false;
+                continue;
+            }
             let t_before = self.t_ms;
             let mut sys = Wrapped(&mut self.model);
-            match self.stepper.step(&mut sys, &mut self.t_ms, &mut self.y, self.seg_end) {
+            match self
+                .stepper
+                .step(&mut sys, &mut self.t_ms, &mut self.y, self.seg_end)
+            {
                 Ok(()) => {}
                 Err(StepFailure::Underflow { component }) => {
-                    return Err(EngineError::StepUnderflow { t_ms: t_before, quantity: self.trace.names[component].clone() });
+                    return Err(EngineError::StepUnderflow {
+                        t_ms: t_before,
+                        quantity: self.trace.names[component].clone(),
+                    });
                 }
                 Err(StepFailure::NotFinite { component }) => {
-                    return Err(EngineError::NotFinite { t_ms: t_before, quantity: self.trace.names[component].clone() });
+                    return Err(EngineError::NotFinite {
+                        t_ms: t_before,
+                        quantity: self.trace.names[component].clone(),
+                    });
                 }
             }
             steps += 1;
@@ -316,10 +376,12 @@ impl Run {
             self.trace.names = new_names;
         }
         let old_sample = self.model.sample_ms;
-        self.stepper = Dopri5::new(
-            y.len(),
-            Settings { rtol: self.settings.rtol, atol: atol_for(&model, &self.settings, &y), h_max: self.settings.h_max_ms },
-        );
+        if self.model.duration_ms != model.duration_ms {
+            // The old off-grid last row, if written, stays as history; the new duration gets its own.
+            self.last_sample_written = false;
+        }
+        self.earlier_stats = self.stats();
+        self.stepper = new_stepper(&model, &self.settings, &y);
         self.scratch = vec![0.0; y.len()];
         self.model = model;
         self.y = y;
@@ -333,6 +395,15 @@ impl Run {
     }
 }
 
+fn new_stepper(model: &Model, s: &SolverSettings, y: &[f64]) -> Stepper {
+    let settings = Settings {
+        rtol: s.rtol,
+        atol: atol_for(model, s, y),
+        h_max: s.h_max_ms,
+    };
+    Stepper::new(s.method, y.len(), settings)
+}
+
 /// Absolute tolerances per component, from each one's natural scale.
 fn atol_for(model: &Model, s: &SolverSettings, y: &[f64]) -> Vec<f64> {
     let mut a = vec![s.atol_gate; y.len()];
@@ -340,7 +411,9 @@ fn atol_for(model: &Model, s: &SolverSettings, y: &[f64]) -> Vec<f64> {
     let lo = model.lag_offset();
     for (i, l) in model.lags.iter().enumerate() {
         let scale = l.command(0.0).abs().max(1.0).max(match &l.kind {
-            super::model::LagKind::Bath { changes, file_mm, .. } => changes.iter().fold(*file_mm, |m, c| m.max(c.1)),
+            super::model::LagKind::Bath { changes, file_mm, .. } => {
+                changes.iter().fold(*file_mm, |m, c| m.max(c.1))
+            }
             super::model::LagKind::Scale { factor, .. } => *factor,
             super::model::LagKind::Agent { dose_um, .. } => *dose_um,
         });
