@@ -16,6 +16,16 @@ const SCENARIO_FILE: &str = "autosave.ron";
 const SOURCE_FILE: &str = "autosave-source.txt";
 const MARKER_FILE: &str = "session.lock";
 
+/// The platform's data directory for permeant, where the window keeps its autosave, view
+/// settings and recent files; `$PERMEANT_DATA_DIR` overrides it, which tests and screenshots
+/// use to keep away from the user's own files.
+pub fn data_dir() -> Option<PathBuf> {
+    if let Some(d) = std::env::var_os("PERMEANT_DATA_DIR") {
+        return Some(PathBuf::from(d));
+    }
+    directories::ProjectDirs::from("org", "permeant", "permeant").map(|p| p.data_dir().to_path_buf())
+}
+
 /// The autosave folder.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Autosave {
@@ -32,13 +42,9 @@ pub struct Recovered {
 }
 
 impl Autosave {
-    /// The platform's data directory for permeant (`$PERMEANT_DATA_DIR` overrides it, which
-    /// tests use to keep away from the user's own files).
+    /// Autosave in [`data_dir`].
     pub fn in_data_dir() -> Option<Self> {
-        if let Some(d) = std::env::var_os("PERMEANT_DATA_DIR") {
-            return Some(Self::at(PathBuf::from(d)));
-        }
-        directories::ProjectDirs::from("", "", "permeant").map(|p| Self::at(p.data_dir().to_path_buf()))
+        data_dir().map(Self::at)
     }
 
     pub fn at(dir: PathBuf) -> Self {

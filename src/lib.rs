@@ -9,6 +9,7 @@ pub mod autosave;
 pub mod cli;
 pub mod constants;
 pub mod engine;
+pub mod examples;
 pub mod notes;
 pub mod palette;
 pub mod physics;

@@ -64,7 +64,11 @@ pub fn inline(text: &str) -> Vec<Span> {
 
 fn flush(spans: &mut Vec<Span>, cur: &mut String, emphasis: bool, strong: bool) {
     if !cur.is_empty() {
-        spans.push(Span { text: std::mem::take(cur), emphasis, strong });
+        spans.push(Span {
+            text: std::mem::take(cur),
+            emphasis,
+            strong,
+        });
     }
 }
 
@@ -86,7 +90,10 @@ pub fn parse(notes: &str) -> Vec<Block> {
             end_para(&mut para, &mut blocks);
             let extra = h.chars().take_while(|&c| c == '#').count();
             let title = h[extra..].trim();
-            blocks.push(Block::Heading { level: (1 + extra).min(3) as u8, spans: inline(title) });
+            blocks.push(Block::Heading {
+                level: (1 + extra).min(3) as u8,
+                spans: inline(title),
+            });
         } else if let Some(item) = t.strip_prefix("- ").or_else(|| t.strip_prefix("* ")) {
             end_para(&mut para, &mut blocks);
             blocks.push(Block::Item(inline(item.trim())));
@@ -106,18 +113,39 @@ mod tests {
     use super::*;
 
     fn plain(s: &str) -> Span {
-        Span { text: s.into(), emphasis: false, strong: false }
+        Span {
+            text: s.into(),
+            emphasis: false,
+            strong: false,
+        }
     }
 
     #[test]
     fn headings_items_and_paragraphs() {
-        let b = parse("# What it shows\nA cell at rest\nin a normal bath.\n\n- raise the bath\n* watch V\n## Next\n");
+        let b = parse(
+            "# What it shows\nA cell at rest\nin a normal bath.\n\n- raise the bath\n* watch V\n## Next\n",
+        );
         assert_eq!(b.len(), 5);
-        assert_eq!(b[0], Block::Heading { level: 1, spans: vec![plain("What it shows")] });
-        assert_eq!(b[1], Block::Paragraph(vec![plain("A cell at rest in a normal bath.")]));
+        assert_eq!(
+            b[0],
+            Block::Heading {
+                level: 1,
+                spans: vec![plain("What it shows")]
+            }
+        );
+        assert_eq!(
+            b[1],
+            Block::Paragraph(vec![plain("A cell at rest in a normal bath.")])
+        );
         assert_eq!(b[2], Block::Item(vec![plain("raise the bath")]));
         assert_eq!(b[3], Block::Item(vec![plain("watch V")]));
-        assert_eq!(b[4], Block::Heading { level: 2, spans: vec![plain("Next")] });
+        assert_eq!(
+            b[4],
+            Block::Heading {
+                level: 2,
+                spans: vec![plain("Next")]
+            }
+        );
     }
 
     #[test]
@@ -131,6 +159,9 @@ mod tests {
     #[test]
     fn unmatched_markers_and_snake_case_stay_literal() {
         assert_eq!(inline("2 * 3"), vec![plain("2 * 3")]);
-        assert_eq!(inline("set outside_mm higher"), vec![plain("set outside_mm higher")]);
+        assert_eq!(
+            inline("set outside_mm higher"),
+            vec![plain("set outside_mm higher")]
+        );
     }
 }

@@ -719,3 +719,31 @@ proptest! {
         }
     }
 }
+
+/// A membrane whose permeant ions are absent on both sides carries no current at any
+/// potential: the resting potential is undefined, not the edge of the search (+1000 mV).
+#[test]
+fn no_ion_on_either_side_leaves_the_steady_state_undefined() {
+    use permeant::physics::{Conditions, Membrane, Undefined};
+    let m = Membrane::new(
+        37.0,
+        1.0,
+        vec![Ion {
+            charge: 1,
+            inside_mm: 0.0,
+            outside_mm: 0.0,
+            p_cm_per_s: 5e-7,
+        }],
+        vec![],
+        None,
+    );
+    let cond = Conditions {
+        inside_mm: &[0.0],
+        outside_mm: &[0.0],
+        p_factor: &[1.0],
+        inject_ua_per_cm2: 0.0,
+    };
+    let ss = m.steady_state(&cond);
+    assert_eq!(ss.resting_mv, Err(Undefined::NoCurrent));
+    assert!(ss.crossings.is_empty());
+}

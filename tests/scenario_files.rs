@@ -1055,14 +1055,24 @@ fn a_train_with_too_many_pulses_in_the_run_is_refused() {
         "protocol: [InjectTrain(amplitude_ua_per_cm2: 1.0, width_ms: 1e-6, period_ms: 2e-6, count: 4000000000, from_ms: 0.0),",
     );
     let problems = problems_of(&text);
-    assert!(problems.iter().any(|p| p.path.ends_with(".count") && p.message.contains("limit")), "{problems:?}");
+    assert!(
+        problems
+            .iter()
+            .any(|p| p.path.ends_with(".count") && p.message.contains("limit")),
+        "{problems:?}"
+    );
 }
 
 #[test]
 fn a_run_longer_than_the_limit_is_refused() {
     let text = with("duration_ms: 250.0,", "duration_ms: 1e20,");
     let problems = problems_of(&text);
-    assert!(problems.iter().any(|p| p.path == "run.duration_ms" && p.message.contains("longest run")), "{problems:?}");
+    assert!(
+        problems
+            .iter()
+            .any(|p| p.path == "run.duration_ms" && p.message.contains("longest run")),
+        "{problems:?}"
+    );
 }
 
 #[test]

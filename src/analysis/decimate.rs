@@ -7,61 +7,99 @@
 ///
 /// `t` must be sorted ascending (a trace's sample times are). When the visible samples are no
 /// more than two per column they are returned as they are; otherwise each column contributes
-/// its minimum and maximum, in time order. The nearest sample outside each end is kept too, so
-/// that the line runs on to the plot's edges. Samples whose value is not finite are skipped.
+/// its minimum and maximum, in time order, both at the column's centre. (At their own times
+/// they would make sub-pixel segments of uneven length, which a line renderer draws with
+/// visible gaps on steep flanks; half a pixel of time is not visible.) The nearest sample
+/// outside each end is kept too, so that the line runs on to the plot's edges. Samples whose
+/// value is not finite are skipped.
 pub fn decimate_min_max(t: &[f64], y: &[f64], t_range: (f64, f64), columns: usize) -> Vec<[f64; 2]> {
-    let n = t.len().min(y.len());
-    let (lo, hi) = t_range;
-    if n == 0 || columns == 0 || lo.is_nan() || hi.is_nan() || lo > hi {
-        return Vec::new();
-    }
-    let t = &t[..n];
-    let first = t.partition_point(|&x| x < lo);
-    let end = t.partition_point(|&x| x <= hi);
-    let before = first.checked_sub(1);
-    let after = (end < n).then_some(end);
+    let mut d = Decimator::new(t_range, columns);
+    d.update(t, y);
+    d.points(t, y)
+}
 
-    let mut out = Vec::with_capacity((2 * columns + 2).min(end - first + 2));
-    let push = |k: usize, out: &mut Vec<[f64; 2]>| {
-        if y[k].is_finite() {
-            out.push([t[k], y[k]]);
+/// [`decimate_min_max`] kept up to date as samples are appended: each call to
+/// [`Decimator::update`] looks only at the samples added since the last one, so a plot of a
+/// growing trace costs the new samples plus one pass over the columns per frame.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Decimator {
+    lo: f64,
+    hi: f64,
+    columns: usize,
+    /// Index of the first sample at or after `lo`, once seen.
+    first: Option<usize>,
+    /// Samples `..done` have been looked at.
+    done: usize,
+    /// Samples inside the range (finite or not).
+    inside: usize,
+    /// Per column: indices of its smallest and largest finite sample.
+    extrema: Vec<Option<(usize, usize)>>,
+}
+
+impl Decimator {
+    pub fn new(t_range: (f64, f64), columns: usize) -> Self {
+        let (lo, hi) = t_range;
+        let valid = columns > 0 && !lo.is_nan() && !hi.is_nan() && lo <= hi;
+        let columns = if valid { columns } else { 0 };
+        Self {
+            lo,
+            hi,
+            columns,
+            first: None,
+            done: 0,
+            inside: 0,
+            extrema: vec![None; columns],
         }
-    };
-    if let Some(k) = before {
-        push(k, &mut out);
     }
-    if end - first <= 2 * columns {
-        for k in first..end {
-            push(k, &mut out);
+
+    /// Whether this decimator was made for this range and width.
+    pub fn matches(&self, t_range: (f64, f64), columns: usize) -> bool {
+        self.lo == t_range.0 && self.hi == t_range.1 && self.columns == columns
+    }
+
+    /// Samples looked at so far.
+    pub fn done(&self) -> usize {
+        self.done
+    }
+
+    fn column_of(&self, x: f64) -> usize {
+        let width = (self.hi - self.lo) / self.columns as f64;
+        if width > 0.0 {
+            (((x - self.lo) / width) as usize).min(self.columns - 1)
+        } else {
+            0
         }
-    } else {
-        let width = (hi - lo) / columns as f64;
-        let column_of = |x: f64| {
-            if width > 0.0 {
-                (((x - lo) / width) as usize).min(columns - 1)
-            } else {
-                0
-            }
+    }
+
+    /// Takes in the samples appended since the last call (`t` sorted ascending).
+    pub fn update(&mut self, t: &[f64], y: &[f64]) {
+        let n = t.len().min(y.len());
+        if self.columns == 0 || n <= self.done {
+            self.done = self.done.max(n);
+            return;
+        }
+        let start = if self.done == 0 {
+            t[..n].partition_point(|&x| x < self.lo)
+        } else {
+            self.done
         };
-        // (column, index of min, index of max) of the column being filled.
-        let mut current: Option<(usize, usize, usize)> = None;
-        let flush = |c: Option<(usize, usize, usize)>, out: &mut Vec<[f64; 2]>| {
-            if let Some((_, a, b)) = c {
-                let (first_k, second_k) = if a <= b { (a, b) } else { (b, a) };
-                out.push([t[first_k], y[first_k]]);
-                if second_k != first_k {
-                    out.push([t[second_k], y[second_k]]);
-                }
+        for k in start..n {
+            let x = t[k];
+            if x < self.lo {
+                continue;
             }
-        };
-        for k in first..end {
+            if x > self.hi {
+                break;
+            }
+            self.first.get_or_insert(k);
+            self.inside += 1;
             let v = y[k];
             if !v.is_finite() {
                 continue;
             }
-            let col = column_of(t[k]);
-            match &mut current {
-                Some((c, kmin, kmax)) if *c == col => {
+            let c = self.column_of(x);
+            match &mut self.extrema[c] {
+                Some((kmin, kmax)) => {
                     if v < y[*kmin] {
                         *kmin = k;
                     }
@@ -69,18 +107,52 @@ pub fn decimate_min_max(t: &[f64], y: &[f64], t_range: (f64, f64), columns: usiz
                         *kmax = k;
                     }
                 }
-                _ => {
-                    flush(current, &mut out);
-                    current = Some((col, k, k));
+                slot @ None => *slot = Some((k, k)),
+            }
+        }
+        self.done = n;
+    }
+
+    /// The points to draw, from the same `t` and `y` the updates saw.
+    pub fn points(&self, t: &[f64], y: &[f64]) -> Vec<[f64; 2]> {
+        let n = self.done.min(t.len()).min(y.len());
+        if self.columns == 0 || n == 0 {
+            return Vec::new();
+        }
+        let first = self
+            .first
+            .unwrap_or_else(|| t[..n].partition_point(|&x| x < self.lo));
+        let end = first + self.inside;
+        let mut out = Vec::with_capacity((2 * self.columns + 2).min(self.inside + 2));
+        let push = |k: usize, out: &mut Vec<[f64; 2]>| {
+            if y[k].is_finite() {
+                out.push([t[k], y[k]]);
+            }
+        };
+        if let Some(k) = first.checked_sub(1) {
+            push(k, &mut out);
+        }
+        if self.inside <= 2 * self.columns {
+            for k in first..end {
+                push(k, &mut out);
+            }
+        } else {
+            let width = (self.hi - self.lo) / self.columns as f64;
+            for (c, e) in self.extrema.iter().enumerate() {
+                let Some((a, b)) = e else { continue };
+                let x = self.lo + (c as f64 + 0.5) * width;
+                let (p, q) = if a <= b { (*a, *b) } else { (*b, *a) };
+                out.push([x, y[p]]);
+                if q != p {
+                    out.push([x, y[q]]);
                 }
             }
         }
-        flush(current, &mut out);
+        if end < n {
+            push(end, &mut out);
+        }
+        out
     }
-    if let Some(k) = after {
-        push(k, &mut out);
-    }
-    out
 }
 
 #[cfg(test)]
@@ -120,8 +192,10 @@ mod tests {
         y[123_457] = 40.0;
         y[54_321] = -95.0;
         let out = decimate_min_max(&t, &y, (0.0, 2000.0), 300);
-        assert!(out.iter().any(|p| p[1] == 40.0 && p[0] == t[123_457]));
-        assert!(out.iter().any(|p| p[1] == -95.0 && p[0] == t[54_321]));
+        // Within half a column (2000/300/2 ms) of where they happened.
+        let near = |p: &[f64; 2], k: usize| (p[0] - t[k]).abs() <= 2000.0 / 300.0 / 2.0;
+        assert!(out.iter().any(|p| p[1] == 40.0 && near(p, 123_457)));
+        assert!(out.iter().any(|p| p[1] == -95.0 && near(p, 54_321)));
     }
 
     #[test]
@@ -143,6 +217,23 @@ mod tests {
         assert!(decimate_min_max(&t, &y, (0.0, 10.0), 0).is_empty());
         assert!(decimate_min_max(&[], &[], (0.0, 10.0), 10).is_empty());
         assert!(decimate_min_max(&t, &y, (10.0, 0.0), 10).is_empty());
+    }
+
+    #[test]
+    fn growing_traces_give_the_same_points_as_one_pass() {
+        let (t, y) = ramp(300_000);
+        let range = (1000.0, 25_000.0);
+        let mut d = Decimator::new(range, 500);
+        for n in [0, 1, 7, 9_999, 10_000, 123_456, 250_001, 300_000] {
+            d.update(&t[..n], &y[..n]);
+            assert_eq!(
+                d.points(&t[..n], &y[..n]),
+                decimate_min_max(&t[..n], &y[..n], range, 500),
+                "n = {n}"
+            );
+        }
+        assert!(d.matches(range, 500) && !d.matches(range, 501));
+        assert_eq!(d.done(), 300_000);
     }
 
     #[test]

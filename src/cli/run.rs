@@ -4,7 +4,6 @@ use std::io::{BufWriter, IsTerminal, Write};
 use std::path::PathBuf;
 use std::time::Instant;
 
-use crate::analysis::rest_report;
 use crate::engine::{Budget, Progress, Run, SolverSettings};
 use crate::report::{csv, svg};
 
@@ -90,25 +89,10 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         );
     }
     if let Some(path) = &a.svg {
-        let report = rest_report(&s)?;
-        let fig = svg::Figure {
-            title: if s.title.is_empty() {
-                a.file.display().to_string()
-            } else {
-                s.title.clone()
-            },
-            t_ms: &t_all,
-            v_mv: &v_all,
-            reversals: report
-                .species
-                .iter()
-                .enumerate()
-                .map(|(i, r)| (r.name.clone(), i, r.reversal_mv))
-                .collect(),
-            ghk_mv: report.ghk_mv.ok(),
-            events: svg::event_spans(&s),
-            duration_ms: s.run.duration_ms,
-        };
+        let mut fig = svg::figure_for(&s, &t_all, &v_all)?;
+        if fig.title.is_empty() {
+            fig.title = a.file.display().to_string();
+        }
         let text = svg::render(&fig).map_err(|e| anyhow::anyhow!(e))?;
         crate::scenario::write_atomic(path, text.as_bytes())
             .map_err(|e| super::bad(format!("cannot write {}: {e}", path.display())))?;

@@ -80,6 +80,8 @@ pub enum Undefined {
         "the net current has no zero crossing at which it increases with potential between -1000 and +1000 mV"
     )]
     NoStableCrossing,
+    #[error("no permeant ion is present on either side, so no current flows at any potential")]
+    NoCurrent,
     #[error("a concentration, permeability or temperature is not a finite number")]
     NotFinite,
 }

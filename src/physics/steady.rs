@@ -184,10 +184,17 @@ impl Membrane {
                 });
             }
         }
-        if fs[fs.len() - 1] == 0.0 {
+        if fs.iter().all(|&x| x == 0.0) {
+            return SteadyState {
+                crossings: vec![],
+                resting_mv: Err(Undefined::NoCurrent),
+            };
+        }
+        let n = fs.len();
+        if fs[n - 1] == 0.0 {
             crossings.push(Crossing {
-                v_mv: xs[xs.len() - 1],
-                increasing: true,
+                v_mv: xs[n - 1],
+                increasing: n >= 2 && fs[n - 2] < 0.0,
             });
         }
         let resting_mv = match crossings.iter().find(|c| c.increasing) {

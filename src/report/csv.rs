@@ -90,8 +90,16 @@ mod tests {
         let text = traces_csv(
             "Raised bath",
             &[
-                NamedTrace { name: "now", t_ms: &[0.0, 0.5], v_mv: &[-70.0, -69.5] },
-                NamedTrace { name: "with, comma", t_ms: &[0.0], v_mv: &[-60.25] },
+                NamedTrace {
+                    name: "now",
+                    t_ms: &[0.0, 0.5],
+                    v_mv: &[-70.0, -69.5],
+                },
+                NamedTrace {
+                    name: "with, comma",
+                    t_ms: &[0.0],
+                    v_mv: &[-60.25],
+                },
             ],
             when,
         );
@@ -101,6 +109,9 @@ mod tests {
         // 1.8e9 s after the epoch is 2027-01-15T08:00:00Z (humantime, checked by hand).
         assert_eq!(lines[2], "# written: 2027-01-15T08:00:00Z");
         assert_eq!(lines[3], "trace,time_ms,v_mv");
-        assert_eq!(&lines[4..], ["now,0,-70", "now,0.5,-69.5", "\"with, comma\",0,-60.25"]);
+        assert_eq!(
+            &lines[4..],
+            ["now,0,-70", "now,0.5,-69.5", "\"with, comma\",0,-60.25"]
+        );
     }
 }

@@ -4,6 +4,8 @@
 
 use plotters::prelude::*;
 
+use crate::analysis::rest_report;
+use crate::engine::EngineError;
 use crate::palette::{potential_rgb, species_rgb};
 use crate::scenario::{Event, Scenario};
 
@@ -19,6 +21,27 @@ pub struct Figure<'a> {
     /// Label, start and end of each event, ms.
     pub events: Vec<(String, f64, f64)>,
     pub duration_ms: f64,
+}
+
+/// The figure of a run of `s`: its title, the trace `t_ms`/`v_mv`, each species' reversal
+/// potential and the GHK potential at the scenario's starting conditions, and its events. The
+/// command line's `run --svg` and the window's export both draw this, so they match.
+pub fn figure_for<'a>(s: &Scenario, t_ms: &'a [f64], v_mv: &'a [f64]) -> Result<Figure<'a>, EngineError> {
+    let report = rest_report(s)?;
+    Ok(Figure {
+        title: s.title.clone(),
+        t_ms,
+        v_mv,
+        reversals: report
+            .species
+            .iter()
+            .enumerate()
+            .map(|(i, r)| (r.name.clone(), i, r.reversal_mv))
+            .collect(),
+        ghk_mv: report.ghk_mv.ok(),
+        events: event_spans(s),
+        duration_ms: s.run.duration_ms,
+    })
 }
 
 /// Events of a scenario as labelled time spans (an instantaneous bath change gets a thin band).

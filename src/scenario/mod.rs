@@ -3,6 +3,7 @@
 //! The types mirror scenario-format.md field for field and in the same order, because the
 //! saved file's field order is the struct order. Field names carry their units.
 
+pub mod paths;
 mod read;
 mod save;
 mod validate;

@@ -1,0 +1,212 @@
+//! The editor side panel: a tab for the cell (ions and permeabilities with their reversal
+//! potentials, the resting readouts, temperature and size), one for the pump and gated channels
+//! (in `channels.rs`) and one for the protocol and run settings (in `protocol.rs`).
+
+use egui::{Grid, RichText, ScrollArea, Ui};
+
+use super::command::Edit;
+use super::fields::NumField;
+use super::theme::species_color;
+use super::widgets::{Editing, color_swatch};
+use crate::analysis::RestReport;
+
+/// Which tab of the editor is open.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum EditorTab {
+    #[default]
+    Cell,
+    Channels,
+    Protocol,
+}
+
+/// What the editor shows besides the scenario.
+pub struct EditorInfo<'a> {
+    /// The resting report of the scenario, or why it could not be computed.
+    pub rest: &'a Result<RestReport, String>,
+    /// Present simulated time, for the protocol's time strip.
+    pub now_ms: f64,
+}
+
+pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editing) {
+    ui.horizontal(|ui| {
+        for (t, label) in [
+            (EditorTab::Cell, "Cell"),
+            (EditorTab::Channels, "Pump & channels"),
+            (EditorTab::Protocol, "Protocol"),
+        ] {
+            if ui
+                .selectable_label(*tab == t, RichText::new(label).strong())
+                .clicked()
+            {
+                *tab = t;
+            }
+        }
+    });
+    ui.separator();
+    ScrollArea::vertical()
+        .auto_shrink([false, false])
+        .show(ui, |ui| match tab {
+            EditorTab::Cell => cell_tab(ui, info, ed),
+            EditorTab::Channels => super::channels::show(ui, ed),
+            EditorTab::Protocol => super::protocol::show(ui, info.now_ms, ed),
+        });
+}
+
+fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
+    ui.heading("Ions and permeabilities");
+    species_table(ui, info, ed);
+    ui.horizontal(|ui| {
+        ed.button(ui, "+ Add ion", "Add an ion species", Edit::AddSpecies);
+    });
+    ui.add_space(6.0);
+    readouts(ui, info);
+    ui.add_space(8.0);
+    ui.heading("Temperature and size");
+    Grid::new("cell grid")
+        .num_columns(2)
+        .spacing([12.0, 6.0])
+        .show(ui, |ui| {
+            for (label, field) in [
+                ("Temperature", NumField::TemperatureC),
+                ("Diameter", NumField::DiameterUm),
+                ("Membrane capacitance", NumField::CapacitanceUfPerCm2),
+            ] {
+                ui.label(label);
+                ed.number(ui, field, 80.0);
+                ui.end_row();
+            }
+        });
+    let mut track = ed.scenario.cell.track_concentrations;
+    if ui
+        .checkbox(&mut track, "Inside concentrations change with the currents")
+        .on_hover_text("Track each ion's inside concentration over time (the bath is taken as infinite)")
+        .changed()
+    {
+        ed.push(Edit::TrackConcentrations(track));
+    }
+}
+
+fn species_table(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
+    let rows = ed.scenario.species.len();
+    let report = info.rest.as_ref().ok();
+    Grid::new("species table")
+        .num_columns(9)
+        .spacing([6.0, 4.0])
+        .striped(true)
+        .show(ui, |ui| {
+            for h in [
+                "",
+                "Name",
+                "z",
+                "Inside",
+                "Outside",
+                "Permeability",
+                "Rel.",
+                "Reversal",
+                "",
+            ] {
+                ui.label(RichText::new(h).small().strong());
+            }
+            ui.end_row();
+            for i in 0..rows {
+                let Some(sp) = ed.scenario.species.get(i).cloned() else {
+                    break;
+                };
+                color_swatch(ui, species_color(i))
+                    .on_hover_text(format!("{}: its colour in every plot", sp.name));
+                ed.text(
+                    ui,
+                    ("species name", i),
+                    &sp.name,
+                    &format!("name of ion {}", i + 1),
+                    44.0,
+                    move |name| Edit::SpeciesName { index: i, name },
+                );
+                ed.number(ui, NumField::Charge(i), 22.0);
+                ed.number(ui, NumField::InsideMm(i), 56.0);
+                ed.number(ui, NumField::OutsideMm(i), 56.0);
+                ed.number(ui, NumField::PermeabilityCmPerS(i), 70.0);
+                let row = report.and_then(|r| r.species.get(i));
+                let rel = row.and_then(|r| r.relative_permeability);
+                ui.label(rel.map_or_else(|| "—".into(), relative_text))
+                    .on_hover_text("Resting permeability relative to the most permeant ion");
+                match row.and_then(|r| r.reversal_mv) {
+                    Some(e) => {
+                        ui.label(
+                            RichText::new(format!("{e:+.1} mV"))
+                                .color(species_color(i))
+                                .strong(),
+                        )
+                        .on_hover_text(format!("Reversal (Nernst) potential of {}", sp.name));
+                    }
+                    None => {
+                        ui.label("—").on_hover_text("Undefined: a concentration is 0");
+                    }
+                }
+                ed.button(ui, "×", &format!("Remove {}", sp.name), Edit::RemoveSpecies(i));
+                ui.end_row();
+            }
+        });
+}
+
+fn relative_text(r: f64) -> String {
+    if r == 0.0 {
+        "0".into()
+    } else if r >= 0.01 {
+        format!("{r:.2}")
+            .trim_end_matches('0')
+            .trim_end_matches('.')
+            .to_string()
+    } else {
+        format!("{r:.0e}")
+    }
+}
+
+fn readouts(ui: &mut Ui, info: &EditorInfo) {
+    let report = match info.rest {
+        Ok(r) => r,
+        Err(e) => {
+            ui.colored_label(ui.visuals().warn_fg_color, format!("No readouts: {e}"));
+            return;
+        }
+    };
+    Grid::new("readouts")
+        .num_columns(2)
+        .spacing([12.0, 4.0])
+        .show(ui, |ui| {
+            ui.label("GHK potential").on_hover_text(
+                "Zero-current potential of the resting permeabilities alone (no pump, channels or protocol)",
+            );
+            match &report.ghk_mv {
+                Ok(v) => ui.label(RichText::new(format!("{v:+.1} mV")).strong()),
+                Err(e) => ui.label("—").on_hover_text(e.to_string()),
+            };
+            ui.end_row();
+            ui.label("Resting potential").on_hover_text(
+                "Steady state at t = 0: pump, channels and the commands in force at t = 0 included",
+            );
+            match &report.steady.resting_mv {
+                Ok(v) => ui.label(RichText::new(format!("{v:+.1} mV")).strong()),
+                Err(e) => ui.colored_label(ui.visuals().warn_fg_color, format!("undefined: {e}")),
+            };
+            ui.end_row();
+            if report.steady.crossings.len() > 1 {
+                ui.label("Zero-current points");
+                let text = report
+                    .steady
+                    .crossings
+                    .iter()
+                    .map(|c| {
+                        format!(
+                            "{:+.1} mV ({})",
+                            c.v_mv,
+                            if c.increasing { "stable" } else { "unstable" }
+                        )
+                    })
+                    .collect::<Vec<_>>()
+                    .join(", ");
+                ui.label(text);
+                ui.end_row();
+            }
+        });
+}

@@ -1,0 +1,245 @@
+//! The current–voltage view: each species' GHK current and the total membrane current against
+//! voltage, with every gate, lagged input and concentration frozen at the run's present state,
+//! and the potentials where the total current is zero marked.
+
+use egui::{RichText, Ui};
+use egui_plot::{Corner, HLine, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoint, Points, Text, VLine};
+
+use super::runtime::Runtime;
+use super::theme::{neutral_color, potential_color, species_color};
+use crate::physics::{Conditions, ghk_current_ua_per_cm2, nernst_mv};
+
+/// Points per curve.
+const STEPS: usize = 360;
+
+/// The curves of one present state.
+#[derive(Debug, Clone, PartialEq)]
+pub struct IvCurves {
+    pub v_mv: Vec<f64>,
+    /// Per species: name, its curve, and its reversal potential when it carries current.
+    pub species: Vec<(String, Vec<f64>, Option<f64>)>,
+    pub pump_ua_per_cm2: f64,
+    pub total: Vec<f64>,
+    /// Potentials where the total current crosses zero, most negative first.
+    pub zeros_mv: Vec<f64>,
+    /// The present membrane potential.
+    pub present_mv: f64,
+}
+
+/// Computes the curves at the run's present state over `[lo, hi]` mV.
+pub fn curves(rt: &mut Runtime, lo: f64, hi: f64) -> Option<IvCurves> {
+    let run = rt.run_mut()?;
+    let state = run.state().to_vec();
+    let model = run.model_mut();
+    let (inside, outside, factor) = model.conditions_at(&state);
+    let cond = Conditions {
+        inside_mm: &inside,
+        outside_mm: &outside,
+        p_factor: &factor,
+        inject_ua_per_cm2: 0.0,
+    };
+    let m = &model.membrane;
+    let gates = &state[1..1 + m.gate_count()];
+    let t_c = m.temperature_c;
+    let pump = m.pump_current(&cond);
+    let v_mv: Vec<f64> = (0..=STEPS)
+        .map(|k| lo + (hi - lo) * k as f64 / STEPS as f64)
+        .collect();
+    let mut total = vec![pump; v_mv.len()];
+    let mut species = Vec::new();
+    let mut per_species_p = Vec::new();
+    for (s, ion) in m.ions.iter().enumerate() {
+        let p = m.permeability_cm_per_s(s, gates, &cond);
+        per_species_p.push((p, ion.charge, inside[s], outside[s]));
+        let curve: Vec<f64> = v_mv
+            .iter()
+            .map(|&v| ghk_current_ua_per_cm2(p, ion.charge, inside[s], outside[s], v, t_c))
+            .collect();
+        for (t, i) in total.iter_mut().zip(&curve) {
+            *t += i;
+        }
+        let name = model.species_names.get(s).cloned().unwrap_or_default();
+        let e = if p > 0.0 {
+            nernst_mv(ion.charge, inside[s], outside[s], t_c)
+        } else {
+            None
+        };
+        species.push((name, curve, e));
+    }
+    let net = |v: f64| {
+        per_species_p
+            .iter()
+            .map(|&(p, z, ci, co)| ghk_current_ua_per_cm2(p, z, ci, co, v, t_c))
+            .sum::<f64>()
+            + pump
+    };
+    let mut zeros_mv = Vec::new();
+    for k in 0..STEPS {
+        let (a, b) = (total[k], total[k + 1]);
+        if a == 0.0 {
+            zeros_mv.push(v_mv[k]);
+        } else if a * b < 0.0 {
+            zeros_mv.push(bisect(&net, v_mv[k], v_mv[k + 1], a));
+        }
+    }
+    Some(IvCurves {
+        v_mv,
+        species,
+        pump_ua_per_cm2: pump,
+        total,
+        zeros_mv,
+        present_mv: state[0],
+    })
+}
+
+/// A root of `f` in `[a, b]` where `f(a) = fa` and `f(b)` has the other sign.
+fn bisect(f: &impl Fn(f64) -> f64, mut a: f64, mut b: f64, mut fa: f64) -> f64 {
+    for _ in 0..60 {
+        let m = 0.5 * (a + b);
+        let fm = f(m);
+        if fm == 0.0 {
+            return m;
+        }
+        if (fm < 0.0) == (fa < 0.0) {
+            a = m;
+            fa = fm;
+        } else {
+            b = m;
+        }
+    }
+    0.5 * (a + b)
+}
+
+/// The voltage window: −120…+60 mV widened to the reversal potentials within ±150 mV.
+fn window(rt: &Runtime, rest: Option<&crate::analysis::RestReport>) -> (f64, f64) {
+    let (mut lo, mut hi) = (-120.0f64, 60.0f64);
+    if let Some(r) = rest {
+        for e in r
+            .species
+            .iter()
+            .filter_map(|s| s.reversal_mv)
+            .filter(|e| e.abs() <= 150.0)
+        {
+            lo = lo.min(e - 10.0);
+            hi = hi.max(e + 10.0);
+        }
+    }
+    if let Some(v) = rt
+        .run()
+        .map(|r| r.v_mv())
+        .filter(|v| v.is_finite() && v.abs() <= 200.0)
+    {
+        lo = lo.min(v - 10.0);
+        hi = hi.max(v + 10.0);
+    }
+    (lo, hi)
+}
+
+pub fn show(ui: &mut Ui, rt: &mut Runtime, rest: Option<&crate::analysis::RestReport>) {
+    ui.label(RichText::new("Current–voltage now").strong())
+        .on_hover_text(
+            "GHK currents against voltage with gates, concentrations and agents frozen at the present state",
+        );
+    let (lo, hi) = window(rt, rest);
+    let Some(c) = curves(rt, lo, hi) else {
+        ui.label(rt.error.clone().unwrap_or_else(|| "No present state.".into()));
+        return;
+    };
+    let dark = ui.visuals().dark_mode;
+    let zeros_text = if c.zeros_mv.is_empty() {
+        "Total current: no zero crossing here".to_string()
+    } else {
+        format!(
+            "Total current is zero at {}",
+            c.zeros_mv
+                .iter()
+                .map(|v| format!("{v:+.1} mV"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    };
+    ui.label(RichText::new(zeros_text).small());
+    Plot::new("iv plot")
+        .default_x_bounds(lo, hi)
+        .x_axis_label("Membrane potential (mV)")
+        .y_axis_label("Current (µA/cm², outward +)")
+        .y_axis_min_width(40.0)
+        .legend(Legend::default().position(Corner::LeftTop).background_alpha(0.6))
+        .label_formatter(|h| super::plots::hover_label(h, "mV", "µA/cm²"))
+        .show(ui, |pui| {
+            pui.hline(
+                HLine::new("", 0.0)
+                    .color(neutral_color(dark).gamma_multiply(0.5))
+                    .width(0.8),
+            );
+            pui.vline(
+                VLine::new("present V", c.present_mv)
+                    .color(neutral_color(dark))
+                    .style(LineStyle::dashed_dense()),
+            );
+            for (i, (name, curve, e)) in c.species.iter().enumerate() {
+                let pts: Vec<[f64; 2]> = c.v_mv.iter().zip(curve).map(|(v, y)| [*v, *y]).collect();
+                pui.line(
+                    Line::new(format!("I {name}"), pts)
+                        .color(species_color(i))
+                        .width(1.6),
+                );
+                if let Some(e) = e.filter(|e| *e >= lo && *e <= hi) {
+                    pui.points(
+                        Points::new(format!("I {name}"), vec![[e, 0.0]])
+                            .color(species_color(i))
+                            .shape(MarkerShape::Diamond)
+                            .radius(4.0),
+                    );
+                }
+            }
+            let pts: Vec<[f64; 2]> = c.v_mv.iter().zip(&c.total).map(|(v, y)| [*v, *y]).collect();
+            let total_color = potential_color(dark);
+            pui.line(Line::new("I total", pts).color(total_color).width(2.4));
+            if !c.zeros_mv.is_empty() {
+                let z: Vec<[f64; 2]> = c.zeros_mv.iter().map(|v| [*v, 0.0]).collect();
+                pui.points(
+                    Points::new("I total", z)
+                        .color(total_color)
+                        .shape(MarkerShape::Circle)
+                        .radius(5.0)
+                        .filled(true),
+                );
+                for v in &c.zeros_mv {
+                    pui.text(
+                        Text::new(
+                            "",
+                            PlotPoint::new(*v, 0.0),
+                            RichText::new(format!("{v:+.1}")).color(total_color).strong(),
+                        )
+                        .anchor(egui::Align2::CENTER_BOTTOM),
+                    );
+                }
+            }
+        });
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::scenario::Scenario;
+
+    #[test]
+    fn at_rest_the_total_current_is_zero_at_the_resting_potential() {
+        let s = Scenario::new_default();
+        let mut rt = Runtime::new(&s);
+        let rest = crate::analysis::rest_report(&s).ok().and_then(|r| r.resting_mv());
+        let c = curves(&mut rt, -120.0, 100.0).expect("a present state");
+        assert_eq!(c.zeros_mv.len(), 1);
+        let (zero, rest) = (c.zeros_mv[0], rest.expect("a resting potential"));
+        // Without pump or channels the instantaneous and steady curves coincide.
+        assert!((zero - rest).abs() < 1e-6, "{zero} vs {rest}");
+        assert!((c.present_mv - rest).abs() < 1e-6);
+        // Each species' curve crosses zero at its Nernst potential (model.md, GHK current).
+        for (k, (_, curve, e)) in c.species.iter().enumerate() {
+            let e = e.expect("every default species is permeant");
+            let i = c.v_mv.iter().position(|v| *v > e).expect("inside the window");
+            assert!(curve[i - 1] <= 0.0 && curve[i] >= 0.0, "species {k}");
+        }
+    }
+}

@@ -1,0 +1,554 @@
+//! The central plots: membrane potential against time with every reversal potential, the GHK
+//! potential and the protocol's events, and under it (sharing the time axis) the currents, the
+//! permeabilities or the gates. Long traces are thinned to min/max per pixel column of the
+//! visible range, so a frame costs the same for a thousand samples or a million.
+
+use egui::{Color32, Id, RichText, Ui};
+use egui_plot::{
+    Corner, HLine, HoverPosition, Legend, Line, LineStyle, Plot, PlotPoint, PlotUi, Span, Text, VLine,
+};
+
+use super::command::Command;
+use super::prefs::LowerPlot;
+use super::protocol::{event_color, event_intervals, event_summary};
+use super::runtime::Derived;
+use super::theme::{band_fill, neutral_color, potential_color, species_color};
+use crate::analysis::RestReport;
+use crate::analysis::decimate::Decimator;
+use crate::engine::Trace;
+use crate::scenario::Scenario;
+use std::collections::HashMap;
+
+/// Reversal lines further than this from 0 mV are left out of the automatic range (they are
+/// still drawn when the view reaches them), so that e.g. calcium's +130 mV does not squash V.
+const AUTO_RANGE_LIMIT_MV: f64 = 150.0;
+
+/// What the plots draw.
+pub struct PlotInput<'a> {
+    pub scenario: &'a Scenario,
+    pub rest: Option<&'a RestReport>,
+    pub trace: Option<&'a Trace>,
+    /// Samples shown (a prefix of the trace).
+    pub shown_len: usize,
+    pub shown_ms: f64,
+    pub derived: &'a Derived,
+    /// Names of the gates in trace columns `1..=gates.len()`.
+    pub gate_names: &'a [String],
+    pub lower: LowerPlot,
+    /// Changes with each new run, to reset the cached range.
+    pub generation: u64,
+}
+
+/// What the plots keep between frames: the running V range and one [`Decimator`] per line,
+/// all updated with new samples only, and dropped when a new run starts.
+#[derive(Debug, Default)]
+pub struct Plots {
+    generation: u64,
+    done: usize,
+    v_min: f64,
+    v_max: f64,
+    lines: HashMap<String, Decimator>,
+}
+
+/// The decimated points of one line, reusing its decimator while the view is unchanged.
+fn decimated(
+    lines: &mut HashMap<String, Decimator>,
+    key: &str,
+    t: &[f64],
+    y: &[f64],
+    range: (f64, f64),
+    columns: usize,
+) -> Vec<[f64; 2]> {
+    let d = lines
+        .entry(key.to_string())
+        .or_insert_with(|| Decimator::new(range, columns));
+    if !d.matches(range, columns) || d.done() > t.len().min(y.len()) {
+        *d = Decimator::new(range, columns);
+    }
+    d.update(t, y);
+    d.points(t, y)
+}
+
+impl Plots {
+    fn v_range(&mut self, input: &PlotInput) -> Option<(f64, f64)> {
+        let trace = input.trace?;
+        if self.generation != input.generation || input.shown_len < self.done {
+            self.generation = input.generation;
+            self.done = 0;
+            self.v_min = f64::INFINITY;
+            self.v_max = f64::NEG_INFINITY;
+            self.lines.clear();
+        }
+        for &v in &trace.v_mv()[self.done..input.shown_len.min(trace.len())] {
+            if v.is_finite() {
+                self.v_min = self.v_min.min(v);
+                self.v_max = self.v_max.max(v);
+            }
+        }
+        self.done = input.shown_len.min(trace.len());
+        (self.v_min <= self.v_max).then_some((self.v_min, self.v_max))
+    }
+
+    pub fn show(&mut self, ui: &mut Ui, input: &PlotInput, commands: &mut Vec<Command>) {
+        let link = Id::unique("permeant time axis");
+        let duration = input.scenario.run.duration_ms.max(1e-6);
+        let total = ui.available_height();
+        let selector_h = ui.spacing().interact_size.y + 6.0;
+        let upper_h = ((total - selector_h) * 0.58).max(120.0);
+
+        let (y_lo, y_hi) = self.potential_range(input);
+        Plot::new("potential plot")
+            .height(upper_h)
+            .default_x_bounds(0.0, duration)
+            .default_y_bounds(y_lo, y_hi)
+            .link_axis(link, [true, false])
+            .link_cursor(link, [true, false])
+            .y_axis_label("Membrane potential (mV)")
+            .y_axis_min_width(40.0)
+            .label_formatter(|h| hover_label(h, "ms", "mV"))
+            .show(ui, |pui| potential_items(&mut self.lines, pui, input));
+
+        ui.horizontal(|ui| {
+            ui.label(RichText::new("Below:").small());
+            for choice in LowerPlot::ALL {
+                if ui
+                    .selectable_label(input.lower == choice, choice.label())
+                    .clicked()
+                    && input.lower != choice
+                {
+                    commands.push(Command::SetLowerPlot(choice));
+                }
+            }
+        });
+
+        let (y_label, fixed_y) = match input.lower {
+            LowerPlot::Currents => ("Current (µA/cm², outward +)", None),
+            LowerPlot::Permeabilities => ("log₁₀ permeability (cm/s)", None),
+            LowerPlot::Gates => ("Open fraction", Some((-0.02, 1.02))),
+        };
+        let mut lower = Plot::new(("lower plot", input.lower as u8))
+            .height(ui.available_height().max(80.0))
+            .default_x_bounds(0.0, duration)
+            .link_axis(link, [true, false])
+            .link_cursor(link, [true, false])
+            .x_axis_label("Time (ms)")
+            .y_axis_label(y_label)
+            .y_axis_min_width(40.0)
+            .legend(Legend::default().position(Corner::LeftTop).background_alpha(0.6));
+        if let Some((lo, hi)) = fixed_y {
+            lower = lower.default_y_bounds(lo, hi);
+        }
+        if input.lower == LowerPlot::Permeabilities {
+            lower = lower.y_axis_formatter(|mark, _| format_power_of_ten(mark.value));
+        }
+        lower.show(ui, |pui| match input.lower {
+            LowerPlot::Currents => current_items(&mut self.lines, pui, input),
+            LowerPlot::Permeabilities => permeability_items(&mut self.lines, pui, input),
+            LowerPlot::Gates => gate_items(&mut self.lines, pui, input),
+        });
+    }
+
+    /// The automatic V range: the trace so far, the GHK potential, the resting potential and
+    /// the reversal potentials within ±150 mV, with a margin.
+    fn potential_range(&mut self, input: &PlotInput) -> (f64, f64) {
+        let mut lo = f64::INFINITY;
+        let mut hi = f64::NEG_INFINITY;
+        let mut take = |v: f64| {
+            if v.is_finite() && v.abs() <= AUTO_RANGE_LIMIT_MV {
+                lo = lo.min(v);
+                hi = hi.max(v);
+            }
+        };
+        if let Some((a, b)) = self.v_range(input) {
+            take(a);
+            take(b);
+        }
+        if let Some(r) = input.rest {
+            r.species.iter().filter_map(|s| s.reversal_mv).for_each(&mut take);
+            if let Ok(v) = r.ghk_mv {
+                take(v);
+            }
+            if let Some(v) = r.resting_mv() {
+                take(v);
+            }
+        }
+        if lo > hi || lo.is_nan() {
+            return (-100.0, 50.0);
+        }
+        let pad = ((hi - lo) * 0.08).max(5.0);
+        (lo - pad, hi + pad)
+    }
+}
+
+/// The hover text of a plot: the nearest item's name, then both coordinates with units.
+pub fn hover_label(h: &HoverPosition, x_unit: &str, y_unit: &str) -> Option<String> {
+    let (name, p) = match h {
+        HoverPosition::NearDataPoint {
+            plot_name, position, ..
+        } => (*plot_name, position),
+        HoverPosition::Elsewhere { position } => ("", position),
+    };
+    let head = if name.is_empty() {
+        String::new()
+    } else {
+        format!("{name}\n")
+    };
+    Some(format!("{head}{:.2} {x_unit}\n{:.3} {y_unit}", p.x, p.y))
+}
+
+/// Tick labels of a log10 axis as powers of ten.
+fn format_power_of_ten(v: f64) -> String {
+    if (v - v.round()).abs() < 1e-9 {
+        format!("1e{}", v.round())
+    } else {
+        format!("{:.1e}", 10f64.powf(v))
+    }
+}
+
+/// How many pixel columns the plot has, for decimation.
+fn columns(pui: &PlotUi) -> usize {
+    let ppp = pui.ctx().pixels_per_point();
+    (pui.response().rect.width() * ppp).max(1.0) as usize
+}
+
+fn visible_t(pui: &PlotUi) -> (f64, f64) {
+    let b = pui.plot_bounds();
+    (b.min()[0], b.max()[0])
+}
+
+/// A decimated line of `y` against the shown part of the trace's time.
+fn series<'a>(
+    lines: &mut HashMap<String, Decimator>,
+    pui: &PlotUi,
+    input: &PlotInput,
+    y: &[f64],
+    name: String,
+    color: Color32,
+    width: f32,
+) -> Option<Line<'a>> {
+    let trace = input.trace?;
+    let n = input.shown_len.min(trace.len()).min(y.len());
+    let key = format!("{:?}/{name}", input.lower);
+    let points = decimated(
+        lines,
+        &key,
+        &trace.t_ms[..n],
+        &y[..n],
+        visible_t(pui),
+        columns(pui),
+    );
+    Some(Line::new(name, points).color(color).width(width))
+}
+
+/// One shaded band of the protocol and its label ("" for no label).
+#[derive(Debug, Clone, PartialEq)]
+struct Band {
+    from_ms: f64,
+    until_ms: f64,
+    event: usize,
+    /// The event's first band (the one that may carry a label).
+    first: bool,
+    label: String,
+}
+
+/// The bands of a protocol. A bath exchange is marked over its exchange time only (the new
+/// bath then stays); events starting together share one label, so labels never pile up; a
+/// lone event is labelled with its summary, a group with its event numbers.
+fn bands(s: &Scenario) -> Vec<Band> {
+    let d = s.run.duration_ms;
+    let mut out: Vec<Band> = Vec::new();
+    for (k, e) in s.protocol.iter().enumerate() {
+        let intervals = match e {
+            crate::scenario::Event::BathChange { at_ms, lag_ms, .. } => {
+                vec![(at_ms.min(d), (at_ms + (3.0 * lag_ms).max(d / 200.0)).min(d))]
+            }
+            _ => event_intervals(e, d),
+        };
+        for (j, (a, b)) in intervals.into_iter().enumerate() {
+            out.push(Band {
+                from_ms: a,
+                until_ms: b.max(a),
+                event: k,
+                first: j == 0,
+                label: String::new(),
+            });
+        }
+    }
+    // Label the first band of each event, grouping events that start at the same time.
+    let firsts: Vec<usize> = (0..out.len()).filter(|&i| out[i].first).collect();
+    let mut done = vec![false; out.len()];
+    for &i in &firsts {
+        if done[i] {
+            continue;
+        }
+        let group: Vec<usize> = firsts
+            .iter()
+            .copied()
+            .filter(|&j| (out[j].from_ms - out[i].from_ms).abs() <= 1e-9 * d.max(1.0))
+            .collect();
+        for &j in &group {
+            done[j] = true;
+        }
+        out[i].label = if group.len() == 1 {
+            let e = &s.protocol[out[i].event];
+            format!("{}. {}", out[i].event + 1, event_summary(e))
+        } else {
+            group
+                .iter()
+                .map(|&j| (out[j].event + 1).to_string())
+                .collect::<Vec<_>>()
+                .join(" + ")
+        };
+    }
+    out
+}
+
+fn protocol_bands(pui: &mut PlotUi, input: &PlotInput, dark: bool) {
+    let s = input.scenario;
+    for band in bands(s) {
+        let Some(e) = s.protocol.get(band.event) else {
+            continue;
+        };
+        let color = event_color(s, e, dark);
+        pui.span(
+            Span::new(band.label, band.from_ms..=band.until_ms)
+                .fill(band_fill(color, dark))
+                .border_width(0.0),
+        );
+    }
+}
+
+fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+    let dark = pui.ctx().global_style().visuals.dark_mode;
+    protocol_bands(pui, input, dark);
+    let bounds = pui.plot_bounds();
+    let (x_left, x_right) = (bounds.min()[0], bounds.max()[0]);
+    if let Some(r) = input.rest {
+        for (i, row) in r.species.iter().enumerate() {
+            let c = species_color(i);
+            // A species whose concentrations change in the run gets its reversal potential
+            // drawn along time; the others keep the file's value as a horizontal line.
+            let along = input
+                .derived
+                .reversal_mv
+                .get(i)
+                .filter(|col| col.iter().any(|e| e.is_finite()));
+            let (e_label, line_at) = match along {
+                Some(col) => {
+                    let points = series(lines, pui, input, col, format!("E {}", row.name), c, 1.5);
+                    let last = col[..input.shown_len.min(col.len())]
+                        .iter()
+                        .rev()
+                        .find(|e| e.is_finite())
+                        .copied();
+                    if let Some(line) = points {
+                        pui.line(line.style(LineStyle::dashed_loose()));
+                    }
+                    (last, None)
+                }
+                None => (row.reversal_mv, row.reversal_mv),
+            };
+            if let Some(e) = line_at {
+                pui.hline(
+                    HLine::new(format!("E {}", row.name), e)
+                        .color(c)
+                        .width(1.5)
+                        .style(LineStyle::dashed_loose()),
+                );
+            }
+            let Some(e) = e_label else { continue };
+            pui.text(
+                Text::new(
+                    format!("E {} label", row.name),
+                    PlotPoint::new(x_right, e),
+                    RichText::new(format!("E {} {:+.1} mV", row.name, e))
+                        .color(c)
+                        .strong(),
+                )
+                .anchor(egui::Align2::RIGHT_BOTTOM),
+            );
+        }
+        if let Ok(v) = r.ghk_mv {
+            let c = neutral_color(dark);
+            pui.hline(
+                HLine::new("GHK potential", v)
+                    .color(c)
+                    .width(1.2)
+                    .style(LineStyle::dotted_loose()),
+            );
+            pui.text(
+                Text::new(
+                    "GHK label",
+                    PlotPoint::new(x_left, v),
+                    RichText::new(format!(" GHK {v:+.1} mV")).color(c),
+                )
+                .anchor(egui::Align2::LEFT_BOTTOM),
+            );
+        }
+    }
+    if let Some(trace) = input.trace
+        && let Some(line) = series(
+            lines,
+            pui,
+            input,
+            trace.v_mv(),
+            "V".into(),
+            potential_color(dark),
+            2.0,
+        )
+    {
+        pui.line(line);
+    }
+    if input.shown_ms > 0.0 {
+        pui.vline(
+            VLine::new("now", input.shown_ms)
+                .color(neutral_color(dark).gamma_multiply(0.5))
+                .width(1.0),
+        );
+    }
+}
+
+fn current_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+    let dark = pui.ctx().global_style().visuals.dark_mode;
+    let d = input.derived;
+    for (i, (name, col)) in d.species.iter().zip(&d.currents_ua_per_cm2).enumerate() {
+        if let Some(line) = series(lines, pui, input, col, format!("I {name}"), species_color(i), 1.6) {
+            pui.line(line);
+        }
+    }
+    if input.scenario.pump.is_some()
+        && let Some(line) = series(
+            lines,
+            pui,
+            input,
+            &d.pump_ua_per_cm2,
+            "I pump".into(),
+            neutral_color(dark),
+            1.4,
+        )
+    {
+        pui.line(line.style(LineStyle::dashed_dense()));
+    }
+    if input.scenario.protocol.iter().any(|e| e.species().is_none())
+        && let Some(line) = series(
+            lines,
+            pui,
+            input,
+            &d.inject_ua_per_cm2,
+            "injected".into(),
+            neutral_color(dark),
+            1.4,
+        )
+    {
+        pui.line(line.style(LineStyle::dotted_dense()));
+    }
+    if let Some(line) = series(
+        lines,
+        pui,
+        input,
+        &d.net_ua_per_cm2,
+        "I net".into(),
+        potential_color(dark),
+        2.0,
+    ) {
+        pui.line(line);
+    }
+    pui.hline(
+        HLine::new("", 0.0)
+            .color(neutral_color(dark).gamma_multiply(0.4))
+            .width(0.8),
+    );
+}
+
+fn permeability_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+    let d = input.derived;
+    for (i, (name, col)) in d.species.iter().zip(&d.log10_p).enumerate() {
+        if let Some(line) = series(lines, pui, input, col, format!("P {name}"), species_color(i), 1.6) {
+            pui.line(line);
+        }
+    }
+}
+
+fn gate_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+    if input.scenario.channels.is_empty() {
+        let b = pui.plot_bounds();
+        let centre = PlotPoint::new((b.min()[0] + b.max()[0]) / 2.0, 0.5);
+        pui.text(Text::new(
+            "",
+            centre,
+            RichText::new("No gated channels in this scenario").italics(),
+        ));
+        return;
+    }
+    let Some(trace) = input.trace else { return };
+    let styles = [
+        LineStyle::Solid,
+        LineStyle::dashed_loose(),
+        LineStyle::dotted_loose(),
+    ];
+    let mut k = 0;
+    for ch in &input.scenario.channels {
+        let color = input
+            .scenario
+            .species_index(&ch.species)
+            .map_or(Color32::GRAY, species_color);
+        for j in 0..ch.gates.len() {
+            let Some(name) = input.gate_names.get(k) else {
+                return;
+            };
+            let Some(col) = trace.columns.get(1 + k) else {
+                return;
+            };
+            if let Some(line) = series(lines, pui, input, col, name.clone(), color, 1.6) {
+                pui.line(line.style(styles[j % styles.len()]));
+            }
+            k += 1;
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn simultaneous_events_share_one_label_and_bath_exchanges_stay_short() {
+        use crate::scenario::Event;
+        let mut s = Scenario::new_default();
+        s.run.duration_ms = 400.0;
+        s.protocol = vec![
+            Event::BathChange {
+                species: "Na+".into(),
+                outside_mm: 100.0,
+                at_ms: 100.0,
+                lag_ms: 10.0,
+            },
+            Event::BathChange {
+                species: "K+".into(),
+                outside_mm: 45.0,
+                at_ms: 100.0,
+                lag_ms: 10.0,
+            },
+            Event::Inject {
+                amplitude_ua_per_cm2: 1.0,
+                from_ms: 200.0,
+                until_ms: 210.0,
+            },
+        ];
+        let b = bands(&s);
+        assert_eq!(b.len(), 3);
+        assert_eq!(
+            (b[0].from_ms, b[0].until_ms, b[0].label.as_str()),
+            (100.0, 130.0, "1 + 2")
+        );
+        assert_eq!(b[1].label, "");
+        assert_eq!(b[2].label, "3. 1 µA/cm²");
+    }
+
+    #[test]
+    fn log_axis_labels_read_as_powers_of_ten() {
+        assert_eq!(format_power_of_ten(-7.0), "1e-7");
+        assert_eq!(format_power_of_ten(0.0), "1e0");
+        assert_eq!(format_power_of_ten(-6.5), "3.2e-7");
+    }
+}

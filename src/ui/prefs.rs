@@ -1,0 +1,197 @@
+//! What the window remembers between sessions, apart from scenarios: view preferences
+//! (`prefs.ron`) and the recently opened files (`recent.ron`), both in the platform's data
+//! directory. Undo history and traces are never saved.
+
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+/// Light, dark, or whatever the desktop uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+pub enum ThemeChoice {
+    #[default]
+    System,
+    Light,
+    Dark,
+}
+
+/// What the plot under the membrane potential shows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+pub enum LowerPlot {
+    /// Each species' current, the pump current and the net current.
+    #[default]
+    Currents,
+    /// Each species' total permeability (resting, gated, scaled and blocked).
+    Permeabilities,
+    /// Every gate's open fraction.
+    Gates,
+}
+
+impl LowerPlot {
+    pub const ALL: [LowerPlot; 3] = [LowerPlot::Currents, LowerPlot::Permeabilities, LowerPlot::Gates];
+    pub fn label(self) -> &'static str {
+        match self {
+            LowerPlot::Currents => "Currents",
+            LowerPlot::Permeabilities => "Permeabilities",
+            LowerPlot::Gates => "Gates",
+        }
+    }
+}
+
+/// Simulated milliseconds per second of wall time, or as fast as the machine allows.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub enum Speed {
+    MsPerSecond(f64),
+    Fastest,
+}
+
+impl Default for Speed {
+    fn default() -> Self {
+        Speed::MsPerSecond(50.0)
+    }
+}
+
+impl Speed {
+    pub const CHOICES: [Speed; 8] = [
+        Speed::MsPerSecond(1.0),
+        Speed::MsPerSecond(5.0),
+        Speed::MsPerSecond(20.0),
+        Speed::MsPerSecond(50.0),
+        Speed::MsPerSecond(200.0),
+        Speed::MsPerSecond(1000.0),
+        Speed::MsPerSecond(5000.0),
+        Speed::Fastest,
+    ];
+
+    pub fn label(self) -> String {
+        match self {
+            Speed::MsPerSecond(v) => format!("{v} ms/s"),
+            Speed::Fastest => "fastest".into(),
+        }
+    }
+}
+
+/// View preferences. `#[serde(default)]` so that a file from an older version still loads.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct Prefs {
+    pub theme: ThemeChoice,
+    pub large_text: bool,
+    pub speed: Speed,
+    pub lower_plot: LowerPlot,
+    pub show_iv: bool,
+    /// Inputs shown as big sliders in presentation, as field paths of the scenario file
+    /// (`species[0].outside_mm`); kept between sessions so a class can be prepared ahead.
+    pub pins: Vec<String>,
+}
+
+impl Default for Prefs {
+    fn default() -> Self {
+        Self {
+            theme: ThemeChoice::System,
+            large_text: false,
+            speed: Speed::default(),
+            lower_plot: LowerPlot::Currents,
+            show_iv: true,
+            pins: Vec::new(),
+        }
+    }
+}
+
+/// How many recent files are kept.
+pub const RECENT_MAX: usize = 10;
+
+/// Where preferences live; `None` keeps everything in memory (tests, or no home directory).
+#[derive(Debug, Clone, Default)]
+pub struct Store {
+    pub dir: Option<PathBuf>,
+}
+
+impl Store {
+    /// The platform's data directory for permeant, if there is one (the autosave's too;
+    /// `$PERMEANT_DATA_DIR` overrides it).
+    pub fn platform() -> Store {
+        Store {
+            dir: crate::autosave::data_dir(),
+        }
+    }
+
+    fn read<T: for<'de> Deserialize<'de>>(&self, name: &str) -> Option<T> {
+        let path = self.dir.as_ref()?.join(name);
+        let text = std::fs::read_to_string(path).ok()?;
+        ron::from_str(&text).ok()
+    }
+
+    fn write<T: Serialize>(&self, name: &str, value: &T) -> Result<(), String> {
+        let Some(dir) = &self.dir else { return Ok(()) };
+        std::fs::create_dir_all(dir).map_err(|e| format!("{}: {e}", dir.display()))?;
+        let text =
+            ron::ser::to_string_pretty(value, ron::ser::PrettyConfig::new()).map_err(|e| e.to_string())?;
+        let path = dir.join(name);
+        crate::scenario::write_atomic(&path, text.as_bytes()).map_err(|e| format!("{}: {e}", path.display()))
+    }
+
+    pub fn load_prefs(&self) -> Prefs {
+        self.read("prefs.ron").unwrap_or_default()
+    }
+
+    pub fn save_prefs(&self, p: &Prefs) -> Result<(), String> {
+        self.write("prefs.ron", p)
+    }
+
+    pub fn load_recent(&self) -> Vec<PathBuf> {
+        self.read("recent.ron").unwrap_or_default()
+    }
+
+    pub fn save_recent(&self, recent: &[PathBuf]) -> Result<(), String> {
+        self.write("recent.ron", &recent)
+    }
+}
+
+/// Puts `path` first in `recent`, without duplicates, keeping at most [`RECENT_MAX`].
+pub fn remember(recent: &mut Vec<PathBuf>, path: &Path) {
+    let path = std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf());
+    recent.retain(|p| *p != path);
+    recent.insert(0, path);
+    recent.truncate(RECENT_MAX);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn recent_files_keep_order_without_duplicates() {
+        let mut r = Vec::new();
+        for k in 0..12 {
+            remember(&mut r, Path::new(&format!("/nonexistent/f{k}.ron")));
+        }
+        remember(&mut r, Path::new("/nonexistent/f5.ron"));
+        assert_eq!(r.len(), RECENT_MAX);
+        assert_eq!(r[0], Path::new("/nonexistent/f5.ron"));
+        assert_eq!(r.iter().filter(|p| p.ends_with("f5.ron")).count(), 1);
+        assert_eq!(r[1], Path::new("/nonexistent/f11.ron"));
+    }
+
+    #[test]
+    fn prefs_and_recent_files_survive_a_restart() {
+        let dir = tempfile::tempdir().expect("temporary directory");
+        let store = Store {
+            dir: Some(dir.path().join("nested")),
+        };
+        assert_eq!(store.load_prefs(), Prefs::default());
+        let p = Prefs {
+            large_text: true,
+            theme: ThemeChoice::Dark,
+            speed: Speed::Fastest,
+            ..Prefs::default()
+        };
+        store.save_prefs(&p).expect("saved");
+        store.save_recent(&[PathBuf::from("/a/b.ron")]).expect("saved");
+        assert_eq!(store.load_prefs(), p);
+        assert_eq!(store.load_recent(), vec![PathBuf::from("/a/b.ron")]);
+        // A damaged file falls back to the defaults instead of failing.
+        std::fs::write(dir.path().join("nested/prefs.ron"), "(theme: Purple").expect("written");
+        assert_eq!(store.load_prefs(), Prefs::default());
+    }
+}

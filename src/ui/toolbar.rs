@@ -1,0 +1,191 @@
+//! The toolbar across the top: files, examples, run controls, history, view settings and the
+//! scenario's title.
+
+use std::path::PathBuf;
+
+use egui::{RichText, Ui};
+
+use super::command::{Command, Edit};
+use super::export::ExportKind;
+use super::prefs::{Prefs, Speed, ThemeChoice};
+use super::widgets::Editing;
+
+/// What the toolbar shows besides the scenario.
+pub struct ToolbarInfo<'a> {
+    pub running: bool,
+    pub can_run: bool,
+    pub can_undo: bool,
+    pub can_redo: bool,
+    pub dirty: bool,
+    pub prefs: &'a Prefs,
+    pub recent: &'a [PathBuf],
+    /// Bundled examples: file name and title.
+    pub examples: &'a [(String, String)],
+}
+
+pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
+    egui::MenuBar::new().ui(ui, |ui| {
+        ui.menu_button("File", |ui| {
+            if ui
+                .button("New")
+                .on_hover_text("Start from a plain passive cell")
+                .clicked()
+            {
+                ed.commands.push(Command::New);
+            }
+            if ui.button("Open…").clicked() {
+                ed.commands.push(Command::Open);
+            }
+            ui.menu_button("Open recent", |ui| {
+                if info.recent.is_empty() {
+                    ui.label("No recent files");
+                }
+                for p in info.recent {
+                    if ui.button(p.display().to_string()).clicked() {
+                        ed.commands.push(Command::OpenPath(p.clone()));
+                    }
+                }
+            });
+            if ui.button("Type a path to open…").clicked() {
+                ed.commands
+                    .push(Command::TypePath(super::command::FilePurpose::Open));
+            }
+            ui.separator();
+            if ui.button("Save").clicked() {
+                ed.commands.push(Command::Save);
+            }
+            if ui.button("Save as…").clicked() {
+                ed.commands.push(Command::SaveAs);
+            }
+            ui.menu_button("Export", |ui| {
+                for kind in ExportKind::ALL {
+                    if ui.button(kind.menu_label()).clicked() {
+                        ed.commands.push(Command::Export(kind));
+                    }
+                }
+            });
+            ui.separator();
+            if ui.button("Quit").clicked() {
+                ed.commands.push(Command::Quit);
+            }
+        });
+        ui.menu_button("Examples", |ui| {
+            for (file, title) in info.examples {
+                let label = if title.is_empty() {
+                    file.clone()
+                } else {
+                    format!("{title}  ({file})")
+                };
+                if ui.button(label).clicked() {
+                    ed.commands.push(Command::OpenExample(file.clone()));
+                }
+            }
+        });
+        ui.menu_button("View", |ui| {
+            if ui
+                .button("Presentation  (F11)")
+                .on_hover_text("Large text and plots, the run controls and big sliders; no editor")
+                .clicked()
+            {
+                ed.commands.push(Command::SetPresentation(true));
+            }
+            let mut large = info.prefs.large_text;
+            if ui.checkbox(&mut large, "Large text (projector)").changed() {
+                ed.commands.push(Command::SetLargeText(large));
+            }
+            let mut iv = info.prefs.show_iv;
+            if ui
+                .checkbox(&mut iv, "Side panel: current–voltage and notes")
+                .changed()
+            {
+                ed.commands.push(Command::SetShowIv(iv));
+            }
+            ui.separator();
+            ui.label("Theme");
+            for (choice, label) in [
+                (ThemeChoice::System, "Follow the desktop"),
+                (ThemeChoice::Light, "Light"),
+                (ThemeChoice::Dark, "Dark"),
+            ] {
+                if ui.radio(info.prefs.theme == choice, label).clicked() {
+                    ed.commands.push(Command::SetTheme(choice));
+                }
+            }
+        });
+        ui.menu_button("Help", |ui| {
+            if ui.button("Keyboard shortcuts  (F1)").clicked() {
+                ed.commands.push(Command::ShowShortcuts(true));
+            }
+            if ui.button("About permeant").clicked() {
+                ed.commands.push(Command::ShowAbout(true));
+            }
+        });
+
+        ui.separator();
+        if ui.button("Open…").on_hover_text("Open a scenario file").clicked() {
+            ed.commands.push(Command::Open);
+        }
+        let save = ui
+            .add_enabled(info.dirty, egui::Button::new("Save"))
+            .on_hover_text("Save the scenario");
+        if save.clicked() {
+            ed.commands.push(Command::Save);
+        }
+        ui.separator();
+
+        let (run_label, run_hover) = if info.running {
+            ("‖ Pause", "Pause the run")
+        } else {
+            ("▶ Run", "Run the protocol from the present time")
+        };
+        let run = ui.add_enabled(
+            info.can_run,
+            egui::Button::new(RichText::new(run_label).strong()).min_size(egui::vec2(76.0, 0.0)),
+        );
+        if run.on_hover_text(run_hover).clicked() {
+            ed.commands.push(Command::RunPause);
+        }
+        if ui
+            .button("↺ Restart")
+            .on_hover_text("Start again at t = 0 ms")
+            .clicked()
+        {
+            ed.commands.push(Command::Restart);
+        }
+        let speed_label = ui.label("Speed");
+        egui::ComboBox::from_id_salt("speed")
+            .selected_text(info.prefs.speed.label())
+            .width(84.0)
+            .show_ui(ui, |ui| {
+                for s in Speed::CHOICES {
+                    if ui.selectable_label(s == info.prefs.speed, s.label()).clicked() {
+                        ed.commands.push(Command::SetSpeed(s));
+                    }
+                }
+            })
+            .response
+            .labelled_by(speed_label.id)
+            .on_hover_text("Simulated milliseconds per second");
+        ui.separator();
+        if ui
+            .add_enabled(info.can_undo, egui::Button::new("↶ Undo"))
+            .on_hover_text("Undo the last change")
+            .clicked()
+        {
+            ed.commands.push(Command::Undo);
+        }
+        if ui
+            .add_enabled(info.can_redo, egui::Button::new("↷ Redo"))
+            .on_hover_text("Redo what was undone")
+            .clicked()
+        {
+            ed.commands.push(Command::Redo);
+        }
+        ui.separator();
+        ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
+            let width = ui.available_width().clamp(80.0, 360.0);
+            let title = ed.scenario.title.clone();
+            ed.text(ui, "title", &title, "Scenario title", width, Edit::Title);
+        });
+    });
+}

@@ -1,0 +1,360 @@
+//! Input widgets that check values as they are typed. A number shows as a small button with its
+//! unit: drag it (on a log scale for quantities that span decades) or click it to type. Every
+//! candidate value is checked against the whole scenario; an invalid one is outlined in red
+//! with the reason in a tooltip, and the scenario keeps its last valid value.
+
+use egui::{Color32, Id, Response, Role, Sense, Stroke, StrokeKind, TextEdit, Ui, WidgetInfo, vec2};
+
+use super::command::{Command, Edit, check_edit};
+use super::fields::{Drag, NumField, format_value, parse_value};
+use crate::scenario::Scenario;
+
+/// What an editor panel works with: the scenario to read and the list to push commands to.
+pub struct Editing<'a> {
+    pub scenario: &'a Scenario,
+    pub commands: &'a mut Vec<Command>,
+    /// Field paths shown as big sliders in presentation (offered in each number's menu).
+    pub pinned: &'a [String],
+}
+
+/// Text being typed into a field, and why it is not accepted (if it is not).
+#[derive(Clone, Default)]
+struct Typing {
+    text: String,
+    error: Option<String>,
+}
+
+/// Draws the red outline and attaches the reason.
+fn mark_invalid(ui: &Ui, response: Response, error: &Option<String>) -> Response {
+    match error {
+        Some(reason) => {
+            let color = ui.visuals().error_fg_color;
+            ui.painter().rect_stroke(
+                response.rect.expand(1.0),
+                3.0,
+                Stroke::new(2.0, color),
+                StrokeKind::Outside,
+            );
+            let text = egui::RichText::new(reason).color(color);
+            // While typing, the reason is shown at once rather than waiting for a hover.
+            if response.has_focus() {
+                response.show_tooltip_text(text);
+                response
+            } else {
+                response.on_hover_text(text)
+            }
+        }
+        None => response,
+    }
+}
+
+fn set_accessible_name(ui: &Ui, id: Id, name: &str) {
+    ui.ctx()
+        .accesskit_node_builder(id, |node| node.set_label(name.to_string()));
+}
+
+/// Selects the whole text of the text field `id`, so that typing replaces it.
+fn select_all(ui: &Ui, id: Id, text: &str) {
+    let mut state = TextEdit::load_state(ui.ctx(), id).unwrap_or_default();
+    state
+        .cursor
+        .set_char_range(Some(egui::text::CCursorRange::select_all_str(text)));
+    state.store(ui.ctx(), id);
+}
+
+/// Rounds a dragged value to three significant digits (log drags) or to the drag step.
+fn round_dragged(v: f64, drag: Drag) -> f64 {
+    match drag {
+        Drag::Log { .. } => {
+            if v == 0.0 {
+                return 0.0;
+            }
+            let mag = 10f64.powf(v.abs().log10().floor() - 2.0);
+            (v / mag).round() * mag
+        }
+        Drag::Linear { per_point } => {
+            let step = 10f64.powf(per_point.log10().floor());
+            (v / step).round() * step
+        }
+    }
+}
+
+impl Editing<'_> {
+    pub fn push(&mut self, edit: Edit) {
+        self.commands.push(Command::Edit(edit));
+    }
+
+    /// The accessible and tooltip name of a number field, with its unit.
+    pub fn field_name(&self, field: NumField) -> String {
+        let unit = field.unit();
+        if unit.is_empty() {
+            field.describe(self.scenario)
+        } else {
+            format!("{} ({unit})", field.describe(self.scenario))
+        }
+    }
+
+    /// A number field of at least `width` points. Shows "—" when the scenario lacks the field.
+    pub fn number(&mut self, ui: &mut Ui, field: NumField, width: f32) -> Response {
+        let Some(value) = field.get(self.scenario) else {
+            return ui.label("—");
+        };
+        let name = self.field_name(field);
+        let style = field.style();
+        let unit = field.unit();
+        let id = ui.scope_id().with(("number", field));
+        ui.memory_mut(|m| m.interested_in_focus(id, ui.layer_id()));
+        let typing_now = ui.memory(|m| m.has_focus(id));
+
+        if typing_now {
+            let stored: Option<Typing> = ui.data_mut(|d| d.get_temp(id));
+            // The first frame of typing selects the whole value, so typing replaces it.
+            let fresh = stored.is_none();
+            let mut typing = stored.unwrap_or_else(|| Typing {
+                text: format_value(value, style),
+                error: None,
+            });
+            let edit = TextEdit::singleline(&mut typing.text)
+                .id(id)
+                .desired_width(width - 8.0)
+                .suffix(unit)
+                .min_size(vec2(width, ui.spacing().interact_size.y));
+            let response = ui.add(edit);
+            if fresh {
+                select_all(ui, id, &typing.text);
+            }
+            if response.changed() {
+                let checked = parse_value(&typing.text, style)
+                    .and_then(|v| check_edit(self.scenario, &Edit::Number(field, v)).map(|_| v));
+                match checked {
+                    Ok(v) => {
+                        typing.error = None;
+                        if v != value {
+                            self.push(Edit::Number(field, v));
+                        }
+                    }
+                    Err(reason) => typing.error = Some(reason),
+                }
+            }
+            let error = typing.error.clone();
+            if response.lost_focus() {
+                ui.data_mut(|d| d.remove_temp::<Typing>(id));
+            } else {
+                ui.data_mut(|d| d.insert_temp(id, typing));
+            }
+            set_accessible_name(ui, id, &name);
+            mark_invalid(ui, response, &error)
+        } else {
+            ui.data_mut(|d| d.remove_temp::<Typing>(id));
+            let shown = if unit.is_empty() {
+                format_value(value, style)
+            } else {
+                format!("{} {unit}", format_value(value, style))
+            };
+            let font = egui::TextStyle::Button.resolve(ui.style());
+            let galley = ui
+                .painter()
+                .layout_no_wrap(shown.clone(), font, ui.visuals().text_color());
+            let size = vec2((galley.size().x + 10.0).max(width), ui.spacing().interact_size.y);
+            let (_, rect) = ui.allocate_space(size);
+            let response = ui.interact(rect, id, Sense::click_and_drag());
+            let visuals = ui.style().interact(&response);
+            ui.painter().rect(
+                rect,
+                visuals.corner_radius,
+                visuals.weak_bg_fill,
+                visuals.bg_stroke,
+                StrokeKind::Inside,
+            );
+            let text_pos = rect.left_center() + vec2(5.0, -galley.size().y / 2.0);
+            ui.painter().galley(text_pos, galley, visuals.text_color());
+            let response = response.on_hover_cursor(egui::CursorIcon::ResizeHorizontal);
+            if response.clicked() {
+                ui.memory_mut(|m| m.request_focus(id));
+                ui.ctx().request_repaint();
+            } else if response.dragged() {
+                let d = response.drag_delta();
+                let points = f64::from(d.x - d.y);
+                if points != 0.0 {
+                    let precise_id = id.with("precise");
+                    let precise: f64 = ui.data_mut(|m| m.get_temp(precise_id)).unwrap_or(value);
+                    let drag = field.drag();
+                    let next = match drag {
+                        Drag::Linear { per_point } => precise + points * per_point,
+                        Drag::Log {
+                            points_per_decade,
+                            floor,
+                        } => {
+                            let base = if precise > 0.0 {
+                                precise
+                            } else if points > 0.0 {
+                                floor
+                            } else {
+                                0.0
+                            };
+                            base * 10f64.powf(points / points_per_decade)
+                        }
+                    };
+                    ui.data_mut(|m| m.insert_temp(precise_id, next));
+                    let rounded = round_dragged(next, drag);
+                    if rounded != value && check_edit(self.scenario, &Edit::Number(field, rounded)).is_ok() {
+                        self.push(Edit::Number(field, rounded));
+                    }
+                }
+            }
+            if response.drag_stopped() || response.drag_started() {
+                ui.data_mut(|m| m.remove_temp::<f64>(id.with("precise")));
+            }
+            response.widget_info(|| WidgetInfo::labeled(Role::SpinButton, ui.is_enabled(), &name));
+            ui.ctx().accesskit_node_builder(id, |node| {
+                node.set_value(shown.clone());
+                node.set_numeric_value(value);
+            });
+            let response = response.on_hover_text(format!(
+                "{name}: {shown}\nDrag to change, click to type a value.\nRight-click to show it as a big slider in presentation."
+            ));
+            self.pin_menu(&response, field);
+            response
+        }
+    }
+
+    /// A number's right-click menu: show it as a big slider in presentation, or stop.
+    fn pin_menu(&mut self, response: &Response, field: NumField) {
+        let path = field.path();
+        let pinned = self.pinned.contains(&path);
+        response.context_menu(|ui| {
+            let label = if pinned {
+                "Remove its big slider from presentation"
+            } else {
+                "Big slider in presentation"
+            };
+            if ui.button(label).clicked() {
+                self.commands.push(Command::Pin {
+                    path: path.clone(),
+                    pinned: !pinned,
+                });
+                ui.close();
+            }
+        });
+    }
+
+    /// A text field for a name or title: `make` turns the typed text into the edit.
+    pub fn text(
+        &mut self,
+        ui: &mut Ui,
+        id_salt: impl std::hash::Hash + std::fmt::Debug,
+        current: &str,
+        name: &str,
+        width: f32,
+        make: impl Fn(String) -> Edit,
+    ) -> Response {
+        let id = ui.scope_id().with(("text", id_salt));
+        let focused = ui.memory(|m| m.has_focus(id));
+        let mut typing: Typing = if focused {
+            ui.data_mut(|d| d.get_temp(id)).unwrap_or_else(|| Typing {
+                text: current.to_string(),
+                error: None,
+            })
+        } else {
+            Typing {
+                text: current.to_string(),
+                error: None,
+            }
+        };
+        let response = ui.add(TextEdit::singleline(&mut typing.text).id(id).desired_width(width));
+        if response.changed() {
+            let edit = make(typing.text.clone());
+            match check_edit(self.scenario, &edit) {
+                Ok(_) => {
+                    typing.error = None;
+                    if typing.text != current {
+                        self.push(edit);
+                    }
+                }
+                Err(reason) => typing.error = Some(reason),
+            }
+        }
+        let error = typing.error.clone();
+        if response.has_focus() {
+            ui.data_mut(|d| d.insert_temp(id, typing));
+        } else {
+            ui.data_mut(|d| d.remove_temp::<Typing>(id));
+        }
+        set_accessible_name(ui, id, name);
+        mark_invalid(ui, response, &error).on_hover_text(name.to_string())
+    }
+
+    /// A button that pushes `edit`; disabled, with the reason on hover, when the edit would
+    /// leave the scenario invalid.
+    pub fn button(
+        &mut self,
+        ui: &mut Ui,
+        label: impl Into<egui::WidgetText>,
+        hover: &str,
+        edit: Edit,
+    ) -> Response {
+        match check_edit(self.scenario, &edit) {
+            Ok(_) => {
+                let r = ui.button(label).on_hover_text(hover.to_string());
+                if r.clicked() {
+                    self.push(edit);
+                }
+                r
+            }
+            Err(reason) => ui
+                .add_enabled(false, egui::Button::new(label))
+                .on_disabled_hover_text(format!("{hover}: not possible, because {reason}")),
+        }
+    }
+
+    /// A choice among the species names (for the pump, a channel or an event).
+    pub fn species_choice(
+        &mut self,
+        ui: &mut Ui,
+        id_salt: impl std::hash::Hash + std::fmt::Debug,
+        current: &str,
+        name: &str,
+        make: impl Fn(String) -> Edit,
+    ) -> Response {
+        let names: Vec<String> = self.scenario.species.iter().map(|s| s.name.clone()).collect();
+        let color = self
+            .scenario
+            .species_index(current)
+            .map(super::theme::species_color);
+        let mut chosen = None;
+        let shown = match color {
+            Some(c) => egui::RichText::new(current).color(c).strong(),
+            None => egui::RichText::new(current),
+        };
+        let r = egui::ComboBox::from_id_salt(ui.scope_id().with(("species", id_salt)))
+            .selected_text(shown)
+            .width(72.0)
+            .show_ui(ui, |ui| {
+                for (i, n) in names.iter().enumerate() {
+                    let text = egui::RichText::new(n).color(super::theme::species_color(i));
+                    if ui.selectable_label(n == current, text).clicked() && n != current {
+                        chosen = Some(n.clone());
+                    }
+                }
+            });
+        if let Some(n) = chosen {
+            let edit = make(n);
+            match check_edit(self.scenario, &edit) {
+                Ok(_) => self.push(edit),
+                Err(reason) => self
+                    .commands
+                    .push(Command::Notice(format!("{name}: not changed, because {reason}"))),
+            }
+        }
+        let response = r.response;
+        set_accessible_name(ui, response.id, name);
+        response.on_hover_text(name.to_string())
+    }
+}
+
+/// A small square in a species' colour, used as a row marker and legend key.
+pub fn color_swatch(ui: &mut Ui, color: Color32) -> Response {
+    let (rect, response) = ui.allocate_exact_size(vec2(12.0, 12.0), Sense::hover());
+    ui.painter().rect_filled(rect, 2.0, color);
+    response
+}
