@@ -297,21 +297,12 @@ impl Setup<'_> {
                 ratios: self.ratios_text(theta),
                 reason,
             })?;
-        // The conditions at t = 0, as `Model::steady_state_at_start` sets them.
-        let mut y = vec![0.0; model.dim()];
-        model.lags_at_start(&mut y);
-        if model.track_concentrations {
-            let co = model.conc_offset();
-            for (k, ion) in model.membrane.ions.iter().enumerate() {
-                y[co + k] = ion.inside_mm;
-            }
-        }
-        let (inside, outside, factor) = model.conditions_at(&y);
+        let (inside, outside, factor, inject) = model.conditions_at_start();
         let cond = Conditions {
             inside_mm: &inside,
             outside_mm: &outside,
             p_factor: &factor,
-            inject_ua_per_cm2: model.inject_at(0.0),
+            inject_ua_per_cm2: inject,
         };
         let m = &model.membrane;
         let mut gates = vec![0.0; m.gate_count()];

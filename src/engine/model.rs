@@ -603,9 +603,9 @@ impl Model {
         )
     }
 
-    /// The steady state under the commands in force at t = 0 (lags at their t = 0 commands,
-    /// injection at t = 0, inside concentrations as in the file).
-    pub fn steady_state_at_start(&mut self) -> SteadyState {
+    /// The state at t = 0 before V and the gates are chosen: lagged inputs at their t = 0
+    /// commands, inside concentrations as in the file.
+    fn start_inputs(&self) -> Vec<f64> {
         let mut y = vec![0.0; self.dim()];
         self.lags_at_start(&mut y);
         if self.track_concentrations {
@@ -614,6 +614,21 @@ impl Model {
                 y[co + s] = self.membrane.ions[s].inside_mm;
             }
         }
+        y
+    }
+
+    /// Inside and outside concentrations, permeability factors and injected current in force
+    /// at t = 0: the conditions of [`Model::steady_state_at_start`], copied out.
+    pub fn conditions_at_start(&mut self) -> (Vec<f64>, Vec<f64>, Vec<f64>, f64) {
+        let y = self.start_inputs();
+        let (inside, outside, factor) = self.conditions_at(&y);
+        (inside, outside, factor, self.inject_at(0.0))
+    }
+
+    /// The steady state under the commands in force at t = 0 (lags at their t = 0 commands,
+    /// injection at t = 0, inside concentrations as in the file).
+    pub fn steady_state_at_start(&mut self) -> SteadyState {
+        let y = self.start_inputs();
         self.fill_conditions(&y);
         let cond = Conditions {
             inside_mm: &self.scratch_inside,
@@ -626,14 +641,7 @@ impl Model {
 
     /// The initial state of a run (model.md "Time-varying inputs" and `run.start`).
     pub fn initial_state(&mut self) -> Result<Vec<f64>, EngineError> {
-        let mut y = vec![0.0; self.dim()];
-        self.lags_at_start(&mut y);
-        if self.track_concentrations {
-            let co = self.conc_offset();
-            for s in 0..self.species_count() {
-                y[co + s] = self.membrane.ions[s].inside_mm;
-            }
-        }
+        let mut y = self.start_inputs();
         let v = match self.start {
             Start::Voltage(v) => v,
             Start::Rest => self
