@@ -8,6 +8,7 @@ use std::time::{Duration, Instant};
 use egui::util::undoer::Undoer;
 use egui::{Panel, Ui, ViewportCommand};
 
+use super::analysis::{Analysis, AnalysisCommand};
 use super::command::{Command, FilePurpose, check_edit};
 use super::dialogs::{self, Dialog, Pending};
 use super::document::{Document, Origin};
@@ -120,6 +121,8 @@ pub struct App {
     autosaver: Option<Autosaver>,
     /// What a crashed session left, until the user restores or discards it.
     offer: Option<Offer>,
+    /// Kept traces, sweeps, dose–response and fits: runtime state, never saved or undone.
+    analysis: Analysis,
 }
 
 impl App {
@@ -172,6 +175,7 @@ impl App {
             plot_rect: egui::Rect::NOTHING,
             autosaver: None,
             offer: None,
+            analysis: Analysis::default(),
             timing: Timing {
                 started: options.started,
                 log: options.frame_log,
@@ -220,6 +224,16 @@ impl App {
     /// The resting report shown in the editor, or why there is none.
     pub fn rest(&self) -> &Result<RestReport, String> {
         &self.readouts.rest
+    }
+
+    /// Kept traces and the analysis window's forms and results.
+    pub fn analysis(&self) -> &Analysis {
+        &self.analysis
+    }
+
+    /// The analysis window's forms, for scripts and tests (results come from commands).
+    pub fn analysis_mut(&mut self) -> &mut Analysis {
+        &mut self.analysis
     }
 
     /// The open dialog, if any.
@@ -337,6 +351,11 @@ impl App {
                 self.export_to(kind, &path, ctx);
             }
             Command::Recover(restore) => self.recover(restore),
+            Command::Analysis(AnalysisCommand::Keep) => self.keep_trace(),
+            Command::Analysis(AnalysisCommand::ChooseFitData) => {
+                self.choose_file(FilePurpose::FitData, ctx)
+            }
+            Command::Analysis(c) => self.analysis.apply(c, &self.doc.scenario, ctx),
         }
         // The run follows every change of the scenario, whatever caused it.
         self.runtime.scenario_changed(&self.doc.scenario);
@@ -429,6 +448,10 @@ impl App {
             Chosen::File(FilePurpose::Open, p) => self.perform(Pending::OpenPath(p), ctx),
             Chosen::File(FilePurpose::Save, p) => self.save_to(p, ctx),
             Chosen::File(FilePurpose::Export(kind), p) => self.export_to(kind, &p, ctx),
+            Chosen::File(FilePurpose::FitData, p) => {
+                self.analysis
+                    .apply(AnalysisCommand::LoadFitData(p), &self.doc.scenario, ctx)
+            }
             Chosen::Cancelled => self.after_save = None,
             Chosen::Unavailable(purpose) => {
                 self.dialog = Some(Dialog::TypePath {
@@ -486,6 +509,7 @@ impl App {
             side,
             plot_rect,
             offer,
+            analysis,
             ..
         } = self;
         let scenario = &doc.scenario;
@@ -518,6 +542,8 @@ impl App {
                     prefs,
                     recent,
                     examples,
+                    can_keep: runtime.shown_len() > 0,
+                    analysis_open: analysis.open,
                 };
                 toolbar::show(
                     ui,
@@ -603,10 +629,14 @@ impl App {
                 gate_names: &gate_names,
                 lower: prefs.lower_plot,
                 generation: runtime.generation,
+                kept: &analysis.kept.traces,
             };
             plots.show(ui, &input, &mut commands);
         });
         *plot_rect = central.response.rect;
+        if analysis.open {
+            analysis.show(ui, scenario, runtime.shown_len() > 0, &mut commands);
+        }
 
         if let Some(d) = dialog {
             dialogs::show(ui, d, &mut commands);
@@ -677,11 +707,13 @@ impl eframe::App for App {
     fn ui(&mut self, ui: &mut Ui, _frame: &mut eframe::Frame) {
         let ctx = ui.ctx().clone();
         self.readouts.refresh(&self.doc.scenario);
+        self.analysis.poll(&ctx);
         // Keys first, so that no focused widget also takes a shortcut's key.
         let keys = KeyContext {
             presenting: self.presentation.on,
             overlay_open: self.shortcuts_open,
             dialog_open: self.dialog.is_some() || self.offer.is_some(),
+            analysis_open: self.analysis.open,
         };
         let mut commands = shortcuts::read(&ctx, keys);
         commands.append(&mut self.draw(ui));
@@ -732,19 +764,63 @@ impl App {
     }
 
     fn export_to(&mut self, kind: ExportKind, path: &Path, ctx: &egui::Context) {
-        let Some(trace) = self.runtime.trace() else {
+        if kind == ExportKind::MetricsCsv && self.analysis.kept.traces.is_empty() {
+            self.set_notice("Nothing to export: keep a trace first (Ctrl+K)");
+            return;
+        }
+        let (t_ms, v_mv, n) = match self.runtime.trace() {
+            Some(trace) => {
+                let n = self.runtime.shown_len().min(trace.len());
+                (&trace.t_ms[..n], &trace.v_mv()[..n], n)
+            }
+            None => (&[][..], &[][..], 0),
+        };
+        if n == 0 && kind != ExportKind::MetricsCsv && self.analysis.kept.traces.is_empty() {
             self.set_notice("Nothing to export: the run could not start");
             return;
-        };
-        let n = self.runtime.shown_len().min(trace.len());
+        }
         let shown = Shown {
             scenario: &self.doc.scenario,
-            t_ms: &trace.t_ms[..n],
-            v_mv: &trace.v_mv()[..n],
+            t_ms,
+            v_mv,
+            kept: self
+                .analysis
+                .kept
+                .traces
+                .iter()
+                .map(|k| crate::report::csv::NamedTrace {
+                    name: &k.name,
+                    t_ms: &k.t_ms,
+                    v_mv: &k.v_mv,
+                })
+                .collect(),
+            metrics_csv: self.analysis.kept.metrics_csv(),
         };
         if let Some(done) = self.exporter.start(kind, path, &shown, ctx) {
             self.export_done(done);
         }
+    }
+
+    /// Keeps the shown part of the run as a reference trace and shows it in the comparison.
+    fn keep_trace(&mut self) {
+        let Some(trace) = self.runtime.trace() else {
+            self.set_notice("Nothing to keep: the run could not start");
+            return;
+        };
+        let n = self.runtime.shown_len().min(trace.len());
+        if n == 0 {
+            self.set_notice("Nothing to keep yet: run the scenario first");
+            return;
+        }
+        let name = self
+            .analysis
+            .kept
+            .keep(&self.doc.scenario, &trace.t_ms[..n], &trace.v_mv()[..n])
+            .name
+            .clone();
+        self.analysis.open = true;
+        self.analysis.tab = super::analysis::AnalysisTab::Compare;
+        self.set_notice(format!("Kept \"{name}\""));
     }
 
     fn export_done(&mut self, done: Result<String, String>) {

@@ -8,6 +8,7 @@ use std::path::PathBuf;
 use crate::physics::Kinetics;
 use crate::scenario::{Channel, Event, Gate, Pump, Scenario, Species, Start};
 
+use super::analysis::AnalysisCommand;
 use super::export::ExportKind;
 use super::fields::NumField;
 use super::prefs::{LowerPlot, Speed, ThemeChoice};
@@ -85,6 +86,9 @@ pub enum Command {
     /// Answer to the offer of the scenario a crashed session left: restore it (`true`) or
     /// discard it.
     Recover(bool),
+    /// Kept traces, sweeps, dose–response and fits (runtime state of the analysis window;
+    /// never part of the scenario or of undo).
+    Analysis(AnalysisCommand),
 }
 
 /// What a file dialog or typed path is for.
@@ -93,6 +97,8 @@ pub enum FilePurpose {
     Open,
     Save,
     Export(ExportKind),
+    /// A CSV of measured points for a fit.
+    FitData,
 }
 
 /// The kinds of protocol event a user can add.

@@ -114,6 +114,7 @@ pub fn show(ui: &Ui, dialog: &mut Dialog, commands: &mut Vec<Command>) {
                     FilePurpose::Open => ("Open a scenario file", "Open", "ron"),
                     FilePurpose::Save => ("Save the scenario as", "Save", "ron"),
                     FilePurpose::Export(kind) => (kind.title(), "Export", kind.extension()),
+                    FilePurpose::FitData => ("Load measured points", "Load", "csv"),
                 };
                 ui.heading(heading);
                 ui.label(format!(
@@ -135,6 +136,9 @@ pub fn show(ui: &Ui, dialog: &mut Dialog, commands: &mut Vec<Command>) {
                             FilePurpose::Open => Command::OpenPath(path),
                             FilePurpose::Save => Command::SaveTo(path),
                             FilePurpose::Export(kind) => Command::ExportTo(*kind, path),
+                            FilePurpose::FitData => Command::Analysis(
+                                super::analysis::AnalysisCommand::LoadFitData(path),
+                            ),
                         });
                     }
                     if ui.button("Cancel").clicked() {

@@ -20,18 +20,25 @@ pub enum ExportKind {
     Png,
     /// The membrane potential figure, as the command line draws it.
     Svg,
-    /// The trace's samples.
+    /// The trace's samples, and those of the kept traces.
     Csv,
+    /// The metrics table of the kept traces.
+    MetricsCsv,
 }
 
 impl ExportKind {
-    pub const ALL: [ExportKind; 3] = [ExportKind::Png, ExportKind::Svg, ExportKind::Csv];
+    pub const ALL: [ExportKind; 4] = [
+        ExportKind::Png,
+        ExportKind::Svg,
+        ExportKind::Csv,
+        ExportKind::MetricsCsv,
+    ];
 
     pub fn extension(self) -> &'static str {
         match self {
             ExportKind::Png => "png",
             ExportKind::Svg => "svg",
-            ExportKind::Csv => "csv",
+            ExportKind::Csv | ExportKind::MetricsCsv => "csv",
         }
     }
 
@@ -40,7 +47,8 @@ impl ExportKind {
         match self {
             ExportKind::Png => "Plots as PNG image…",
             ExportKind::Svg => "Membrane potential figure as SVG…",
-            ExportKind::Csv => "Trace as CSV table…",
+            ExportKind::Csv => "Traces (current and kept) as CSV table…",
+            ExportKind::MetricsCsv => "Kept-trace metrics as CSV table…",
         }
     }
 
@@ -49,7 +57,8 @@ impl ExportKind {
         match self {
             ExportKind::Png => "Export the plots as PNG",
             ExportKind::Svg => "Export the figure as SVG",
-            ExportKind::Csv => "Export the trace as CSV",
+            ExportKind::Csv => "Export the traces as CSV",
+            ExportKind::MetricsCsv => "Export the metrics table as CSV",
         }
     }
 
@@ -58,7 +67,7 @@ impl ExportKind {
         match self {
             ExportKind::Png => "PNG image",
             ExportKind::Svg => "SVG figure",
-            ExportKind::Csv => "CSV table",
+            ExportKind::Csv | ExportKind::MetricsCsv => "CSV table",
         }
     }
 
@@ -68,6 +77,7 @@ impl ExportKind {
             ExportKind::Png => "plots",
             ExportKind::Svg => "figure",
             ExportKind::Csv => "trace",
+            ExportKind::MetricsCsv => "metrics",
         };
         format!("{stem}.{}", self.extension())
     }
@@ -87,6 +97,10 @@ pub struct Shown<'a> {
     pub scenario: &'a Scenario,
     pub t_ms: &'a [f64],
     pub v_mv: &'a [f64],
+    /// The kept traces, exported with the current one.
+    pub kept: Vec<csv::NamedTrace<'a>>,
+    /// The metrics table of the kept traces as CSV.
+    pub metrics_csv: String,
 }
 
 /// The SVG figure of the shown trace.
@@ -100,12 +114,17 @@ pub fn svg_text(shown: &Shown) -> Result<String, String> {
 
 /// The CSV of the shown trace, written at `when`.
 pub fn csv_text(shown: &Shown, when: SystemTime) -> String {
-    let trace = csv::NamedTrace {
+    let mut traces = vec![csv::NamedTrace {
         name: "current run",
         t_ms: shown.t_ms,
         v_mv: shown.v_mv,
-    };
-    csv::traces_csv(&shown.scenario.title, &[trace], when)
+    }];
+    traces.extend(shown.kept.iter().map(|k| csv::NamedTrace {
+        name: k.name,
+        t_ms: k.t_ms,
+        v_mv: k.v_mv,
+    }));
+    csv::traces_csv(&shown.scenario.title, &traces, when)
 }
 
 /// The part of a screenshot under `rect` (points) as PNG bytes. The rectangle is clamped to the
@@ -184,6 +203,7 @@ impl Exporter {
                     .and_then(|text| written(text.as_bytes())),
             ),
             ExportKind::Csv => Some(written(csv_text(shown, SystemTime::now()).as_bytes())),
+            ExportKind::MetricsCsv => Some(written(shown.metrics_csv.as_bytes())),
             ExportKind::Png => {
                 let (tx, rx) = channel();
                 let repaint = ctx.clone();

@@ -59,6 +59,9 @@ impl FileChooser {
                     FilePurpose::Open | FilePurpose::Save => {
                         rfd::FileDialog::new().add_filter("Scenario", &["ron"])
                     }
+                    FilePurpose::FitData => {
+                        rfd::FileDialog::new().add_filter("CSV table", &["csv", "txt"])
+                    }
                 }
                 .add_filter("Any file", &["*"]);
                 if let Some(dir) = start_dir {
@@ -70,6 +73,7 @@ impl FileChooser {
                         .set_file_name(kind.default_file_name())
                         .save_file(),
                     FilePurpose::Open => dialog.set_title("Open a scenario").pick_file(),
+                    FilePurpose::FitData => dialog.set_title("Load measured points").pick_file(),
                     FilePurpose::Save => dialog
                         .set_title("Save the scenario")
                         .set_file_name("scenario.ron")

@@ -11,7 +11,11 @@
 //! For teaching and sharing: `presentation` (the class view with big sliders), `shortcuts`
 //! (keys and their overlay), `notes_view` (a scenario's notes beside the plots), `export`
 //! (PNG, SVG and CSV) and `restore` (autosave and the offer after a crash).
+//!
+//! Beyond one run: `analysis` (a window with `kept` traces and their metrics, sweeps,
+//! dose–response and `fit_view`), computed off the drawing thread.
 
+pub mod analysis;
 mod app;
 mod channels;
 pub mod command;
@@ -21,7 +25,9 @@ mod editor;
 pub mod export;
 pub mod fields;
 mod files;
+mod fit_view;
 mod iv;
+pub mod kept;
 mod notes_view;
 mod plots;
 pub mod prefs;

@@ -9,6 +9,7 @@ use egui_plot::{
 };
 
 use super::command::Command;
+use super::kept::KeptTrace;
 use super::prefs::LowerPlot;
 use super::protocol::{event_color, event_intervals, event_summary};
 use super::runtime::Derived;
@@ -37,6 +38,8 @@ pub struct PlotInput<'a> {
     pub lower: LowerPlot,
     /// Changes with each new run, to reset the cached range.
     pub generation: u64,
+    /// Kept traces, drawn under the live one when visible.
+    pub kept: &'a [KeptTrace],
 }
 
 /// What the plots keep between frames: the running V range and one [`Decimator`] per line,
@@ -162,6 +165,10 @@ impl Plots {
         if let Some((a, b)) = self.v_range(input) {
             take(a);
             take(b);
+        }
+        for m in input.kept.iter().filter(|k| k.visible).filter_map(|k| k.metrics) {
+            take(m.peak_mv);
+            take(m.trough_mv);
         }
         if let Some(r) = input.rest {
             r.species.iter().filter_map(|s| s.reversal_mv).for_each(&mut take);
@@ -386,6 +393,7 @@ fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, inp
             );
         }
     }
+    kept_lines(lines, pui, input.kept);
     if let Some(trace) = input.trace
         && let Some(line) = series(
             lines,
@@ -405,6 +413,16 @@ fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, inp
                 .color(neutral_color(dark).gamma_multiply(0.5))
                 .width(1.0),
         );
+    }
+}
+
+/// The visible kept traces, each thinned to the visible range like the live trace.
+fn kept_lines(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, kept: &[KeptTrace]) {
+    let range = visible_t(pui);
+    let cols = columns(pui);
+    for k in kept.iter().filter(|k| k.visible) {
+        let points = decimated(lines, &format!("kept/{}", k.id), &k.t_ms, &k.v_mv, range, cols);
+        pui.line(Line::new(k.name.clone(), points).color(k.color).width(1.6));
     }
 }
 

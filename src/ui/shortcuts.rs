@@ -5,6 +5,7 @@
 
 use egui::{Context, Event, Id, Key, Modal, Modifiers, RichText, Ui};
 
+use super::analysis::AnalysisCommand;
 use super::command::Command;
 
 /// What a key does.
@@ -20,6 +21,8 @@ enum Action {
     Presentation,
     LeavePresentation,
     Shortcuts,
+    KeepTrace,
+    Analysis,
 }
 
 struct Binding {
@@ -93,6 +96,20 @@ const BINDINGS: &[Binding] = &[
         outside_text: false,
     },
     Binding {
+        action: Action::KeepTrace,
+        keys: &[(CTRL, Key::K)],
+        shown: "Ctrl+K",
+        what: "Keep the shown trace for comparison",
+        outside_text: false,
+    },
+    Binding {
+        action: Action::Analysis,
+        keys: &[(CTRL, Key::L)],
+        shown: "Ctrl+L",
+        what: "Analysis window: compare, sweep, dose–response, fit",
+        outside_text: false,
+    },
+    Binding {
         action: Action::Presentation,
         keys: &[(NONE, Key::F11)],
         shown: "F11",
@@ -123,6 +140,8 @@ pub struct KeyContext {
     pub overlay_open: bool,
     /// A dialog waits for an answer: keys must not act behind it.
     pub dialog_open: bool,
+    /// The analysis window is open.
+    pub analysis_open: bool,
 }
 
 /// Takes this frame's shortcut key presses out of the input (so no widget also acts on them)
@@ -182,6 +201,8 @@ fn command(a: Action, kc: KeyContext) -> Option<Command> {
         Action::LeavePresentation if kc.presenting => Command::SetPresentation(false),
         Action::LeavePresentation => return None,
         Action::Shortcuts => Command::ShowShortcuts(true),
+        Action::KeepTrace => Command::Analysis(AnalysisCommand::Keep),
+        Action::Analysis => Command::Analysis(AnalysisCommand::Show(!kc.analysis_open)),
     })
 }
 

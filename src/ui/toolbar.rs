@@ -5,6 +5,7 @@ use std::path::PathBuf;
 
 use egui::{RichText, Ui};
 
+use super::analysis::AnalysisCommand;
 use super::command::{Command, Edit};
 use super::export::ExportKind;
 use super::prefs::{Prefs, Speed, ThemeChoice};
@@ -21,6 +22,9 @@ pub struct ToolbarInfo<'a> {
     pub recent: &'a [PathBuf],
     /// Bundled examples: file name and title.
     pub examples: &'a [(String, String)],
+    /// A run has samples to keep.
+    pub can_keep: bool,
+    pub analysis_open: bool,
 }
 
 pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
@@ -180,6 +184,22 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
             .clicked()
         {
             ed.commands.push(Command::Redo);
+        }
+        ui.separator();
+        if ui
+            .add_enabled(info.can_keep, egui::Button::new("Keep trace"))
+            .on_hover_text("Keep the run shown now as a reference to compare with (Ctrl+K)")
+            .clicked()
+        {
+            ed.commands.push(Command::Analysis(AnalysisCommand::Keep));
+        }
+        if ui
+            .selectable_label(info.analysis_open, "Analysis")
+            .on_hover_text("Compare kept traces, sweep an input, dose–response, fit ratios (Ctrl+L)")
+            .clicked()
+        {
+            ed.commands
+                .push(Command::Analysis(AnalysisCommand::Show(!info.analysis_open)));
         }
         ui.separator();
         ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
