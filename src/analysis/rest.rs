@@ -4,7 +4,7 @@
 use serde::Serialize;
 
 use crate::engine::{EngineError, Model};
-use crate::physics::{Ion, SteadyState, Undefined, ghk_potential_mv, nernst_mv};
+use crate::physics::{SteadyState, Undefined, ghk_potential_mv, nernst_mv};
 use crate::scenario::Scenario;
 
 /// One species' line of the report.
@@ -33,19 +33,6 @@ impl RestReport {
     pub fn resting_mv(&self) -> Option<f64> {
         self.steady.resting_mv.as_ref().ok().copied()
     }
-}
-
-/// Ions of the scenario with their file values.
-pub fn file_ions(s: &Scenario) -> Vec<Ion> {
-    s.species
-        .iter()
-        .map(|x| Ion {
-            charge: x.charge,
-            inside_mm: x.inside_mm,
-            outside_mm: x.outside_mm,
-            p_cm_per_s: x.permeability_cm_per_s,
-        })
-        .collect()
 }
 
 /// Computes the resting report of a valid scenario.
@@ -77,7 +64,7 @@ pub fn rest_report_with(s: &Scenario, model: &mut Model) -> RestReport {
     RestReport {
         temperature_c: s.temperature_c,
         species,
-        ghk_mv: ghk_potential_mv(&file_ions(s), s.temperature_c),
+        ghk_mv: ghk_potential_mv(&s.ions(), s.temperature_c),
         steady: model.steady_state_at_start(),
     }
 }

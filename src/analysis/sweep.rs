@@ -8,7 +8,6 @@ use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 
 use rayon::prelude::*;
 
-use super::rest::file_ions;
 use crate::engine::{EngineError, Model};
 use crate::physics::{Undefined, ghk_potential_mv, nernst_mv};
 use crate::scenario::{Event, Scenario};
@@ -333,7 +332,7 @@ pub type Potentials = (Result<f64, Undefined>, Result<f64, Undefined>);
 
 /// GHK and steady-state potentials of a scenario, exactly as `rest_report` computes them.
 pub fn potentials(s: &Scenario) -> Result<Potentials, EngineError> {
-    let ghk = ghk_potential_mv(&file_ions(s), s.temperature_c);
+    let ghk = ghk_potential_mv(&s.ions(), s.temperature_c);
     let resting = Model::new(s)?.steady_state_at_start().resting_mv;
     Ok((ghk, resting))
 }

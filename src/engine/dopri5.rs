@@ -12,7 +12,9 @@
 //! stability: many in a row mean the cell is stiff, and `Method::Auto` hands over to the
 //! Rosenbrock stepper.
 
-use super::stepper::{Settings, Stats, StepFailure, System, first_non_finite, initial_step, too_small};
+use super::stepper::{
+    Settings, Stats, StepFailure, System, first_non_finite, initial_step, land_on_end, too_small, underflow,
+};
 
 /// Largest h·|λ| a step is allowed from the stiffness estimate (the real stability boundary
 /// of DOPRI5 is near 3.3).
@@ -166,15 +168,9 @@ impl Dopri5 {
         let mut h = self.h.min(h_limit);
         let mut last_rejected = false;
         loop {
-            // Land on t_end rather than leave a sliver of a step before it.
-            if *t + h >= t_end || t_end - (*t + h) < 1e-10 * h {
-                h = span;
-            }
+            h = land_on_end(*t, h, t_end, span);
             if too_small(h, *t) {
-                let worst = (0..n)
-                    .max_by(|&a, &b| self.err[a].abs().total_cmp(&self.err[b].abs()))
-                    .unwrap_or(0);
-                return Err(StepFailure::Underflow { component: worst });
+                return Err(underflow(&self.err));
             }
             let [k1, k2, k3, k4, k5, k6, k7] = &mut self.k;
             let ys = &mut self.y_stage;

@@ -4,7 +4,7 @@
 //! State layout: `[V, gates…, lagged inputs…, inside concentrations… (when tracked)]`.
 
 use crate::constants::FARADAY_C_PER_MOL;
-use crate::physics::{Conditions, GatedChannel, Ion, Membrane, PumpModel, SteadyState};
+use crate::physics::{Conditions, GatedChannel, Membrane, PumpModel, SteadyState};
 use crate::scenario::{Event, Scenario, Start};
 
 use super::EngineError;
@@ -225,16 +225,7 @@ impl Model {
                 name: name.to_string(),
             })
         };
-        let ions = s
-            .species
-            .iter()
-            .map(|x| Ion {
-                charge: x.charge,
-                inside_mm: x.inside_mm,
-                outside_mm: x.outside_mm,
-                p_cm_per_s: x.permeability_cm_per_s,
-            })
-            .collect();
+        let ions = s.ions();
         let mut channels = Vec::new();
         let mut gate_names = Vec::new();
         for (i, c) in s.channels.iter().enumerate() {

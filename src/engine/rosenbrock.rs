@@ -17,7 +17,9 @@
 
 use nalgebra::{DMatrix, DVectorViewMut};
 
-use super::stepper::{Settings, Stats, StepFailure, System, first_non_finite, initial_step, too_small};
+use super::stepper::{
+    Settings, Stats, StepFailure, System, first_non_finite, initial_step, land_on_end, too_small, underflow,
+};
 
 const GAMMA: f64 = 0.5;
 const A21: f64 = 2.0;
@@ -180,14 +182,9 @@ impl Rosenbrock {
         let mut h = self.h.min(h_limit);
         let mut last_rejected = false;
         loop {
-            if *t + h >= t_end || t_end - (*t + h) < 1e-10 * h {
-                h = span;
-            }
+            h = land_on_end(*t, h, t_end, span);
             if too_small(h, *t) {
-                let worst = (0..n)
-                    .max_by(|&a, &b| self.err[a].abs().total_cmp(&self.err[b].abs()))
-                    .unwrap_or(0);
-                return Err(StepFailure::Underflow { component: worst });
+                return Err(underflow(&self.err));
             }
             let mut w = DMatrix::from_fn(n, n, |i, j| -self.jac[(i, j)]);
             for i in 0..n {

@@ -64,6 +64,24 @@ pub(crate) fn first_non_finite(v: &[f64]) -> Option<usize> {
     v.iter().position(|x| !x.is_finite())
 }
 
+/// The step to try from `t`: `h`, or the whole `span` to `t_end` when `h` would reach it or
+/// leave only a sliver of a step before it.
+pub(crate) fn land_on_end(t: f64, h: f64, t_end: f64, span: f64) -> f64 {
+    if t + h >= t_end || t_end - (t + h) < 1e-10 * h {
+        span
+    } else {
+        h
+    }
+}
+
+/// The step-size underflow failure, naming the component with the largest scaled error.
+pub(crate) fn underflow(err: &[f64]) -> StepFailure {
+    let worst = (0..err.len())
+        .max_by(|&a, &b| err[a].abs().total_cmp(&err[b].abs()))
+        .unwrap_or(0);
+    StepFailure::Underflow { component: worst }
+}
+
 /// Whether a step of `h` at `t` is too small to change `t` meaningfully in floating point.
 pub(crate) fn too_small(h: f64, t: f64) -> bool {
     h.abs() <= 1e-14 * t.abs().max(1.0)

@@ -250,6 +250,19 @@ fn default_start() -> Start {
 }
 
 impl Scenario {
+    /// The species as physics ions with the file's own values.
+    pub fn ions(&self) -> Vec<crate::physics::Ion> {
+        self.species
+            .iter()
+            .map(|x| crate::physics::Ion {
+                charge: x.charge,
+                inside_mm: x.inside_mm,
+                outside_mm: x.outside_mm,
+                p_cm_per_s: x.permeability_cm_per_s,
+            })
+            .collect()
+    }
+
     /// Index of the species called `name`.
     pub fn species_index(&self, name: &str) -> Option<usize> {
         self.species.iter().position(|s| s.name == name)
