@@ -1,11 +1,13 @@
 //! Speed of the analyses against issue 5's targets: a 1000-point steady-state sweep (under
 //! 50 ms) and a fit of 3 free permeability ratios to 20 points (under 100 ms). The sweep is
 //! timed on a passive cell and on an excitable one, whose gated channels make every steady
-//! state scan the whole voltage range.
+//! state scan the whole voltage range. Also the drawing path of five kept traces of 200,000
+//! samples each while panning (under 16 ms a frame).
 
 use std::hint::black_box;
 
 use criterion::{Criterion, criterion_group, criterion_main};
+use permeant::analysis::decimate::decimate_min_max;
 use permeant::analysis::fit::{DataPoint, FitSpace, fit};
 use permeant::analysis::rest_report;
 use permeant::analysis::sweep::{SweepControl, SweepRange, Vary, apply, sweep};
@@ -128,5 +130,78 @@ fn bench_fit(c: &mut Criterion) {
     });
 }
 
-criterion_group!(benches, bench_sweep, bench_fit);
+/// Five kept traces of 200,000 samples each (spiking, invented shape) over 1000 ms.
+fn kept_traces() -> Vec<(Vec<f64>, Vec<f64>)> {
+    (0..5)
+        .map(|k| {
+            let t: Vec<f64> = (0..200_000).map(|i| i as f64 * 0.005).collect();
+            let v = t
+                .iter()
+                .map(|&x| -65.0 + 3.0 * f64::from(k) + 100.0 * ((x * 0.05).sin().max(0.0)).powi(8))
+                .collect();
+            (t, v)
+        })
+        .collect()
+}
+
+/// What the potential plot does per frame while the user pans or zooms with five kept traces
+/// visible: thin each to min/max per column of a 1000-pixel-wide visible range (the range
+/// moves every frame, so no cached decimation can be reused). Target: under 16 ms a frame.
+/// The second measurement adds egui_plot's layout of the five lines and egui's tessellation
+/// into triangles, i.e. everything but the GPU.
+fn bench_kept_traces(c: &mut Criterion) {
+    let traces = kept_traces();
+    let columns = 1000;
+    let mut frame = 0u64;
+    let mut next_range = move || {
+        frame += 1;
+        // Pan across the trace, zooming between 200 ms and the whole run.
+        let width = 200.0 + (frame % 5) as f64 * 200.0;
+        let lo = (frame % 37) as f64 * (1000.0 - width) / 36.0;
+        (lo, lo + width)
+    };
+    c.bench_function(
+        "pan frame: decimate 5 kept traces of 200k samples to 1000 px",
+        |b| {
+            b.iter(|| {
+                let range = next_range();
+                let n: usize = traces
+                    .iter()
+                    .map(|(t, v)| decimate_min_max(t, v, range, columns).len())
+                    .sum();
+                black_box(n)
+            })
+        },
+    );
+    let ctx = egui::Context::default();
+    let input = || egui::RawInput {
+        screen_rect: Some(egui::Rect::from_min_size(
+            egui::Pos2::ZERO,
+            egui::vec2(1100.0, 600.0),
+        )),
+        ..Default::default()
+    };
+    c.bench_function(
+        "pan frame: 5 kept traces decimated, laid out and tessellated",
+        |b| {
+            b.iter(|| {
+                let range = next_range();
+                let out = ctx.run_ui(input(), |ui| {
+                    egui_plot::Plot::new("kept")
+                        .reset()
+                        .default_x_bounds(range.0, range.1)
+                        .show(ui, |pui| {
+                            for (k, (t, v)) in traces.iter().enumerate() {
+                                let points = decimate_min_max(t, v, range, columns);
+                                pui.line(egui_plot::Line::new(format!("kept {k}"), points));
+                            }
+                        });
+                });
+                black_box(ctx.tessellate(out.shapes, out.pixels_per_point).len())
+            })
+        },
+    );
+}
+
+criterion_group!(benches, bench_sweep, bench_fit, bench_kept_traces);
 criterion_main!(benches);

@@ -244,7 +244,7 @@ fn the_trace_exports_as_csv_with_its_header_and_one_row_per_sample() {
     h.state_mut()
         .queue(Command::TypePath(FilePurpose::Export(ExportKind::Csv)));
     h.run_steps(3);
-    h.get_by_label("Export the trace as CSV");
+    h.get_by_label("Export the traces as CSV");
     h.get_by_label("File path").click();
     h.run_steps(1);
     let target = dir.path().join("trace");

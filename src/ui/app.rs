@@ -352,9 +352,7 @@ impl App {
             }
             Command::Recover(restore) => self.recover(restore),
             Command::Analysis(AnalysisCommand::Keep) => self.keep_trace(),
-            Command::Analysis(AnalysisCommand::ChooseFitData) => {
-                self.choose_file(FilePurpose::FitData, ctx)
-            }
+            Command::Analysis(AnalysisCommand::ChooseFitData) => self.choose_file(FilePurpose::FitData, ctx),
             Command::Analysis(c) => self.analysis.apply(c, &self.doc.scenario, ctx),
         }
         // The run follows every change of the scenario, whatever caused it.

@@ -136,9 +136,9 @@ pub fn show(ui: &Ui, dialog: &mut Dialog, commands: &mut Vec<Command>) {
                             FilePurpose::Open => Command::OpenPath(path),
                             FilePurpose::Save => Command::SaveTo(path),
                             FilePurpose::Export(kind) => Command::ExportTo(*kind, path),
-                            FilePurpose::FitData => Command::Analysis(
-                                super::analysis::AnalysisCommand::LoadFitData(path),
-                            ),
+                            FilePurpose::FitData => {
+                                Command::Analysis(super::analysis::AnalysisCommand::LoadFitData(path))
+                            }
                         });
                     }
                     if ui.button("Cancel").clicked() {

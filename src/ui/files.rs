@@ -59,9 +59,7 @@ impl FileChooser {
                     FilePurpose::Open | FilePurpose::Save => {
                         rfd::FileDialog::new().add_filter("Scenario", &["ron"])
                     }
-                    FilePurpose::FitData => {
-                        rfd::FileDialog::new().add_filter("CSV table", &["csv", "txt"])
-                    }
+                    FilePurpose::FitData => rfd::FileDialog::new().add_filter("CSV table", &["csv", "txt"]),
                 }
                 .add_filter("Any file", &["*"]);
                 if let Some(dir) = start_dir {

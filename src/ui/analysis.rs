@@ -1,0 +1,739 @@
+//! The "Analysis" window: comparing kept traces (`kept`), sweeps of one input, the
+//! dose–response of an agent and permeability-ratio fits (`fit_view`). Sweeps, dose–responses
+//! and fits run on a background thread (rayon inside, through `analysis::sweep`), with a
+//! progress bar and Cancel, so the window keeps drawing and the live run keeps running.
+
+use std::path::PathBuf;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::mpsc::{Receiver, TryRecvError, channel};
+use std::time::Instant;
+
+use egui::{Color32, RichText, Ui};
+use egui_plot::{HoverPosition, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine};
+
+use super::command::Command;
+use super::fit_view::{self, FitForm, FitOutput};
+use super::kept::{self, Kept};
+use super::theme::{neutral_color, potential_color, species_color};
+use crate::analysis::metrics::{DoseResponse, SpikeSettings, dose_response};
+use crate::analysis::sweep::{NernstLine, SweepControl, SweepPoint, SweepRange, Vary, nernst_line, sweep};
+use crate::scenario::{Event, Scenario};
+
+/// What the analysis window asks for (inside [`Command::Analysis`]).
+#[derive(Debug, Clone, PartialEq)]
+pub enum AnalysisCommand {
+    /// Open or close the window.
+    Show(bool),
+    /// Keep the shown run as a reference trace.
+    Keep,
+    SetKeptVisible(usize, bool),
+    RenameKept(usize, String),
+    DeleteKept(usize),
+    /// The kept trace the others are compared with, or none.
+    SetBaseline(Option<usize>),
+    /// Start the sweep in the sweep form.
+    StartSweep,
+    /// Start the dose–response in its form.
+    StartDose,
+    /// Start the fit of the loaded points.
+    StartFit,
+    /// Stop the computation under way.
+    Cancel,
+    /// Choose a CSV of measured points with a file dialog (or a typed path).
+    ChooseFitData,
+    /// Load measured points from this file.
+    LoadFitData(PathBuf),
+}
+
+/// The window's tabs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum AnalysisTab {
+    #[default]
+    Compare,
+    Sweep,
+    DoseResponse,
+    Fit,
+}
+
+impl AnalysisTab {
+    const ALL: [AnalysisTab; 4] = [
+        AnalysisTab::Compare,
+        AnalysisTab::Sweep,
+        AnalysisTab::DoseResponse,
+        AnalysisTab::Fit,
+    ];
+
+    fn label(self) -> &'static str {
+        match self {
+            AnalysisTab::Compare => "Compare",
+            AnalysisTab::Sweep => "Sweep",
+            AnalysisTab::DoseResponse => "Dose–response",
+            AnalysisTab::Fit => "Fit",
+        }
+    }
+}
+
+/// Every input a sweep or a fit can vary in `s`.
+pub fn vary_choices(s: &Scenario) -> Vec<Vary> {
+    let mut out = vec![Vary::TemperatureC];
+    for sp in &s.species {
+        out.push(Vary::OutsideMm(sp.name.clone()));
+        out.push(Vary::InsideMm(sp.name.clone()));
+        out.push(Vary::Permeability(sp.name.clone()));
+    }
+    out.extend(agent_labels(s).into_iter().map(Vary::DoseUm));
+    out
+}
+
+/// Labels of the scenario's agents.
+pub fn agent_labels(s: &Scenario) -> Vec<String> {
+    s.protocol
+        .iter()
+        .filter_map(|e| match e {
+            Event::Agent { label, .. } => Some(label.clone()),
+            _ => None,
+        })
+        .collect()
+}
+
+/// A sensible range for `vary` around its value in `s`: a decade each way for concentrations,
+/// two for permeabilities and doses, 0–40 °C for temperature.
+pub fn default_range(s: &Scenario, vary: &Vary) -> SweepRange {
+    let v = vary.value_in(s).unwrap_or(0.0);
+    let around = |decades: f64, fallback: (f64, f64)| {
+        let (from, to) = if v > 0.0 {
+            (v / 10f64.powf(decades), v * 10f64.powf(decades))
+        } else {
+            fallback
+        };
+        SweepRange {
+            from,
+            to,
+            points: 50,
+            log: true,
+        }
+    };
+    match vary {
+        Vary::TemperatureC => SweepRange {
+            from: 0.0,
+            to: 40.0,
+            points: 41,
+            log: false,
+        },
+        Vary::OutsideMm(_) | Vary::InsideMm(_) => around(1.0, (0.1, 100.0)),
+        Vary::Permeability(_) => around(2.0, (1e-9, 1e-5)),
+        Vary::DoseUm(_) => around(2.0, (0.01, 100.0)),
+    }
+}
+
+/// The first choice to offer: bath potassium when there is a K+, else the first species' bath.
+fn default_vary(s: &Scenario) -> Vary {
+    let name = s
+        .species
+        .iter()
+        .find(|x| x.name == "K+")
+        .or(s.species.first())
+        .map(|x| x.name.clone());
+    name.map_or(Vary::TemperatureC, Vary::OutsideMm)
+}
+
+/// A picker of the varied input; returns whether the choice changed.
+pub fn vary_picker(ui: &mut Ui, id: &str, s: &Scenario, vary: &mut Vary) -> bool {
+    let mut changed = false;
+    let label = ui.label("Vary");
+    egui::ComboBox::from_id_salt(id)
+        .selected_text(vary.label())
+        .width(220.0)
+        .show_ui(ui, |ui| {
+            for c in vary_choices(s) {
+                if ui.selectable_label(*vary == c, c.label()).clicked() && *vary != c {
+                    *vary = c;
+                    changed = true;
+                }
+            }
+        })
+        .response
+        .labelled_by(label.id);
+    changed
+}
+
+/// The form of a sweep.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SweepForm {
+    pub vary: Vary,
+    pub range: SweepRange,
+}
+
+/// A finished sweep.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SweepOutput {
+    pub vary: Vary,
+    pub range: SweepRange,
+    pub points: Vec<SweepPoint>,
+    pub nernst: Option<NernstLine>,
+    pub elapsed_ms: f64,
+}
+
+/// The form of a dose–response.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DoseForm {
+    pub label: String,
+    pub from_um: f64,
+    pub to_um: f64,
+    pub points: usize,
+    pub count_spikes: bool,
+}
+
+/// What a background computation sends back.
+enum Outcome {
+    Sweep(Result<SweepOutput, String>),
+    Dose(Result<DoseResponse, String>),
+    Fit(Result<FitOutput, String>),
+}
+
+/// A computation under way.
+struct Job {
+    what: &'static str,
+    /// Points to compute, for the progress bar (0: unknown).
+    total: usize,
+    progress: Arc<AtomicUsize>,
+    cancel: Arc<AtomicBool>,
+    rx: Receiver<Outcome>,
+}
+
+/// The analysis window's state: runtime only, never saved.
+#[derive(Default)]
+pub struct Analysis {
+    pub open: bool,
+    pub tab: AnalysisTab,
+    pub kept: Kept,
+    pub sweep_form: Option<SweepForm>,
+    pub sweep: Option<Result<SweepOutput, String>>,
+    pub dose_form: Option<DoseForm>,
+    pub dose: Option<Result<DoseResponse, String>>,
+    pub fit: FitForm,
+    job: Option<Job>,
+}
+
+impl Analysis {
+    /// Whether a computation is under way.
+    pub fn busy(&self) -> bool {
+        self.job.is_some()
+    }
+
+    /// Brings the forms in line with the scenario (a renamed species, a removed agent).
+    fn follow(&mut self, s: &Scenario) {
+        let stale = self.sweep_form.as_ref().is_none_or(|f| f.vary.check(s).is_err());
+        if stale {
+            let vary = default_vary(s);
+            self.sweep_form = Some(SweepForm {
+                range: default_range(s, &vary),
+                vary,
+            });
+        }
+        let agents = agent_labels(s);
+        let stale = self.dose_form.as_ref().is_none_or(|f| !agents.contains(&f.label));
+        if stale {
+            self.dose_form = agents.first().map(|label| {
+                let r = default_range(s, &Vary::DoseUm(label.clone()));
+                let ic50 = s.protocol.iter().find_map(|e| match e {
+                    Event::Agent {
+                        label: l, ic50_um, ..
+                    } if l == label => Some(*ic50_um),
+                    _ => None,
+                });
+                let (from_um, to_um) = match ic50 {
+                    Some(c) if c > 0.0 => (c / 100.0, c * 100.0),
+                    _ => (r.from, r.to),
+                };
+                DoseForm {
+                    label: label.clone(),
+                    from_um,
+                    to_um,
+                    points: 25,
+                    count_spikes: !s.channels.is_empty(),
+                }
+            });
+        }
+        self.fit.follow(s);
+    }
+
+    /// Applies a command that needs only the analysis state and the scenario.
+    pub fn apply(&mut self, c: AnalysisCommand, s: &Scenario, ctx: &egui::Context) {
+        self.follow(s);
+        match c {
+            AnalysisCommand::Show(on) => self.open = on,
+            AnalysisCommand::SetKeptVisible(i, on) => self.kept.set_visible(i, on),
+            AnalysisCommand::RenameKept(i, name) => self.kept.rename(i, name),
+            AnalysisCommand::DeleteKept(i) => self.kept.delete(i),
+            AnalysisCommand::SetBaseline(b) => self.kept.set_baseline(b),
+            AnalysisCommand::StartSweep => self.start_sweep(s, ctx),
+            AnalysisCommand::StartDose => self.start_dose(s, ctx),
+            AnalysisCommand::StartFit => self.start_fit(s, ctx),
+            AnalysisCommand::Cancel => {
+                if let Some(job) = self.job.take() {
+                    job.cancel.store(true, Ordering::Relaxed);
+                }
+            }
+            AnalysisCommand::LoadFitData(path) => self.fit.load(&path),
+            // Keeping needs the run and choosing a file the app's file chooser: the app does those.
+            AnalysisCommand::Keep | AnalysisCommand::ChooseFitData => {}
+        }
+    }
+
+    fn spawn(
+        &mut self,
+        what: &'static str,
+        total: usize,
+        ctx: &egui::Context,
+        work: impl FnOnce(SweepControl) -> Outcome + Send + 'static,
+    ) {
+        if self.job.is_some() {
+            return;
+        }
+        let progress = Arc::new(AtomicUsize::new(0));
+        let cancel = Arc::new(AtomicBool::new(false));
+        let control = SweepControl {
+            progress: Some(progress.clone()),
+            cancel: Some(cancel.clone()),
+        };
+        let (tx, rx) = channel();
+        let ctx = ctx.clone();
+        let spawned = std::thread::Builder::new()
+            .name(format!("permeant {what}"))
+            .spawn(move || {
+                let _ = tx.send(work(control));
+                ctx.request_repaint();
+            });
+        if spawned.is_ok() {
+            self.job = Some(Job {
+                what,
+                total,
+                progress,
+                cancel,
+                rx,
+            });
+        }
+    }
+
+    fn start_sweep(&mut self, s: &Scenario, ctx: &egui::Context) {
+        let Some(form) = self.sweep_form.clone() else {
+            return;
+        };
+        let s = s.clone();
+        self.spawn("sweep", form.range.points, ctx, move |control| {
+            let started = Instant::now();
+            let out = sweep(&s, &form.vary, &form.range, &control).map(|points| {
+                let values: Vec<f64> = points.iter().map(|p| p.value).collect();
+                SweepOutput {
+                    nernst: nernst_line(&s, &form.vary, &values),
+                    vary: form.vary.clone(),
+                    range: form.range,
+                    points,
+                    elapsed_ms: started.elapsed().as_secs_f64() * 1e3,
+                }
+            });
+            Outcome::Sweep(out.map_err(|e| e.to_string()))
+        });
+    }
+
+    fn start_dose(&mut self, s: &Scenario, ctx: &egui::Context) {
+        let Some(form) = self.dose_form.clone() else {
+            return;
+        };
+        let s = s.clone();
+        let total = form.points * if form.count_spikes { 2 } else { 1 };
+        self.spawn("dose–response", total, ctx, move |control| {
+            let spikes = form.count_spikes.then(SpikeSettings::default);
+            let out = dose_response(
+                &s,
+                &form.label,
+                form.from_um,
+                form.to_um,
+                form.points,
+                spikes,
+                &control,
+            );
+            Outcome::Dose(out.map_err(|e| e.to_string()))
+        });
+    }
+
+    fn start_fit(&mut self, s: &Scenario, ctx: &egui::Context) {
+        let Some(task) = self.fit.task(s) else {
+            return;
+        };
+        self.fit.result = None;
+        self.spawn("fit", 0, ctx, move |control| Outcome::Fit(task.run(&control)));
+    }
+
+    /// Takes in a finished computation. Call once per frame.
+    pub fn poll(&mut self, ctx: &egui::Context) {
+        let Some(job) = &self.job else { return };
+        let outcome = match job.rx.try_recv() {
+            Ok(o) => o,
+            Err(TryRecvError::Empty) => {
+                ctx.request_repaint();
+                return;
+            }
+            Err(TryRecvError::Disconnected) => {
+                let what = job.what;
+                self.job = None;
+                let lost = format!("the {what} stopped without a result");
+                match what {
+                    "sweep" => self.sweep = Some(Err(lost)),
+                    "fit" => self.fit.result = Some(Err(lost)),
+                    _ => self.dose = Some(Err(lost)),
+                }
+                return;
+            }
+        };
+        self.job = None;
+        match outcome {
+            Outcome::Sweep(r) => self.sweep = Some(r),
+            Outcome::Dose(r) => self.dose = Some(r),
+            Outcome::Fit(r) => self.fit.result = Some(r),
+        }
+    }
+
+    /// The window.
+    pub fn show(&mut self, ui: &Ui, s: &Scenario, can_keep: bool, commands: &mut Vec<Command>) {
+        self.follow(s);
+        let mut open = self.open;
+        let ctx = ui.ctx().clone();
+        let area = ctx.content_rect();
+        egui::Window::new("Analysis")
+            .open(&mut open)
+            .default_size([600.0, 420.0_f32.min(area.height() * 0.6)])
+            .default_pos(area.right_top() + egui::vec2(-650.0, 80.0))
+            .max_height(area.height() - 60.0)
+            .show(&ctx, |ui| {
+                ui.horizontal(|ui| {
+                    for tab in AnalysisTab::ALL {
+                        if ui.selectable_label(self.tab == tab, tab.label()).clicked() {
+                            self.tab = tab;
+                        }
+                    }
+                });
+                ui.separator();
+                self.job_bar(ui, commands);
+                match self.tab {
+                    AnalysisTab::Compare => kept::show(ui, &self.kept, can_keep, commands),
+                    AnalysisTab::Sweep => self.sweep_tab(ui, s, commands),
+                    AnalysisTab::DoseResponse => self.dose_tab(ui, commands),
+                    AnalysisTab::Fit => {
+                        let busy = self.job.is_some();
+                        fit_view::show(ui, &mut self.fit, s, busy, commands);
+                    }
+                }
+            });
+        if !open {
+            commands.push(Command::Analysis(AnalysisCommand::Show(false)));
+        }
+    }
+
+    fn job_bar(&self, ui: &mut Ui, commands: &mut Vec<Command>) {
+        let Some(job) = &self.job else { return };
+        ui.horizontal(|ui| {
+            let done = job.progress.load(Ordering::Relaxed);
+            if job.total > 0 {
+                let f = (done as f32 / job.total as f32).clamp(0.0, 1.0);
+                ui.add(
+                    egui::ProgressBar::new(f)
+                        .desired_width(260.0)
+                        .text(format!("{}: {done} of {} points", job.what, job.total)),
+                );
+            } else {
+                ui.spinner();
+                ui.label(format!("{} under way…", job.what));
+            }
+            if ui.button("Cancel").clicked() {
+                commands.push(Command::Analysis(AnalysisCommand::Cancel));
+            }
+        });
+    }
+
+    fn sweep_tab(&mut self, ui: &mut Ui, s: &Scenario, commands: &mut Vec<Command>) {
+        let busy = self.job.is_some();
+        let Some(form) = &mut self.sweep_form else {
+            return;
+        };
+        ui.horizontal(|ui| {
+            if vary_picker(ui, "sweep vary", s, &mut form.vary) {
+                form.range = default_range(s, &form.vary);
+            }
+        });
+        range_fields(ui, &mut form.range, form.vary.unit(), true);
+        ui.horizontal(|ui| {
+            if ui
+                .add_enabled(!busy, egui::Button::new("Compute sweep"))
+                .on_hover_text("GHK and steady-state potential at each point, on every core")
+                .clicked()
+            {
+                commands.push(Command::Analysis(AnalysisCommand::StartSweep));
+            }
+            if let Some(Ok(out)) = &self.sweep {
+                ui.label(
+                    RichText::new(format!("{} points in {:.1} ms", out.points.len(), out.elapsed_ms)).weak(),
+                );
+            }
+        });
+        match &self.sweep {
+            None => {}
+            Some(Err(e)) => {
+                ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
+            }
+            Some(Ok(out)) => sweep_plot(ui, out),
+        }
+    }
+
+    fn dose_tab(&mut self, ui: &mut Ui, commands: &mut Vec<Command>) {
+        let busy = self.job.is_some();
+        let Some(form) = &mut self.dose_form else {
+            ui.label(
+                RichText::new("The scenario has no agent. Add a blocking agent to the protocol first.")
+                    .weak(),
+            );
+            return;
+        };
+        ui.horizontal(|ui| {
+            ui.label(format!("Agent: {}", form.label));
+        });
+        ui.horizontal(|ui| {
+            ui.label("Doses from");
+            log_value(ui, &mut form.from_um, " µM");
+            ui.label("to");
+            log_value(ui, &mut form.to_um, " µM");
+            ui.label("points");
+            ui.add(egui::DragValue::new(&mut form.points).range(2..=500));
+        });
+        ui.checkbox(
+            &mut form.count_spikes,
+            "Count spikes over a full run at each dose",
+        )
+        .on_hover_text("For excitable cells; one simulated run per dose");
+        ui.horizontal(|ui| {
+            if ui
+                .add_enabled(!busy, egui::Button::new("Compute dose–response"))
+                .clicked()
+            {
+                commands.push(Command::Analysis(AnalysisCommand::StartDose));
+            }
+        });
+        match &self.dose {
+            None => {}
+            Some(Err(e)) => {
+                ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
+            }
+            Some(Ok(d)) => dose_plot(ui, d),
+        }
+    }
+}
+
+/// A positive value that may span decades: dragging moves it by a percentage.
+fn log_value(ui: &mut Ui, v: &mut f64, unit: &str) {
+    let speed = (v.abs() * 0.01).max(1e-12);
+    ui.add(
+        egui::DragValue::new(v)
+            .speed(speed)
+            .range(0.0..=f64::MAX)
+            .suffix(unit)
+            .custom_formatter(|x, _| format!("{x:.4}"))
+            .min_decimals(1),
+    );
+}
+
+fn range_fields(ui: &mut Ui, r: &mut SweepRange, unit: &str, allow_linear: bool) {
+    ui.horizontal(|ui| {
+        let u = format!(" {unit}");
+        ui.label("From");
+        if r.log {
+            log_value(ui, &mut r.from, &u);
+        } else {
+            ui.add(egui::DragValue::new(&mut r.from).speed(0.1).suffix(&u));
+        }
+        ui.label("to");
+        if r.log {
+            log_value(ui, &mut r.to, &u);
+        } else {
+            ui.add(egui::DragValue::new(&mut r.to).speed(0.1).suffix(&u));
+        }
+        ui.label("points");
+        ui.add(egui::DragValue::new(&mut r.points).range(1..=10_000));
+        if allow_linear {
+            ui.radio_value(&mut r.log, false, "linear");
+            ui.radio_value(&mut r.log, true, "log");
+        }
+    });
+}
+
+/// A short number for an axis tick or a label.
+pub fn short(v: f64) -> String {
+    let a = v.abs();
+    if a == 0.0 {
+        "0".into()
+    } else if !(1e-3..1e5).contains(&a) {
+        format!("{v:.2e}")
+    } else if a >= 100.0 {
+        format!("{v:.0}")
+    } else if a >= 1.0 {
+        format!("{v:.2}")
+    } else {
+        format!("{v:.3}")
+    }
+}
+
+/// The plot's x for a value: log10 on a log axis.
+pub fn plot_x(v: f64, log: bool) -> f64 {
+    if log { v.log10() } else { v }
+}
+
+/// A plot of potentials against an input, with a log axis when `log`.
+pub fn potential_plot(id: &str, x_label: String, log: bool, height: f32) -> Plot<'static> {
+    Plot::new(id.to_string())
+        .height(height)
+        .x_axis_label(if log {
+            format!("{x_label}, log scale")
+        } else {
+            x_label
+        })
+        .y_axis_label("Potential (mV)")
+        .y_axis_min_width(40.0)
+        .legend(
+            Legend::default()
+                .position(egui_plot::Corner::LeftTop)
+                .background_alpha(0.6),
+        )
+        .x_axis_formatter(move |mark, _| short(if log { 10f64.powf(mark.value) } else { mark.value }))
+        .label_formatter(move |h: &HoverPosition<'_>| {
+            let (name, p) = match h {
+                HoverPosition::NearDataPoint {
+                    plot_name, position, ..
+                } => (*plot_name, *position),
+                HoverPosition::Elsewhere { position } => ("", *position),
+            };
+            let x = if log { 10f64.powf(p.x) } else { p.x };
+            let head = if name.is_empty() {
+                String::new()
+            } else {
+                format!("{name}\n")
+            };
+            Some(format!("{head}{}\n{:.2} mV", short(x), p.y))
+        })
+}
+
+fn line_of(points: impl Iterator<Item = (f64, Option<f64>)>, log: bool) -> Vec<[f64; 2]> {
+    points
+        .filter_map(|(x, y)| Some([plot_x(x, log), y?]))
+        .filter(|p| p[0].is_finite() && p[1].is_finite())
+        .collect()
+}
+
+fn sweep_plot(ui: &mut Ui, out: &SweepOutput) {
+    let dark = ui.visuals().dark_mode;
+    let log = out.range.log;
+    let height = ui.available_height().max(160.0);
+    potential_plot("sweep plot", out.vary.label(), log, height).show(ui, |pui| {
+        let ghk = line_of(out.points.iter().map(|p| (p.value, p.ghk_mv)), log);
+        let rest = line_of(out.points.iter().map(|p| (p.value, p.resting_mv)), log);
+        if let Some(n) = &out.nernst {
+            let e = line_of(
+                out.points.iter().map(|p| p.value).zip(n.e_mv.iter().copied()),
+                log,
+            );
+            pui.line(
+                Line::new(
+                    format!("Nernst {} ({:+.1} mV/decade)", n.species, n.slope_mv_per_decade),
+                    PlotPoints::new(e),
+                )
+                .color(species_color(0).gamma_multiply(0.9))
+                .style(LineStyle::dashed_loose())
+                .width(1.5),
+            );
+        }
+        pui.line(
+            Line::new("GHK potential", PlotPoints::new(ghk))
+                .color(neutral_color(dark))
+                .style(LineStyle::dotted_dense())
+                .width(2.0),
+        );
+        pui.line(
+            Line::new("Steady state", PlotPoints::new(rest.clone()))
+                .color(potential_color(dark))
+                .width(2.0),
+        );
+        if rest.len() <= 60 {
+            pui.points(
+                Points::new("Steady state", PlotPoints::new(rest))
+                    .color(potential_color(dark))
+                    .radius(2.0),
+            );
+        }
+    });
+}
+
+fn dose_plot(ui: &mut Ui, d: &DoseResponse) {
+    let dark = ui.visuals().dark_mode;
+    let v = line_of(d.points.iter().map(|p| (p.dose_um, p.resting_mv)), true);
+    let counts: Vec<[f64; 2]> = d
+        .points
+        .iter()
+        .filter_map(|p| Some([p.dose_um.log10(), p.spike_count? as f64]))
+        .collect();
+    let marker = Color32::from_rgb(204, 121, 167);
+    ui.horizontal_wrapped(|ui| {
+        ui.label(RichText::new(format!("IC50 for block: {} µM", short(d.ic50_um))).color(marker));
+        if let Some(h) = d.half_effect_dose_um {
+            ui.label(format!("·  half of the potential change at {} µM", short(h)));
+        }
+    });
+    let total = ui.available_height().max(200.0);
+    let upper = if counts.is_empty() { total } else { total * 0.6 };
+    let x_label = format!("dose of {} (µM)", d.label);
+    potential_plot("dose plot", x_label.clone(), true, upper).show(ui, |pui| {
+        pui.line(
+            Line::new("Steady state", PlotPoints::new(v.clone()))
+                .color(potential_color(dark))
+                .width(2.0),
+        );
+        pui.points(
+            Points::new("Doses", PlotPoints::new(v))
+                .color(potential_color(dark))
+                .radius(2.5),
+        );
+        if d.ic50_um > 0.0 {
+            pui.vline(
+                VLine::new(format!("IC50 {} µM", short(d.ic50_um)), d.ic50_um.log10())
+                    .color(marker)
+                    .width(1.5)
+                    .style(LineStyle::dashed_loose()),
+            );
+        }
+        if let Some(h) = d.half_effect_dose_um {
+            pui.vline(
+                VLine::new(format!("half effect {} µM", short(h)), h.log10())
+                    .color(neutral_color(dark))
+                    .style(LineStyle::dotted_loose()),
+            );
+        }
+    });
+    if !counts.is_empty() {
+        Plot::new("dose spikes")
+            .height(ui.available_height().max(80.0))
+            .x_axis_label(format!("{x_label}, log scale"))
+            .y_axis_label("Spikes per run")
+            .y_axis_min_width(40.0)
+            .x_axis_formatter(|mark, _| short(10f64.powf(mark.value)))
+            .show(ui, |pui| {
+                pui.points(
+                    Points::new("Spikes", PlotPoints::new(counts))
+                        .shape(MarkerShape::Square)
+                        .color(species_color(1))
+                        .radius(3.0),
+                );
+                if d.ic50_um > 0.0 {
+                    pui.vline(VLine::new("IC50", d.ic50_um.log10()).color(marker));
+                }
+            });
+    }
+}

@@ -1,0 +1,330 @@
+//! Kept traces for comparing runs: a copy of a run (finished or not) under a name and a
+//! colour, drawn over the live trace, and the table of its metrics against a chosen baseline.
+//! Kept traces are runtime state of the window: not part of the scenario, not undone, not saved.
+
+use egui::{Color32, RichText, Ui};
+
+use super::analysis::AnalysisCommand;
+use super::command::Command;
+use super::export::ExportKind;
+use crate::analysis::metrics::{
+    METRIC_COLUMNS, MetricsDelta, SpikeSettings, TraceMetrics, first_event_ms, trace_metrics,
+};
+use crate::scenario::Scenario;
+
+/// Colours of kept traces, in the order they are handed out: Okabe–Ito colours that the
+/// first species (K+ blue, Na+ vermilion, Cl− green) do not use, then the rest.
+const KEPT_RGB: [(u8, u8, u8); 6] = [
+    (204, 121, 167),
+    (230, 159, 0),
+    (86, 180, 233),
+    (120, 120, 120),
+    (0, 114, 178),
+    (213, 94, 0),
+];
+
+/// One kept trace.
+#[derive(Debug, Clone)]
+pub struct KeptTrace {
+    /// Never reused, so a plot cache keyed by it cannot mix two traces.
+    pub id: u64,
+    pub name: String,
+    pub color: Color32,
+    pub visible: bool,
+    pub t_ms: Vec<f64>,
+    pub v_mv: Vec<f64>,
+    /// `None` when the trace is empty.
+    pub metrics: Option<TraceMetrics>,
+}
+
+/// The kept traces and the baseline of the comparison.
+#[derive(Debug, Default)]
+pub struct Kept {
+    pub traces: Vec<KeptTrace>,
+    /// Index of the trace the others are compared with.
+    pub baseline: Option<usize>,
+    next_id: u64,
+}
+
+impl Kept {
+    /// Keeps a copy of `t_ms`, `v_mv` (the shown part of a run of `s`).
+    pub fn keep(&mut self, s: &Scenario, t_ms: &[f64], v_mv: &[f64]) -> &KeptTrace {
+        self.next_id += 1;
+        let n = self.next_id;
+        let name = format!("run {n}");
+        let rgb = KEPT_RGB[(n as usize - 1) % KEPT_RGB.len()];
+        let metrics = trace_metrics(t_ms, v_mv, first_event_ms(s), SpikeSettings::default()).ok();
+        self.traces.push(KeptTrace {
+            id: n,
+            name,
+            color: Color32::from_rgb(rgb.0, rgb.1, rgb.2),
+            visible: true,
+            t_ms: t_ms.to_vec(),
+            v_mv: v_mv.to_vec(),
+            metrics,
+        });
+        if self.baseline.is_none() && self.traces.len() == 1 {
+            self.baseline = Some(0);
+        }
+        &self.traces[self.traces.len() - 1]
+    }
+
+    pub fn set_visible(&mut self, i: usize, on: bool) {
+        if let Some(t) = self.traces.get_mut(i) {
+            t.visible = on;
+        }
+    }
+
+    pub fn rename(&mut self, i: usize, name: String) {
+        if let Some(t) = self.traces.get_mut(i) {
+            t.name = name;
+        }
+    }
+
+    pub fn delete(&mut self, i: usize) {
+        if i >= self.traces.len() {
+            return;
+        }
+        self.traces.remove(i);
+        self.baseline = match self.baseline {
+            Some(b) if b == i => None,
+            Some(b) if b > i => Some(b - 1),
+            other => other,
+        };
+    }
+
+    pub fn set_baseline(&mut self, b: Option<usize>) {
+        self.baseline = b.filter(|&i| i < self.traces.len());
+    }
+
+    /// The metrics table as CSV (`analysis::metrics::metrics_csv`), traces without samples left out.
+    pub fn metrics_csv(&self) -> String {
+        let mut rows = Vec::new();
+        let mut baseline = None;
+        for (i, t) in self.traces.iter().enumerate() {
+            if let Some(m) = t.metrics {
+                if self.baseline == Some(i) {
+                    baseline = Some(rows.len());
+                }
+                rows.push((t.name.clone(), m));
+            }
+        }
+        crate::analysis::metrics::metrics_csv(&rows, baseline)
+    }
+}
+
+/// A metric's value as shown, with its unit in the row label.
+fn cells(m: &TraceMetrics) -> [Option<f64>; 10] {
+    [
+        Some(m.before_first_event_mv),
+        Some(m.final_mv),
+        Some(m.peak_mv),
+        Some(m.peak_t_ms),
+        Some(m.trough_mv),
+        Some(m.trough_t_ms),
+        m.max_dvdt_mv_per_ms,
+        m.half_change_ms,
+        Some(m.spike_count as f64),
+        m.first_spike_latency_ms,
+    ]
+}
+
+fn delta_cells(d: &MetricsDelta) -> [Option<f64>; 10] {
+    [
+        Some(d.before_first_event_mv),
+        Some(d.final_mv),
+        Some(d.peak_mv),
+        Some(d.peak_t_ms),
+        Some(d.trough_mv),
+        Some(d.trough_t_ms),
+        d.max_dvdt_mv_per_ms,
+        d.half_change_ms,
+        Some(d.spike_count as f64),
+        d.first_spike_latency_ms,
+    ]
+}
+
+/// Row labels in plain words, in the order of [`METRIC_COLUMNS`].
+const ROW_LABELS: [&str; 10] = [
+    "Before first event (mV)",
+    "Final potential (mV)",
+    "Peak (mV)",
+    "Peak at (ms)",
+    "Trough (mV)",
+    "Trough at (ms)",
+    "Max dV/dt (mV/ms)",
+    "Half of final change (ms)",
+    "Spikes",
+    "First-spike latency (ms)",
+];
+
+fn number(v: f64, count: bool) -> String {
+    if count || v.abs() >= 1000.0 {
+        format!("{v:.0}")
+    } else {
+        format!("{v:.2}")
+    }
+}
+
+/// The "Compare" tab: the kept traces, the baseline, and the metrics table.
+pub fn show(ui: &mut Ui, kept: &Kept, can_keep: bool, commands: &mut Vec<Command>) {
+    debug_assert_eq!(ROW_LABELS.len(), METRIC_COLUMNS.len());
+    let cmd = |c: AnalysisCommand| Command::Analysis(c);
+    ui.horizontal(|ui| {
+        if ui
+            .add_enabled(can_keep, egui::Button::new("Keep trace  (Ctrl+K)"))
+            .on_hover_text("Keep the run shown now as a reference drawn over the plot")
+            .clicked()
+        {
+            commands.push(cmd(AnalysisCommand::Keep));
+        }
+        let any = kept.traces.iter().any(|t| t.metrics.is_some());
+        if ui
+            .add_enabled(any, egui::Button::new("Export table as CSV…"))
+            .clicked()
+        {
+            commands.push(Command::Export(ExportKind::MetricsCsv));
+        }
+    });
+    if kept.traces.is_empty() {
+        ui.label(
+            RichText::new(
+                "No kept traces yet. Run a scenario, press \"Keep trace\", change something \
+                 (an agent's dose, a bath) and run again to compare.",
+            )
+            .weak(),
+        );
+        return;
+    }
+    ui.add_space(4.0);
+    for (i, t) in kept.traces.iter().enumerate() {
+        ui.horizontal(|ui| {
+            let mut visible = t.visible;
+            if ui
+                .checkbox(&mut visible, "")
+                .on_hover_text("Show on the potential plot")
+                .changed()
+            {
+                commands.push(cmd(AnalysisCommand::SetKeptVisible(i, visible)));
+            }
+            let (rect, _) = ui.allocate_exact_size(egui::vec2(18.0, 4.0), egui::Sense::hover());
+            ui.painter().rect_filled(rect, 1.0, t.color);
+            let mut name = t.name.clone();
+            let edit = ui
+                .add(
+                    egui::TextEdit::singleline(&mut name)
+                        .desired_width(220.0)
+                        .id_salt(("kept name", t.id)),
+                )
+                .on_hover_text("Name of the kept trace (type to rename)");
+            if edit.changed() && !name.trim().is_empty() {
+                commands.push(cmd(AnalysisCommand::RenameKept(i, name)));
+            }
+            let samples = t.t_ms.len();
+            let until = t.t_ms.last().copied().unwrap_or(0.0);
+            ui.label(RichText::new(format!("{samples} samples to {until:.0} ms")).weak());
+            if ui
+                .small_button("Delete")
+                .on_hover_text(format!("Forget \"{}\"", t.name))
+                .clicked()
+            {
+                commands.push(cmd(AnalysisCommand::DeleteKept(i)));
+            }
+        });
+    }
+    ui.add_space(4.0);
+    ui.horizontal(|ui| {
+        let label = ui.label("Baseline");
+        let shown = kept
+            .baseline
+            .and_then(|b| kept.traces.get(b))
+            .map_or("none", |t| t.name.as_str());
+        egui::ComboBox::from_id_salt("baseline")
+            .selected_text(shown)
+            .show_ui(ui, |ui| {
+                if ui.selectable_label(kept.baseline.is_none(), "none").clicked() {
+                    commands.push(cmd(AnalysisCommand::SetBaseline(None)));
+                }
+                for (i, t) in kept.traces.iter().enumerate() {
+                    if ui.selectable_label(kept.baseline == Some(i), &t.name).clicked() {
+                        commands.push(cmd(AnalysisCommand::SetBaseline(Some(i))));
+                    }
+                }
+            })
+            .response
+            .labelled_by(label.id);
+    });
+    ui.add_space(4.0);
+    let base = kept
+        .baseline
+        .and_then(|b| kept.traces.get(b))
+        .and_then(|t| t.metrics);
+    egui::ScrollArea::both().id_salt("metrics table").show(ui, |ui| {
+        egui::Grid::new("metrics grid")
+            .striped(true)
+            .spacing([14.0, 4.0])
+            .show(ui, |ui| {
+                ui.label(RichText::new("Metric").strong());
+                for t in &kept.traces {
+                    ui.label(RichText::new(&t.name).strong().color(t.color));
+                }
+                ui.end_row();
+                for (r, row_label) in ROW_LABELS.iter().enumerate() {
+                    ui.label(*row_label);
+                    for (i, t) in kept.traces.iter().enumerate() {
+                        let Some(m) = &t.metrics else {
+                            ui.label("no samples");
+                            continue;
+                        };
+                        let value = cells(m)[r];
+                        let count = r == 8;
+                        let mut text = value.map_or("—".to_string(), |v| number(v, count));
+                        if let Some(b) = &base
+                            && kept.baseline != Some(i)
+                        {
+                            let d = delta_cells(&m.minus(b))[r];
+                            text += &match d {
+                                Some(d) if count => format!("  (Δ {d:+.0})"),
+                                Some(d) => format!("  (Δ {d:+.2})"),
+                                None => "  (Δ —)".into(),
+                            };
+                        }
+                        ui.label(text);
+                    }
+                    ui.end_row();
+                }
+            });
+    });
+    if base.is_some() && kept.traces.len() > 1 {
+        ui.label(
+            RichText::new("Δ: difference from the baseline (this trace minus the baseline).")
+                .small()
+                .weak(),
+        );
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn deleting_moves_the_baseline_with_its_trace() {
+        let s = Scenario::new_default();
+        let mut k = Kept::default();
+        for v in [-70.0, -60.0, -50.0] {
+            k.keep(&s, &[0.0, 1.0], &[v, v]);
+        }
+        k.set_baseline(Some(2));
+        k.delete(0);
+        assert_eq!(k.baseline, Some(1));
+        assert_eq!(k.traces[1].metrics.map(|m| m.final_mv), Some(-50.0));
+        k.delete(1);
+        assert_eq!(k.baseline, None);
+        // Ids are never reused, so a plot cache cannot confuse a new trace with a deleted one.
+        let id = k.keep(&s, &[0.0], &[-65.0]).id;
+        assert_eq!(id, 4);
+        let csv = k.metrics_csv();
+        assert_eq!(csv.lines().count(), 3, "{csv}");
+    }
+}
