@@ -108,6 +108,10 @@ impl Plots {
             .link_cursor(link, [true, false])
             .y_axis_label("Membrane potential (mV)")
             .y_axis_min_width(40.0)
+            .x_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
+            .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
+            .x_axis_formatter(nice_label)
+            .y_axis_formatter(nice_label)
             .label_formatter(|h| hover_label(h, "ms", "mV"))
             .show(ui, |pui| potential_items(&mut self.lines, pui, input));
 
@@ -137,6 +141,10 @@ impl Plots {
             .x_axis_label("Time (ms)")
             .y_axis_label(y_label)
             .y_axis_min_width(40.0)
+            .x_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
+            .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
+            .x_axis_formatter(nice_label)
+            .y_axis_formatter(nice_label)
             .legend(Legend::default().position(Corner::LeftTop).background_alpha(0.6));
         if let Some((lo, hi)) = fixed_y {
             lower = lower.default_y_bounds(lo, hi);
@@ -568,5 +576,65 @@ mod tests {
         assert_eq!(format_power_of_ten(-7.0), "1e-7");
         assert_eq!(format_power_of_ten(0.0), "1e0");
         assert_eq!(format_power_of_ten(-6.5), "3.2e-7");
+    }
+}
+
+/// Grid steps of 1, 2 or 5 × 10ⁿ giving about five labelled lines over the visible range, with
+/// finer unlabelled lines between. The default base-10 spacer jumps from 10 to 100 mV, which left
+/// a potential axis of −100..+60 mV with a single label.
+pub fn nice_steps(input: egui_plot::GridInput) -> [f64; 3] {
+    let span = (input.bounds.1 - input.bounds.0).abs().max(f64::MIN_POSITIVE);
+    let raw = span / 5.0;
+    let decade = 10f64.powf(raw.log10().floor());
+    let mantissa = [1.0, 2.0, 5.0, 10.0]
+        .into_iter()
+        .find(|&m| m * decade >= raw)
+        .unwrap_or(10.0);
+    // Finer steps stay on the 1-2-5 ladder (never 2.5) so every label is short and exact.
+    let (mid, fine) = match mantissa as u32 {
+        2 => (1.0, 0.2),
+        5 => (1.0, 0.5),
+        10 => (5.0, 1.0),
+        _ => (0.5, 0.1),
+    };
+    [fine * decade, mid * decade, mantissa * decade]
+}
+
+/// Axis labels with as many decimals as the step of their grid line needs (0.5 → one decimal),
+/// where egui_plot's default rounds the logarithm and prints a 0.5 step as "0" and "1".
+pub fn nice_label(mark: egui_plot::GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
+    let decimals = (-(mark.step_size.log10() + 1e-9).floor()).max(0.0) as usize;
+    format!("{:.*}", decimals, mark.value)
+}
+
+#[cfg(test)]
+mod nice_steps_tests {
+    use super::nice_steps;
+
+    #[test]
+    fn steps_are_one_two_five_and_give_about_five_labels() {
+        let steps = |lo, hi| {
+            nice_steps(egui_plot::GridInput {
+                bounds: (lo, hi),
+                base_step_size: 0.1,
+            })
+        };
+        assert_eq!(steps(-100.0, 60.0)[2], 50.0);
+        assert_eq!(steps(0.0, 250.0)[2], 50.0);
+        assert_eq!(steps(0.0, 1000.0)[2], 200.0);
+        assert_eq!(steps(-0.02, 1.02)[2], 0.5);
+        assert_eq!(steps(-0.9, 0.9), [0.05, 0.1, 0.5]);
+        assert_eq!(steps(0.0, 9.0), [0.2, 1.0, 2.0]);
+        assert_eq!(steps(0.0, 0.4), [0.01, 0.05, 0.1]);
+    }
+
+    #[test]
+    fn labels_keep_the_decimals_their_step_needs() {
+        let label =
+            |value, step_size| super::nice_label(egui_plot::GridMark { value, step_size }, &(0.0..=1.0));
+        assert_eq!(label(0.5, 0.5), "0.5");
+        assert_eq!(label(-50.0, 50.0), "-50");
+        assert_eq!(label(0.05, 0.05), "0.05");
+        assert_eq!(label(1.0, 1.0), "1");
     }
 }
