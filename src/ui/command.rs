@@ -516,7 +516,9 @@ fn new_channel(s: &Scenario, preset: ChannelPreset) -> Channel {
         ChannelPreset::HhSodium => Channel {
             label: label("fast sodium"),
             species: pick_species(s, &["Na+"]),
-            max_permeability_cm_per_s: 1.0e-5,
+            // Large enough beside a resting K+ permeability of ~5e-7 cm/s for spikes that
+            // overshoot 0 mV (the bundled excitable example uses the same pair).
+            max_permeability_cm_per_s: 1.0e-4,
             shift_mv: 0.0,
             q10: 3.0,
             reference_temperature_c: 6.3,
@@ -534,7 +536,7 @@ fn new_channel(s: &Scenario, preset: ChannelPreset) -> Channel {
         ChannelPreset::HhPotassium => Channel {
             label: label("delayed potassium"),
             species: pick_species(s, &["K+"]),
-            max_permeability_cm_per_s: 3.0e-6,
+            max_permeability_cm_per_s: 3.0e-5,
             shift_mv: 0.0,
             q10: 3.0,
             reference_temperature_c: 6.3,
