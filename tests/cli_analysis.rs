@@ -503,3 +503,34 @@ fn fit_bad_input_exits_2_naming_the_row_or_parameter() {
         stderr(&o)
     );
 }
+
+/// The bundled example data (`assets/bath-potassium-series.csv`, invented by us from
+/// P_Na/P_K = 0.05 and P_Cl/P_K = 0.3 with 0.3 mV of seeded noise) fits back to those ratios
+/// within three standard errors through the command a user would type.
+#[test]
+fn the_bundled_fit_example_recovers_its_ratios() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let out = run_in(
+        root,
+        &[
+            "fit",
+            "scenarios/resting-cell-normal-bath.ron",
+            "--data",
+            "assets/bath-potassium-series.csv",
+            "--vary",
+            "outside_mm:K+",
+            "--free",
+            "Na+,Cl-",
+            "--json",
+        ],
+    );
+    assert!(out.status.success(), "{}", stderr(&out));
+    let j: Value = serde_json::from_str(&stdout(&out)).expect("one JSON object");
+    for (name, truth) in [("Na+", 0.05), ("Cl-", 0.3)] {
+        let r = j["ratios"][name].as_f64().expect("a ratio");
+        let se = j["standard_errors"][name].as_f64().expect("a standard error");
+        assert!((r - truth).abs() <= 3.0 * se, "{name}: {r} ± {se}, truth {truth}");
+    }
+    let rms = j["rms_residual_mv"].as_f64().expect("rms");
+    assert!(rms > 0.1 && rms < 0.5, "rms residual {rms} mV for 0.3 mV noise");
+}
