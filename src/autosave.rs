@@ -99,14 +99,18 @@ impl Autosave {
 }
 
 /// Whether the process that wrote a session marker still runs (then its session is not a
-/// crash but another open window).
+/// crash but another open window). Windows open at once share the one autosave file: the
+/// last to write it wins.
 fn process_alive(pid: &str) -> bool {
     let Ok(pid) = pid.parse::<u32>() else { return false };
     if pid == std::process::id() {
         return false;
     }
+    // After a reboot the old number often belongs to another program: only a live permeant
+    // counts as "another open window".
     if cfg!(target_os = "linux") {
-        Path::new("/proc").join(pid.to_string()).exists()
+        std::fs::read_to_string(Path::new("/proc").join(pid.to_string()).join("comm"))
+            .is_ok_and(|name| name.trim().starts_with("permeant"))
     } else {
         false
     }
@@ -133,5 +137,18 @@ mod tests {
         assert_eq!(r.scenario.unwrap().title, "before the crash");
         assert_eq!(r.source, None);
         assert!(r.saved_at.is_some());
+    }
+
+    /// A marker whose number now belongs to another program (as after a reboot) is a crash,
+    /// not another open window: the autosave is offered back.
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn a_reused_process_number_still_counts_as_a_crash() {
+        let dir = tempfile::tempdir().unwrap();
+        let a = Autosave::at(dir.path().to_path_buf());
+        a.save(&Scenario::new_default(), None).unwrap();
+        // Process 1 always runs, and is never permeant.
+        std::fs::write(dir.path().join(MARKER_FILE), "1").unwrap();
+        assert!(a.begin_session().unwrap().is_some());
     }
 }

@@ -150,10 +150,11 @@ pub fn set_number_at(s: &mut Scenario, path: &str, value: f64) -> Result<(), Pat
         value,
         reason,
     };
-    let new = if old.is_u64() {
-        Number::from(whole(0)?)
-    } else if old.is_i64() {
+    // Signed first: a charge stored as 1 is still a signed field that may become −1.
+    let new = if old.is_i64() && !is_unsigned_field(path) {
         Number::from(whole(i64::MIN)?)
+    } else if old.is_u64() {
+        Number::from(whole(0)?)
     } else {
         Number::from_f64(value).ok_or_else(|| refused("not a finite number".into()))?
     };
@@ -192,6 +193,16 @@ pub fn number_paths(s: &Scenario) -> Vec<String> {
     walk(&to_value(s), "", &mut out);
     out.retain(|p| p != "format");
     out
+}
+
+/// Whether the field at `path` is an unsigned whole number in the file (a count or a power),
+/// as opposed to a signed one (a charge).
+fn is_unsigned_field(path: &str) -> bool {
+    let last = path.rsplit('.').next().unwrap_or(path);
+    matches!(
+        last,
+        "exported_per_cycle" | "imported_per_cycle" | "power" | "count" | "format"
+    )
 }
 
 #[cfg(test)]
@@ -346,5 +357,26 @@ mod tests {
             set_number_at(&mut t, p, v).unwrap_or_else(|e| panic!("{p}: {e}"));
             assert_eq!(t, s, "{p}");
         }
+    }
+
+    #[test]
+    fn a_charge_can_become_negative_and_a_power_cannot() {
+        let mut s = Scenario::new_default();
+        set_number_at(&mut s, "species[0].charge", -1.0).unwrap();
+        assert_eq!(s.species[0].charge, -1);
+        s.channels.push(crate::scenario::Channel {
+            label: "k".into(),
+            species: "K+".into(),
+            max_permeability_cm_per_s: 1e-6,
+            shift_mv: 0.0,
+            q10: 3.0,
+            reference_temperature_c: 6.3,
+            gates: vec![crate::scenario::Gate {
+                kinetics: crate::physics::Kinetics::HhPotassiumActivation,
+                power: 4,
+            }],
+        });
+        assert!(set_number_at(&mut s, "channels[0].gates[0].power", -2.0).is_err());
+        assert_eq!(s.channels[0].gates[0].power, 4);
     }
 }

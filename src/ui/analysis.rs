@@ -590,6 +590,8 @@ pub fn plot_x(v: f64, log: bool) -> f64 {
 
 /// A plot of potentials against an input, with a log axis when `log`.
 pub fn potential_plot(id: &str, x_label: String, log: bool, height: f32) -> Plot<'static> {
+    // The hover text names the input with its unit, as the axis does.
+    let hover_x = x_label.clone();
     Plot::new(id.to_string())
         .height(height)
         .x_axis_label(if log {
@@ -618,7 +620,7 @@ pub fn potential_plot(id: &str, x_label: String, log: bool, height: f32) -> Plot
             } else {
                 format!("{name}\n")
             };
-            Some(format!("{head}{}\n{:.2} mV", short(x), p.y))
+            Some(format!("{head}{hover_x}: {}\n{:.2} mV", short(x), p.y))
         })
 }
 

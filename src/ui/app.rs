@@ -286,16 +286,21 @@ impl App {
             Command::New => self.guarded(Pending::New, ctx),
             Command::Open => self.guarded(Pending::Open, ctx),
             Command::OpenPath(p) => self.guarded(Pending::OpenPath(p), ctx),
+            Command::OpenChosen(p) => {
+                self.dialog = None;
+                self.perform(Pending::OpenPath(p), ctx);
+            }
             Command::OpenExample(name) => self.guarded(Pending::OpenExample(name), ctx),
             Command::Quit => self.guarded(Pending::Quit, ctx),
             Command::Save => match self.doc.path().map(PathBuf::from) {
-                Some(p) => self.save_to(p, ctx),
+                // The document's own file is written back as it is named, extension or not.
+                Some(p) => self.save_to(p, false, ctx),
                 None => self.choose_file(FilePurpose::Save, ctx),
             },
             Command::SaveAs => self.choose_file(FilePurpose::Save, ctx),
             Command::SaveTo(p) => {
                 self.dialog = None;
-                self.save_to(p, ctx);
+                self.save_to(p, true, ctx);
             }
             Command::TypePath(purpose) => {
                 self.dialog = Some(Dialog::TypePath {
@@ -444,7 +449,7 @@ impl App {
         match answer {
             // The unsaved-changes question was asked before the dialog opened.
             Chosen::File(FilePurpose::Open, p) => self.perform(Pending::OpenPath(p), ctx),
-            Chosen::File(FilePurpose::Save, p) => self.save_to(p, ctx),
+            Chosen::File(FilePurpose::Save, p) => self.save_to(p, true, ctx),
             Chosen::File(FilePurpose::Export(kind), p) => self.export_to(kind, &p, ctx),
             Chosen::File(FilePurpose::FitData, p) => {
                 self.analysis
@@ -460,8 +465,9 @@ impl App {
         }
     }
 
-    fn save_to(&mut self, mut path: PathBuf, ctx: &egui::Context) {
-        if path.extension().is_none() {
+    /// Saves the scenario; a newly chosen name without an extension gets `.ron`.
+    fn save_to(&mut self, mut path: PathBuf, new_name: bool, ctx: &egui::Context) {
+        if new_name && path.extension().is_none() {
             path.set_extension("ron");
         }
         match scenario::save_atomic(&self.doc.scenario, &path) {

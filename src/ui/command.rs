@@ -26,6 +26,9 @@ pub enum Command {
     Open,
     /// Open this file (asks first when there are unsaved changes).
     OpenPath(PathBuf),
+    /// Open the file typed into the path field of an Open that already asked about unsaved
+    /// changes (the typed-path twin of a file chosen in the native dialog).
+    OpenChosen(PathBuf),
     /// Open a bundled example by file name (asks first when there are unsaved changes).
     OpenExample(String),
     /// Save to the present file, or ask for one.

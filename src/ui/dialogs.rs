@@ -133,7 +133,7 @@ pub fn show(ui: &Ui, dialog: &mut Dialog, commands: &mut Vec<Command>) {
                     if (go.clicked() || submitted) && !text.trim().is_empty() {
                         let path = PathBuf::from(text.trim());
                         commands.push(match purpose {
-                            FilePurpose::Open => Command::OpenPath(path),
+                            FilePurpose::Open => Command::OpenChosen(path),
                             FilePurpose::Save => Command::SaveTo(path),
                             FilePurpose::Export(kind) => Command::ExportTo(*kind, path),
                             FilePurpose::FitData => {

@@ -218,7 +218,7 @@ fn result_view(ui: &mut Ui, out: &FitOutput) {
                     .spacing([10.0, 2.0])
                     .show(ui, |ui| {
                         ui.label(RichText::new("Row").strong());
-                        ui.label(RichText::new(out.vary.unit()).strong());
+                        ui.label(RichText::new(out.vary.label()).strong());
                         ui.label(RichText::new("Measured (mV)").strong());
                         ui.label(RichText::new("Residual (mV)").strong());
                         ui.end_row();

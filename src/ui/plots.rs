@@ -347,7 +347,7 @@ fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, inp
                 .derived
                 .reversal_mv
                 .get(i)
-                .filter(|col| col.iter().any(|e| e.is_finite()));
+                .filter(|_| input.derived.varying.get(i) == Some(&true));
             let (e_label, line_at) = match along {
                 Some(col) => {
                     let points = series(lines, pui, input, col, format!("E {}", row.name), c, 1.5);

@@ -28,6 +28,8 @@ pub struct Derived {
     /// change during the run (bath exchanges, tracked inside concentrations); not a number for
     /// the others, whose reversal potential is the file's.
     pub reversal_mv: Vec<Vec<f64>>,
+    /// Whether each species' concentrations change during the run (so `reversal_mv` holds it).
+    pub varying: Vec<bool>,
     /// Samples done for the currents and for the permeabilities.
     currents_done: usize,
     perms_done: usize,
@@ -66,6 +68,7 @@ impl Derived {
         let mut out = vec![0.0; n_species];
         let varying = concentrations_vary(run.model());
         let any_varying = varying.iter().any(|v| *v);
+        self.varying.clone_from(&varying);
         while self.currents_done < len {
             let k = self.currents_done;
             let t = run.trace().t_ms[k];
