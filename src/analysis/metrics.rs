@@ -8,7 +8,7 @@ use rayon::prelude::*;
 
 use super::sweep::{SweepControl, SweepError, SweepRange, Vary, apply, sweep};
 use crate::engine::{EngineError, Run, SolverSettings};
-use crate::scenario::{Event, Scenario};
+use crate::scenario::Scenario;
 
 /// How spikes are counted: an upward crossing of `threshold_mv` counts once, and the counter
 /// re-arms only after V has fallen below `threshold_mv − hysteresis_mv`, so noise or a notch
@@ -195,7 +195,7 @@ impl TraceMetrics {
     }
 
     /// Values in [`METRIC_COLUMNS`] order.
-    fn cells(&self) -> [Option<f64>; 10] {
+    pub fn cells(&self) -> [Option<f64>; 10] {
         [
             Some(self.before_first_event_mv),
             Some(self.final_mv),
@@ -212,7 +212,8 @@ impl TraceMetrics {
 }
 
 impl MetricsDelta {
-    fn cells(&self) -> [Option<f64>; 10] {
+    /// Differences in [`METRIC_COLUMNS`] order.
+    pub fn cells(&self) -> [Option<f64>; 10] {
         [
             Some(self.before_first_event_mv),
             Some(self.final_mv),
@@ -363,16 +364,7 @@ pub fn dose_response(
             })
             .collect::<Result<_, _>>()?,
     };
-    let ic50_um = s
-        .protocol
-        .iter()
-        .find_map(|e| match e {
-            Event::Agent {
-                label: l, ic50_um, ..
-            } if l == label => Some(*ic50_um),
-            _ => None,
-        })
-        .unwrap_or(f64::NAN);
+    let ic50_um = s.agent_ic50_um(label).unwrap_or(f64::NAN);
     let points: Vec<DosePoint> = steady
         .iter()
         .zip(spikes)

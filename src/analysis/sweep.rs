@@ -72,13 +72,6 @@ fn quoted_list<'a>(names: impl Iterator<Item = &'a str>) -> String {
     names.map(|n| format!("\"{n}\"")).collect::<Vec<_>>().join(", ")
 }
 
-fn agent_labels(s: &Scenario) -> impl Iterator<Item = &str> {
-    s.protocol.iter().filter_map(|e| match e {
-        Event::Agent { label, .. } => Some(label.as_str()),
-        _ => None,
-    })
-}
-
 impl Vary {
     /// Parses the command-line spelling and checks that the species or agent exists in `s`.
     pub fn parse(text: &str, s: &Scenario) -> Result<Vary, SweepError> {
@@ -115,7 +108,7 @@ impl Vary {
                 .iter()
                 .position(|e| matches!(e, Event::Agent { label: l, .. } if l == label))
                 .ok_or_else(|| {
-                    let labels: Vec<&str> = agent_labels(s).collect();
+                    let labels: Vec<&str> = s.agent_labels().collect();
                     let choices = if labels.is_empty() {
                         "the scenario has no agents".to_string()
                     } else {

@@ -263,6 +263,24 @@ impl Scenario {
             .collect()
     }
 
+    /// Labels of the protocol's agents, in file order.
+    pub fn agent_labels(&self) -> impl Iterator<Item = &str> {
+        self.protocol.iter().filter_map(|e| match e {
+            Event::Agent { label, .. } => Some(label.as_str()),
+            _ => None,
+        })
+    }
+
+    /// The IC50 (µM) of the agent labelled `label`.
+    pub fn agent_ic50_um(&self, label: &str) -> Option<f64> {
+        self.protocol.iter().find_map(|e| match e {
+            Event::Agent {
+                label: l, ic50_um, ..
+            } if l == label => Some(*ic50_um),
+            _ => None,
+        })
+    }
+
     /// Index of the species called `name`.
     pub fn species_index(&self, name: &str) -> Option<usize> {
         self.species.iter().position(|s| s.name == name)

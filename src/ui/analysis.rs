@@ -18,7 +18,7 @@ use super::kept::{self, Kept};
 use super::theme::{neutral_color, potential_color, species_color};
 use crate::analysis::metrics::{DoseResponse, SpikeSettings, dose_response};
 use crate::analysis::sweep::{NernstLine, SweepControl, SweepPoint, SweepRange, Vary, nernst_line, sweep};
-use crate::scenario::{Event, Scenario};
+use crate::scenario::Scenario;
 
 /// What the analysis window asks for (inside [`Command::Analysis`]).
 #[derive(Debug, Clone, PartialEq)]
@@ -82,19 +82,8 @@ pub fn vary_choices(s: &Scenario) -> Vec<Vary> {
         out.push(Vary::InsideMm(sp.name.clone()));
         out.push(Vary::Permeability(sp.name.clone()));
     }
-    out.extend(agent_labels(s).into_iter().map(Vary::DoseUm));
+    out.extend(s.agent_labels().map(|l| Vary::DoseUm(l.to_string())));
     out
-}
-
-/// Labels of the scenario's agents.
-pub fn agent_labels(s: &Scenario) -> Vec<String> {
-    s.protocol
-        .iter()
-        .filter_map(|e| match e {
-            Event::Agent { label, .. } => Some(label.clone()),
-            _ => None,
-        })
-        .collect()
 }
 
 /// A sensible range for `vary` around its value in `s`: a decade each way for concentrations,
@@ -232,17 +221,12 @@ impl Analysis {
                 vary,
             });
         }
-        let agents = agent_labels(s);
+        let agents: Vec<String> = s.agent_labels().map(str::to_string).collect();
         let stale = self.dose_form.as_ref().is_none_or(|f| !agents.contains(&f.label));
         if stale {
             self.dose_form = agents.first().map(|label| {
                 let r = default_range(s, &Vary::DoseUm(label.clone()));
-                let ic50 = s.protocol.iter().find_map(|e| match e {
-                    Event::Agent {
-                        label: l, ic50_um, ..
-                    } if l == label => Some(*ic50_um),
-                    _ => None,
-                });
+                let ic50 = s.agent_ic50_um(label);
                 let (from_um, to_um) = match ic50 {
                     Some(c) if c > 0.0 => (c / 100.0, c * 100.0),
                     _ => (r.from, r.to),

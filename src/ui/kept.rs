@@ -7,9 +7,7 @@ use egui::{Color32, RichText, Ui};
 use super::analysis::AnalysisCommand;
 use super::command::Command;
 use super::export::ExportKind;
-use crate::analysis::metrics::{
-    METRIC_COLUMNS, MetricsDelta, SpikeSettings, TraceMetrics, first_event_ms, trace_metrics,
-};
+use crate::analysis::metrics::{METRIC_COLUMNS, SpikeSettings, TraceMetrics, first_event_ms, trace_metrics};
 use crate::scenario::Scenario;
 
 /// Colours of kept traces, in the order they are handed out: Okabe–Ito colours that the
@@ -111,37 +109,6 @@ impl Kept {
         }
         crate::analysis::metrics::metrics_csv(&rows, baseline)
     }
-}
-
-/// A metric's value as shown, with its unit in the row label.
-fn cells(m: &TraceMetrics) -> [Option<f64>; 10] {
-    [
-        Some(m.before_first_event_mv),
-        Some(m.final_mv),
-        Some(m.peak_mv),
-        Some(m.peak_t_ms),
-        Some(m.trough_mv),
-        Some(m.trough_t_ms),
-        m.max_dvdt_mv_per_ms,
-        m.half_change_ms,
-        Some(m.spike_count as f64),
-        m.first_spike_latency_ms,
-    ]
-}
-
-fn delta_cells(d: &MetricsDelta) -> [Option<f64>; 10] {
-    [
-        Some(d.before_first_event_mv),
-        Some(d.final_mv),
-        Some(d.peak_mv),
-        Some(d.peak_t_ms),
-        Some(d.trough_mv),
-        Some(d.trough_t_ms),
-        d.max_dvdt_mv_per_ms,
-        d.half_change_ms,
-        Some(d.spike_count as f64),
-        d.first_spike_latency_ms,
-    ]
 }
 
 /// Row labels in plain words, in the order of [`METRIC_COLUMNS`].
@@ -276,13 +243,13 @@ pub fn show(ui: &mut Ui, kept: &Kept, can_keep: bool, commands: &mut Vec<Command
                             ui.label("no samples");
                             continue;
                         };
-                        let value = cells(m)[r];
+                        let value = m.cells()[r];
                         let count = r == 8;
                         let mut text = value.map_or("—".to_string(), |v| number(v, count));
                         if let Some(b) = &base
                             && kept.baseline != Some(i)
                         {
-                            let d = delta_cells(&m.minus(b))[r];
+                            let d = m.minus(b).cells()[r];
                             text += &match d {
                                 Some(d) if count => format!("  (Δ {d:+.0})"),
                                 Some(d) => format!("  (Δ {d:+.2})"),
