@@ -61,10 +61,12 @@ impl Derived {
         self.species = names.to_vec();
     }
 
-    /// Computes currents (and changing reversal potentials) for every sample not yet done.
+    /// Computes currents (and changing reversal potentials) for samples not yet done, at most
+    /// [`DERIVED_PER_FRAME`] a frame: a tiny sample interval at the fastest speed can add more
+    /// samples in one frame than their currents take to compute within it.
     fn update_currents(&mut self, run: &mut Run, scratch: &mut Vec<f64>) {
         let n_species = run.model().species_count();
-        let len = run.trace().len();
+        let len = run.trace().len().min(self.currents_done + DERIVED_PER_FRAME);
         let mut out = vec![0.0; n_species];
         let varying = concentrations_vary(run.model());
         let any_varying = varying.iter().any(|v| *v);
@@ -104,7 +106,7 @@ impl Derived {
     /// Computes permeabilities for every sample not yet done.
     fn update_perms(&mut self, run: &mut Run, scratch: &mut Vec<f64>) {
         // Catching up on a long trace (the view was just switched on) is spread over frames.
-        let len = run.trace().len().min(self.perms_done + PERMS_PER_FRAME);
+        let len = run.trace().len().min(self.perms_done + DERIVED_PER_FRAME);
         while self.perms_done < len {
             let k = self.perms_done;
             scratch.resize(run.trace().columns.len(), 0.0);
@@ -141,8 +143,8 @@ pub fn concentrations_vary(model: &crate::engine::Model) -> Vec<bool> {
     v
 }
 
-/// Samples whose permeabilities are computed per frame at most.
-const PERMS_PER_FRAME: usize = 50_000;
+/// Samples whose derived quantities (currents, permeabilities) are computed per frame at most.
+const DERIVED_PER_FRAME: usize = 50_000;
 
 /// Accepted steps per second of wall time, over the last half second or so.
 #[derive(Debug, Clone, Default)]
@@ -357,11 +359,12 @@ impl Runtime {
     pub fn update_derived(&mut self, with_permeabilities: bool) -> bool {
         let Some(run) = &mut self.run else { return false };
         self.derived.update_currents(run, &mut self.scratch);
+        let currents_behind = self.derived.currents_done < run.trace().len();
         if with_permeabilities {
             self.derived.update_perms(run, &mut self.scratch);
-            return self.derived.perms_done < run.trace().len();
+            return currents_behind || self.derived.perms_done < run.trace().len();
         }
-        false
+        currents_behind
     }
 
     /// Simulated time shown, ms.
