@@ -116,6 +116,8 @@ impl Plots {
             .show(ui, |pui| potential_items(&mut self.lines, pui, input));
 
         ui.horizontal(|ui| {
+            // Clear of the lower plot's rotated axis label, which can be taller than its plot.
+            ui.add_space(ui.spacing().interact_size.y * 1.5);
             ui.label(RichText::new("Below:").small());
             for choice in LowerPlot::ALL {
                 if ui
@@ -126,10 +128,13 @@ impl Plots {
                     commands.push(Command::SetLowerPlot(choice));
                 }
             }
+            if input.lower == LowerPlot::Currents {
+                ui.label(RichText::new("outward current positive").small().weak());
+            }
         });
 
         let (y_label, fixed_y) = match input.lower {
-            LowerPlot::Currents => ("Current (µA/cm², outward +)", None),
+            LowerPlot::Currents => ("Current (µA/cm²)", None),
             LowerPlot::Permeabilities => ("log₁₀ permeability (cm/s)", None),
             LowerPlot::Gates => ("Open fraction", Some((-0.02, 1.02))),
         };
