@@ -12,6 +12,7 @@ use permeant::analysis::fit::{DataPoint, FitSpace, fit};
 use permeant::analysis::rest_report;
 use permeant::analysis::sweep::{SweepControl, SweepRange, Vary, apply, sweep};
 use permeant::physics::Kinetics;
+use permeant::scenario::validate;
 use permeant::scenario::{Channel, Gate, Scenario, Species};
 
 fn species(name: &str, charge: i32, inside_mm: f64, outside_mm: f64, p_cm_per_s: f64) -> Species {
@@ -109,7 +110,7 @@ fn bench_fit(c: &mut Criterion) {
         .iter()
         .enumerate()
         .map(|(k, &x)| {
-            let v = rest_report(&apply(&truth, &vary, x).expect("applies"))
+            let v = rest_report(&validate(apply(&truth, &vary, x).expect("applies")).expect("valid"))
                 .expect("report")
                 .resting_mv()
                 .expect("rest");
@@ -173,6 +174,18 @@ fn bench_kept_traces(c: &mut Criterion) {
             })
         },
     );
+    #[cfg(feature = "gui")]
+    bench_kept_traces_drawn(c, &traces, columns, next_range);
+}
+
+/// The drawing half of [`bench_kept_traces`]: only with the window's crates.
+#[cfg(feature = "gui")]
+fn bench_kept_traces_drawn(
+    c: &mut Criterion,
+    traces: &[(Vec<f64>, Vec<f64>)],
+    columns: usize,
+    mut next_range: impl FnMut() -> (f64, f64),
+) {
     let ctx = egui::Context::default();
     let input = || egui::RawInput {
         screen_rect: Some(egui::Rect::from_min_size(

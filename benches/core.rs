@@ -14,14 +14,14 @@ use std::time::{Duration, Instant};
 use criterion::{Criterion, criterion_group};
 use permeant::analysis::rest_report;
 use permeant::engine::{Method, Run, SolverSettings};
-use permeant::scenario::{Event, Scenario, read_file};
+use permeant::scenario::{Event, Scenario, Valid, read_file};
 
 fn scenario_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios")
 }
 
 /// Every bundled scenario, by file name, in name order.
-fn bundled() -> Vec<(String, Scenario)> {
+fn bundled() -> Vec<(String, Valid)> {
     let mut files: Vec<PathBuf> = std::fs::read_dir(scenario_dir())
         .map(|d| d.filter_map(|e| e.ok().map(|e| e.path())).collect())
         .unwrap_or_default();
@@ -43,7 +43,9 @@ fn bundled() -> Vec<(String, Scenario)> {
 }
 
 fn load(name: &str) -> Option<Scenario> {
-    read_file(&scenario_dir().join(format!("{name}.ron"))).ok()
+    read_file(&scenario_dir().join(format!("{name}.ron")))
+        .ok()
+        .map(Valid::into_inner)
 }
 
 /// The excitable example for one second under a 10 Hz train of its own pulses.
@@ -97,7 +99,8 @@ fn run_with(s: &Scenario, method: Method) -> Run {
         method,
         ..Default::default()
     };
-    let mut r = Run::new(s, settings).expect("bundled scenario starts");
+    let s = permeant::scenario::validate(s.clone()).expect("bundled scenarios are valid");
+    let mut r = Run::new(&s, settings).expect("bundled scenario starts");
     r.run_to_end().expect("bundled scenario runs");
     r
 }
@@ -113,8 +116,10 @@ fn status_mb(field: &str) -> Option<f64> {
 /// Step statistics of every run measured here, and the memory of a million-sample run.
 fn report() {
     println!("step statistics at default settings (accepted, rejected, evaluations, Jacobians):");
-    let mut cases: Vec<(String, Scenario, Method)> =
-        bundled().into_iter().map(|(n, s)| (n, s, Method::Auto)).collect();
+    let mut cases: Vec<(String, Scenario, Method)> = bundled()
+        .into_iter()
+        .map(|(n, s)| (n, s.into_inner(), Method::Auto))
+        .collect();
     if let Some(s) = excitable_second() {
         cases.push(("excitable, 1 s at 10 Hz".into(), s.clone(), Method::Auto));
         cases.push(("  same, explicit only".into(), s.clone(), Method::Explicit));

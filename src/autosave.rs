@@ -7,7 +7,7 @@
 use std::path::{Path, PathBuf};
 use std::time::SystemTime;
 
-use crate::scenario::{Scenario, ScenarioError, read_file, save_atomic, write_atomic};
+use crate::scenario::{Scenario, ScenarioError, Valid, read_file, save_atomic, write_atomic};
 
 /// How often the window autosaves, seconds.
 pub const INTERVAL_S: u64 = 30;
@@ -35,7 +35,7 @@ pub struct Autosave {
 /// What a previous session left behind when it did not end cleanly.
 #[derive(Debug)]
 pub struct Recovered {
-    pub scenario: Result<Scenario, ScenarioError>,
+    pub scenario: Result<Valid, ScenarioError>,
     /// The file the scenario was opened from or saved to, if any.
     pub source: Option<PathBuf>,
     pub saved_at: Option<SystemTime>,

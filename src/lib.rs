@@ -2,7 +2,11 @@
 //! and permeabilities, at rest and over time.
 //!
 //! The core (`constants`, `physics`, `scenario`, `engine`, `analysis`, `report`) has no UI
-//! dependency; `cli` and `ui` are thin fronts over it.
+//! dependency; `cli` and `ui` are thin fronts over it. The window is behind the default `gui`
+//! feature, so building without it (`--no-default-features`) proves that the core compiles
+//! without any GUI crate.
+
+#![forbid(unsafe_code)]
 
 pub mod analysis;
 pub mod autosave;
@@ -15,4 +19,5 @@ pub mod palette;
 pub mod physics;
 pub mod report;
 pub mod scenario;
+#[cfg(feature = "gui")]
 pub mod ui;

@@ -8,6 +8,8 @@
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 
+mod common;
+use common::valid;
 use permeant::analysis::fit::{DataError, DataPoint, FitError, FitSpace, fit, parse_points};
 use permeant::analysis::metrics::{SpikeSettings, dose_response, first_event_ms, trace_metrics};
 use permeant::analysis::rest_report;
@@ -140,7 +142,7 @@ fn synthetic(s: &Scenario, vary: &Vary, values: &[f64], noise: &mut dyn FnMut() 
         .iter()
         .enumerate()
         .map(|(k, &x)| {
-            let r = rest_report(&apply(s, vary, x).expect("applies")).expect("report");
+            let r = rest_report(&valid(&apply(s, vary, x).expect("applies"))).expect("report");
             DataPoint {
                 value: x,
                 v_mv: r.resting_mv().expect("defined") + noise(),
@@ -266,7 +268,7 @@ fn sweep_points_equal_single_rest_reports() {
         assert_eq!(pts.len(), 7);
         assert_eq!((pts[0].value, pts[6].value), (from, to), "ends are exact");
         for p in &pts {
-            let r = rest_report(&apply(&s, &vary, p.value).expect("applies")).expect("report");
+            let r = rest_report(&valid(&apply(&s, &vary, p.value).expect("applies"))).expect("report");
             assert_eq!(p.ghk_mv, r.ghk_mv.as_ref().ok().copied(), "{what} = {}", p.value);
             assert_eq!(p.resting_mv, r.resting_mv(), "{what} = {}", p.value);
             assert!(
@@ -705,13 +707,13 @@ fn passive_step_response_has_the_membrane_time_constant() {
     }];
     s.run.duration_ms = 200.0;
     s.run.sample_ms = 0.02;
-    let mut run = Run::new(&s, SolverSettings::default()).expect("run");
+    let mut run = Run::new(&valid(&s), SolverSettings::default()).expect("run");
     run.run_to_end().expect("runs");
     let tr = run.trace();
     let m =
         trace_metrics(&tr.t_ms, tr.v_mv(), first_event_ms(&s), SpikeSettings::default()).expect("metrics");
 
-    let mut model = Model::new(&s).expect("model");
+    let mut model = Model::new(&valid(&s)).expect("model");
     let v0 = model.steady_state_at_start().resting_mv.expect("rest");
     let (inside, outside, factor) = model.membrane.file_values();
     let cond = Conditions {
@@ -759,7 +761,7 @@ fn sodium_blocker_dose_response_silences_an_excitable_cell() {
     // clearly suprathreshold pulses).
     let mut control = s.clone();
     control.protocol.retain(|e| !matches!(e, Event::Agent { .. }));
-    let mut run = Run::new(&control, SolverSettings::default()).expect("run");
+    let mut run = Run::new(&valid(&control), SolverSettings::default()).expect("run");
     run.run_to_end().expect("runs");
     let m = trace_metrics(
         &run.trace().t_ms,

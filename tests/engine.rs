@@ -9,17 +9,21 @@ use std::cell::RefCell;
 use std::path::Path;
 
 use ode_solvers::{DVector, Dop853, OutputType};
+mod common;
+use common::valid;
 use permeant::analysis::rest_report;
 use permeant::engine::{Budget, EngineError, Method, Model, Progress, Run, SolverSettings};
 use permeant::physics::ghk_current_ua_per_cm2;
 use permeant::scenario::{Scenario, Start, from_str, read_file};
 
 fn scenario(text: &str) -> Scenario {
-    from_str(text, "test scenario").expect("test scenario reads")
+    from_str(text, "test scenario")
+        .expect("test scenario reads")
+        .into_inner()
 }
 
 fn run_to_end(s: &Scenario, settings: SolverSettings) -> Run {
-    let mut r = Run::new(s, settings).expect("run starts");
+    let mut r = Run::new(&valid(s), settings).expect("run starts");
     r.run_to_end().expect("run finishes");
     r
 }
@@ -130,7 +134,7 @@ fn small_displacement_relaxes_with_c_over_slope_conductance() {
     // slope conductance dI/dV of the net current at rest (linearized RC membrane; common
     // practice). g is computed here by a central difference of the GHK currents themselves.
     let probe = passive("", 1.0, 1.0, "Rest");
-    let rest_mv = rest_report(&probe).unwrap().ghk_mv.unwrap();
+    let rest_mv = rest_report(&valid(&probe)).unwrap().ghk_mv.unwrap();
     let dv = 1e-3;
     let g_ms_per_cm2 =
         (passive_current(&probe, rest_mv + dv) - passive_current(&probe, rest_mv - dv)) / (2.0 * dv);
@@ -225,7 +229,7 @@ impl ode_solvers::System<f64, DVector<f64>> for Reference<'_> {
 /// at tolerance 1e-11, restarted at every command edge (with the model's commands set for
 /// the segment, as the engine does) and at every output time, so that no interpolation enters.
 fn reference_v_mv(s: &Scenario, times: &[f64]) -> Vec<f64> {
-    let mut model = Model::new(s).unwrap();
+    let mut model = Model::new(&valid(s)).unwrap();
     let mut y = model.initial_state().unwrap();
     let model = RefCell::new(model);
     let mut t = 0.0;
@@ -288,7 +292,9 @@ fn bundled() -> Vec<(String, Scenario)> {
     files
         .into_iter()
         .map(|p| {
-            let s = read_file(&p).unwrap_or_else(|e| panic!("{}: {e}", p.display()));
+            let s = read_file(&p)
+                .unwrap_or_else(|e| panic!("{}: {e}", p.display()))
+                .into_inner();
             (p.file_name().unwrap().to_string_lossy().into_owned(), s)
         })
         .collect()
@@ -419,7 +425,7 @@ fn action_potentials_are_all_or_none_and_overshoot() {
     // HH 1952: a stimulus below threshold gives a small graded response, one above it a full
     // action potential that overshoots 0 mV, of nearly the same height for a stimulus four
     // times stronger (from memory: the computed spikes of their Fig. 12).
-    let rest = rest_report(&excitable(6.3, "", 10.0))
+    let rest = rest_report(&valid(&excitable(6.3, "", 10.0)))
         .unwrap()
         .resting_mv()
         .unwrap();
@@ -543,8 +549,8 @@ fn a_bath_change_ends_at_the_new_ghk_potential() {
     let mut changed = s.clone();
     changed.protocol.clear();
     changed.species[0].outside_mm = 20.0;
-    let before = rest_report(&s).unwrap().ghk_mv.unwrap();
-    let after = rest_report(&changed).unwrap().ghk_mv.unwrap();
+    let before = rest_report(&valid(&s)).unwrap().ghk_mv.unwrap();
+    let after = rest_report(&valid(&changed)).unwrap().ghk_mv.unwrap();
     assert!(after - before > 10.0, "the change should depolarize clearly");
     assert!((r.trace().v_mv()[0] - before).abs() < 1e-6);
     assert!(
@@ -574,7 +580,7 @@ fn an_agent_at_its_ic50_halves_the_target_permeability() {
     let mut halved = s.clone();
     halved.protocol.clear();
     halved.species[0].permeability_cm_per_s *= 0.5;
-    let expected = rest_report(&halved).unwrap().ghk_mv.unwrap();
+    let expected = rest_report(&valid(&halved)).unwrap().ghk_mv.unwrap();
     assert!(
         (r.v_mv() - expected).abs() < 1e-4,
         "ended at {} mV, GHK with P_K halved {expected} mV",
@@ -622,14 +628,14 @@ fn advancing_in_small_chunks_gives_the_same_samples() {
         60.0,
     );
     let whole = run_to_end(&s, SolverSettings::default());
-    let mut by_steps = Run::new(&s, SolverSettings::default()).unwrap();
+    let mut by_steps = Run::new(&valid(&s), SolverSettings::default()).unwrap();
     let mut calls = 0;
     while by_steps.advance(Budget::steps(7)).unwrap() == Progress::Running {
         calls += 1;
     }
     assert!(calls > 10);
     assert_eq!(by_steps.trace(), whole.trace());
-    let mut by_time = Run::new(&s, SolverSettings::default()).unwrap();
+    let mut by_time = Run::new(&valid(&s), SolverSettings::default()).unwrap();
     let mut until = 0.0;
     while by_time
         .advance(Budget {
@@ -650,7 +656,7 @@ fn an_edit_mid_run_continues_from_the_present_state() {
     // Changing the bath in the file mid-run: V carries over unchanged, time goes on, the new
     // value takes effect at once, and the run ends at the new GHK potential.
     let s = passive("", 300.0, 0.1, "Rest");
-    let mut r = Run::new(&s, SolverSettings::default()).unwrap();
+    let mut r = Run::new(&valid(&s), SolverSettings::default()).unwrap();
     r.advance(Budget {
         until_ms: 50.0,
         max_steps: u64::MAX,
@@ -660,7 +666,7 @@ fn an_edit_mid_run_continues_from_the_present_state() {
     assert!((50.0..300.0).contains(&t_edit));
     let mut edited = s.clone();
     edited.species[0].outside_mm = 20.0;
-    r.update_scenario(&edited).unwrap();
+    r.update_scenario(&valid(&edited)).unwrap();
     assert_eq!((r.t_ms(), r.v_mv(), r.trace().len()), (t_edit, v_edit, rows));
     r.run_to_end().unwrap();
     let t = &r.trace().t_ms;
@@ -671,7 +677,7 @@ fn an_edit_mid_run_continues_from_the_present_state() {
     let k = rows; // first sample after the edit
     assert!((v[k - 1] - v[0]).abs() < 1e-6);
     assert!(v[k + 5] > v[k - 1] + 0.1);
-    let expected = rest_report(&edited).unwrap().ghk_mv.unwrap();
+    let expected = rest_report(&valid(&edited)).unwrap().ghk_mv.unwrap();
     assert!(
         (r.v_mv() - expected).abs() < 1e-4,
         "ended at {} mV, GHK {expected} mV",
@@ -683,7 +689,7 @@ fn an_edit_mid_run_continues_from_the_present_state() {
 fn an_edit_that_shortens_the_run_below_the_present_time_stops_it() {
     // The window lets the duration be edited while running; time does not go back.
     let s = passive(&pulse(1.0, 5.0, 50.0), 100.0, 0.1, "Rest");
-    let mut r = Run::new(&s, SolverSettings::default()).unwrap();
+    let mut r = Run::new(&valid(&s), SolverSettings::default()).unwrap();
     r.advance(Budget {
         until_ms: 50.0,
         max_steps: u64::MAX,
@@ -692,7 +698,7 @@ fn an_edit_that_shortens_the_run_below_the_present_time_stops_it() {
     let (t_edit, rows) = (r.t_ms(), r.trace().len());
     let mut shorter = s.clone();
     shorter.run.duration_ms = 30.05;
-    r.update_scenario(&shorter).unwrap();
+    r.update_scenario(&valid(&shorter)).unwrap();
     assert_eq!(r.advance(Budget::to_end()).unwrap(), Progress::Finished);
     assert_eq!(r.t_ms(), t_edit);
     assert!(r.trace().len() >= rows);
@@ -733,7 +739,7 @@ fn an_overflowing_current_stops_with_the_time_and_the_quantity() {
     // A permeability so large that the current overflows to infinity away from rest.
     let mut s = passive("", 10.0, 0.1, "Voltage(-20.0)");
     s.species[0].permeability_cm_per_s = 1e300;
-    let mut r = Run::new(&s, SolverSettings::default()).expect("the file itself is valid");
+    let mut r = Run::new(&valid(&s), SolverSettings::default()).expect("the file itself is valid");
     match r.run_to_end() {
         Err(e) => {
             let message = e.to_string();
@@ -769,7 +775,7 @@ fn an_unreachable_tolerance_stops_with_the_time_and_the_quantity() {
             method,
             ..Default::default()
         };
-        let mut r = Run::new(&s, settings).unwrap();
+        let mut r = Run::new(&valid(&s), settings).unwrap();
         match r.run_to_end() {
             Err(EngineError::StepUnderflow { t_ms, quantity }) => {
                 let e = EngineError::StepUnderflow { t_ms, quantity };
@@ -792,7 +798,7 @@ fn start_voltage_sets_the_gates_to_their_steady_state_there() {
     // m∞ = α/(α + β) with HH 1952's rates.
     let mut s = excitable(6.3, "", 1.0);
     s.run.start = Start::Voltage(-50.0);
-    let r = Run::new(&s, SolverSettings::default()).unwrap();
+    let r = Run::new(&valid(&s), SolverSettings::default()).unwrap();
     let (a, b) = hh_m_rates(-50.0);
     assert_eq!(r.v_mv(), -50.0);
     assert!((r.state()[1] - a / (a + b)).abs() < 1e-12);
@@ -805,7 +811,7 @@ fn a_last_grid_sample_just_past_the_duration_is_still_written() {
     let mut s = permeant::scenario::Scenario::new_default();
     s.run.duration_ms = 1.0;
     s.run.sample_ms = 1.000_000_000_5;
-    let mut run = Run::new(&s, SolverSettings::default()).unwrap();
+    let mut run = Run::new(&valid(&s), SolverSettings::default()).unwrap();
     run.run_to_end().unwrap();
     assert_eq!(run.trace().t_ms, vec![0.0, 1.000_000_000_5]);
 }

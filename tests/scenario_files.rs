@@ -7,6 +7,8 @@
 
 use std::path::Path;
 
+mod common;
+use common::valid;
 use permeant::scenario::{
     self, Event, Location, Problem, Scenario, ScenarioError, Start, from_str, read_file, save_atomic,
     to_ron_string,
@@ -113,7 +115,7 @@ fn place_of(text: &str, needle: &str) -> (usize, usize) {
 }
 
 fn read(text: &str) -> Result<Scenario, ScenarioError> {
-    from_str(text, FILE)
+    from_str(text, FILE).map(permeant::scenario::Valid::into_inner)
 }
 
 fn error_of(text: &str) -> ScenarioError {
@@ -207,7 +209,7 @@ fn the_test_scenario_is_valid_and_has_no_warnings() {
     assert_eq!(s.protocol.len(), 5);
     assert_eq!(s.run.start, Start::Voltage(-75.0));
     assert!(scenario::warnings(&s).is_empty());
-    assert!(scenario::validate(&s).is_empty());
+    assert!(scenario::problems(&s).is_empty());
 }
 
 // ---------------------------------------------------------------- syntax and structure
@@ -510,7 +512,7 @@ fn a_newer_format_says_so_before_anything_else() {
 fn validating_a_newer_format_in_memory_says_newer() {
     let mut s = read(GOOD).expect("valid");
     s.format = 2;
-    let problems = scenario::validate(&s);
+    let problems = scenario::problems(&s);
     assert_eq!(problems.len(), 1, "{problems:?}");
     assert_eq!(problems[0].path, "format");
     assert!(problems[0].message.contains("newer"), "{}", problems[0].message);
@@ -763,7 +765,7 @@ fn zero_concentration_is_allowed_and_leaves_only_that_reversal_undefined() {
         "(name: \"Ca2+\", charge: 2, inside_mm: 0.0,",
     );
     let s = read(&text).expect("a zero concentration is a real experiment (ion substitution)");
-    let report = permeant::analysis::rest_report(&s).expect("the rest report of a valid scenario");
+    let report = permeant::analysis::rest_report(&valid(&s)).expect("the rest report of a valid scenario");
     let reversals: Vec<Option<f64>> = report.species.iter().map(|r| r.reversal_mv).collect();
     assert_eq!(
         reversals[3], None,
@@ -774,7 +776,7 @@ fn zero_concentration_is_allowed_and_leaves_only_that_reversal_undefined() {
         assert!(e.is_finite());
     }
     // The other potentials are those of the unchanged file.
-    let original = permeant::analysis::rest_report(&read(GOOD).expect("valid")).expect("report");
+    let original = permeant::analysis::rest_report(&valid(&read(GOOD).expect("valid"))).expect("report");
     for i in 0..3 {
         assert_eq!(report.species[i].reversal_mv, original.species[i].reversal_mv);
     }
@@ -782,7 +784,7 @@ fn zero_concentration_is_allowed_and_leaves_only_that_reversal_undefined() {
     // Zero outside as well.
     let text = with("outside_mm: 110.0", "outside_mm: 0.0");
     let s = read(&text).expect("zero outside is allowed too");
-    let report = permeant::analysis::rest_report(&s).expect("report");
+    let report = permeant::analysis::rest_report(&valid(&s)).expect("report");
     assert_eq!(report.species[2].reversal_mv, None);
     assert!(report.species[0].reversal_mv.is_some());
 }
@@ -1233,7 +1235,7 @@ fn saved_text_reads_back_equal_with_fields_in_documented_order() {
 #[test]
 fn default_scenario_round_trips() {
     let s = Scenario::new_default();
-    assert!(scenario::validate(&s).is_empty());
+    assert!(scenario::problems(&s).is_empty());
     assert_eq!(read(&to_ron_string(&s)).ok(), Some(s));
 }
 
@@ -1260,13 +1262,19 @@ fn save_atomic_writes_the_file_and_leaves_no_temporary_behind() {
     let s = read(GOOD).expect("valid");
     save_atomic(&s, &path).expect("save");
     assert_eq!(names_in(dir.path()), ["saved.ron"]);
-    assert_eq!(read_file(&path).ok(), Some(s.clone()));
+    assert_eq!(
+        read_file(&path).ok().map(permeant::scenario::Valid::into_inner),
+        Some(s.clone())
+    );
     // Overwriting an existing file replaces it whole.
     let mut changed = s.clone();
     changed.title = "changed".into();
     save_atomic(&changed, &path).expect("save over");
     assert_eq!(names_in(dir.path()), ["saved.ron"]);
-    assert_eq!(read_file(&path).ok(), Some(changed));
+    assert_eq!(
+        read_file(&path).ok().map(permeant::scenario::Valid::into_inner),
+        Some(changed)
+    );
 }
 
 #[test]
@@ -1388,7 +1396,7 @@ fn mutate(base: &str, edits: &[(u8, prop::sample::Index, char, bool)]) -> String
 fn check_any_text(text: &str) -> Result<(), TestCaseError> {
     match read(text) {
         Ok(s) => {
-            prop_assert!(scenario::validate(&s).is_empty());
+            prop_assert!(scenario::problems(&s).is_empty());
             let again = read(&to_ron_string(&s));
             prop_assert_eq!(again.ok(), Some(s));
         }

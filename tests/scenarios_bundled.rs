@@ -4,9 +4,11 @@
 
 use std::path::{Path, PathBuf};
 
+mod common;
+use common::valid;
 use permeant::analysis::rest_report;
 use permeant::engine::{Run, SolverSettings};
-use permeant::scenario::{Event, Scenario, Start, read_file, validate};
+use permeant::scenario::{Event, Scenario, Start, Valid, problems, read_file};
 
 fn bundled_paths() -> Vec<PathBuf> {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios");
@@ -19,7 +21,7 @@ fn bundled_paths() -> Vec<PathBuf> {
     paths
 }
 
-fn bundled() -> Vec<(String, Scenario)> {
+fn bundled() -> Vec<(String, Valid)> {
     bundled_paths()
         .into_iter()
         .map(|p| {
@@ -33,7 +35,7 @@ fn bundled() -> Vec<(String, Scenario)> {
         .collect()
 }
 
-fn by_name(name: &str) -> Scenario {
+fn by_name(name: &str) -> Valid {
     bundled()
         .into_iter()
         .find(|(n, _)| n == name)
@@ -41,7 +43,7 @@ fn by_name(name: &str) -> Scenario {
         .1
 }
 
-fn run(s: &Scenario) -> Run {
+fn run(s: &Valid) -> Run {
     let mut r = Run::new(s, SolverSettings::default()).unwrap_or_else(|e| panic!("{}: {e}", s.title));
     r.run_to_end().unwrap_or_else(|e| panic!("{}: {e}", s.title));
     r
@@ -70,7 +72,7 @@ fn every_bundled_scenario_reads_validates_and_rests() {
     let all = bundled();
     assert!(all.len() >= 7, "only {} bundled scenarios", all.len());
     for (name, s) in &all {
-        assert!(validate(s).is_empty(), "{name}: {:?}", validate(s));
+        assert!(problems(s).is_empty(), "{name}: {:?}", problems(s));
         let report = rest_report(s).unwrap_or_else(|e| panic!("{name}: {e}"));
         let rest = report
             .resting_mv()
@@ -136,7 +138,7 @@ fn every_bundled_run_is_modest_and_starts_at_rest() {
 
 #[test]
 fn the_required_kinds_of_example_are_all_bundled() {
-    let all: Vec<Scenario> = bundled().into_iter().map(|x| x.1).collect();
+    let all: Vec<Scenario> = bundled().into_iter().map(|x| x.1.into_inner()).collect();
     let has = |f: &dyn Fn(&Scenario) -> bool| all.iter().any(f);
     let passive = |s: &Scenario| s.channels.is_empty() && s.pump.is_none();
     assert!(
@@ -208,7 +210,7 @@ fn excitable_cell_fires_on_every_pulse_well_above_threshold() {
     // model.md: no stimulus near threshold. Half the amplitude must still fire, and a tenth
     // must not, so the threshold sits well inside the range and far from the pulses used.
     for (fraction, fires) in [(0.5, true), (0.1, false)] {
-        let mut single = s.clone();
+        let mut single = s.clone().into_inner();
         single.protocol = vec![Event::InjectTrain {
             amplitude_ua_per_cm2: amplitude_ua_per_cm2 * fraction,
             width_ms,
@@ -216,7 +218,7 @@ fn excitable_cell_fires_on_every_pulse_well_above_threshold() {
             count: 1,
             from_ms,
         }];
-        let peak = max_v_in(&run(&single), from_ms, from_ms + period_ms);
+        let peak = max_v_in(&run(&valid(&single)), from_ms, from_ms + period_ms);
         assert_eq!(peak > 0.0, fires, "{fraction} of the pulse: peak {peak} mV");
     }
 }

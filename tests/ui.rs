@@ -338,7 +338,7 @@ fn saving_writes_a_file_that_reopens_to_the_same_scenario() {
     assert!(!h.state().document().is_dirty());
     assert!(!h.state().document().window_title().starts_with('*'));
     let read = permeant::scenario::read_file(&saved).expect("the saved file reads back");
-    assert_eq!(read, *h.state().scenario());
+    assert_eq!(read.into_inner(), *h.state().scenario());
     h.state_mut().queue(Command::New);
     h.run_steps(2);
     assert_eq!(h.state().scenario().species[1].inside_mm, 12.0);

@@ -216,7 +216,7 @@ fn a_discarded_autosave_is_not_offered_again() {
     // The kept copy now holds this session's work at once, so a crash right after the answer
     // cannot bring the discarded scenario back.
     let kept = permeant::scenario::read_file(&dir.path().join("data/autosave.ron")).expect("readable");
-    assert_eq!(kept, Scenario::new_default());
+    assert_eq!(kept.into_inner(), Scenario::new_default());
 }
 
 /// Runs the pulse-train example for a while and pauses it; returns the samples shown.

@@ -14,7 +14,7 @@ use rayon::prelude::*;
 use super::sweep::{SweepError, Vary, apply, check_value};
 use crate::engine::Model;
 use crate::physics::{Conditions, Undefined, ghk_current_ua_per_cm2};
-use crate::scenario::Scenario;
+use crate::scenario::{Scenario, Valid};
 
 /// One measured point. `row` is its 1-based line in the file (the spreadsheet row), for messages.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -266,7 +266,7 @@ impl Setup<'_> {
     }
 
     /// The scenario of one data point under trial parameters.
-    fn point_scenario(&self, value: f64, theta: &DVector<f64>) -> Result<Scenario, SweepError> {
+    fn point_scenario(&self, value: f64, theta: &DVector<f64>) -> Result<Valid, SweepError> {
         let mut s = apply(self.base, self.vary, value)?;
         // After `apply`, so that a sweep of the reference's own permeability carries the
         // free species along at their ratios.
@@ -274,7 +274,11 @@ impl Setup<'_> {
         for (&i, &t) in self.free.iter().zip(theta.iter()) {
             s.species[i].permeability_cm_per_s = self.ratio(t) * p_ref;
         }
-        Ok(s)
+        crate::scenario::validate(s).map_err(|e| SweepError::InvalidAt {
+            quantity: self.vary.to_string(),
+            value,
+            problem: e.first().map(ToString::to_string).unwrap_or_default(),
+        })
     }
 
     /// Model potential of one point and its derivatives with respect to the parameters.

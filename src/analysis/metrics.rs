@@ -6,7 +6,7 @@ use std::fmt::Write as _;
 
 use rayon::prelude::*;
 
-use super::sweep::{SweepControl, SweepError, SweepRange, Vary, apply, sweep};
+use super::sweep::{SweepControl, SweepError, SweepRange, Vary, check_value, sweep};
 use crate::engine::{EngineError, Run, SolverSettings};
 use crate::scenario::Scenario;
 
@@ -324,7 +324,7 @@ pub enum DoseResponseError {
 
 /// The steady-state potential across a log range of doses of the agent `label` (on the current
 /// rayon pool) and, with `count_spikes`, the spike count of a full run at each dose. Each dose
-/// is in force from t = 0 to the end (see [`apply`]). Progress counts steady states first,
+/// is in force from t = 0 to the end (see [`super::sweep::apply`]). Progress counts steady states first,
 /// then runs.
 pub fn dose_response(
     s: &Scenario,
@@ -351,7 +351,7 @@ pub fn dose_response(
                 if control.is_cancelled() {
                     return Err(DoseResponseError::Sweep(SweepError::Cancelled));
                 }
-                let sc = apply(s, &vary, p.value)?;
+                let sc = check_value(s, &vary, p.value)?;
                 let run_err = |source| DoseResponseError::Run {
                     dose_um: p.value,
                     source,

@@ -5,7 +5,7 @@ use serde::Serialize;
 
 use crate::engine::{EngineError, Model};
 use crate::physics::{SteadyState, Undefined, ghk_potential_mv, nernst_mv};
-use crate::scenario::Scenario;
+use crate::scenario::Valid;
 
 /// One species' line of the report.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -36,13 +36,13 @@ impl RestReport {
 }
 
 /// Computes the resting report of a valid scenario.
-pub fn rest_report(s: &Scenario) -> Result<RestReport, EngineError> {
+pub fn rest_report(s: &Valid) -> Result<RestReport, EngineError> {
     let mut model = Model::new(s)?;
     Ok(rest_report_with(s, &mut model))
 }
 
 /// The report for a scenario whose model is already built.
-pub fn rest_report_with(s: &Scenario, model: &mut Model) -> RestReport {
+pub fn rest_report_with(s: &Valid, model: &mut Model) -> RestReport {
     let p_max = s
         .species
         .iter()

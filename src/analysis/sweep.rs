@@ -10,7 +10,7 @@ use rayon::prelude::*;
 
 use crate::engine::{EngineError, Model};
 use crate::physics::{Undefined, ghk_potential_mv, nernst_mv};
-use crate::scenario::{Event, Scenario};
+use crate::scenario::{Event, Scenario, Valid};
 
 /// The input a sweep or a fit varies, in the command line's spelling (command-line.md).
 #[derive(Debug, Clone, PartialEq, Eq, Hash)]
@@ -214,16 +214,12 @@ pub fn apply(s: &Scenario, vary: &Vary, value: f64) -> Result<Scenario, SweepErr
 }
 
 /// Checks that `s` with the input set to `value` is a valid scenario.
-pub fn check_value(s: &Scenario, vary: &Vary, value: f64) -> Result<Scenario, SweepError> {
-    let out = apply(s, vary, value)?;
-    match crate::scenario::validate(&out).first() {
-        None => Ok(out),
-        Some(p) => Err(SweepError::InvalidAt {
-            quantity: vary.to_string(),
-            value,
-            problem: p.to_string(),
-        }),
-    }
+pub fn check_value(s: &Scenario, vary: &Vary, value: f64) -> Result<Valid, SweepError> {
+    crate::scenario::validate(apply(s, vary, value)?).map_err(|e| SweepError::InvalidAt {
+        quantity: vary.to_string(),
+        value,
+        problem: e.first().map(ToString::to_string).unwrap_or_default(),
+    })
 }
 
 /// A range of values: `points` values from `from` to `to` inclusive, evenly spaced on a linear
@@ -324,15 +320,15 @@ impl SweepControl {
 pub type Potentials = (Result<f64, Undefined>, Result<f64, Undefined>);
 
 /// GHK and steady-state potentials of a scenario, exactly as `rest_report` computes them.
-pub fn potentials(s: &Scenario) -> Result<Potentials, EngineError> {
+pub fn potentials(s: &Valid) -> Result<Potentials, EngineError> {
     let ghk = ghk_potential_mv(&s.ions(), s.temperature_c);
     let resting = Model::new(s)?.steady_state_at_start().resting_mv;
     Ok((ghk, resting))
 }
 
-/// One point: the scenario with the input set to `value` (not validated; see [`check_value`]).
+/// One point: the scenario with the input set to `value`.
 pub fn sweep_point(s: &Scenario, vary: &Vary, value: f64) -> Result<SweepPoint, SweepError> {
-    let (ghk, resting) = potentials(&apply(s, vary, value)?)?;
+    let (ghk, resting) = potentials(&check_value(s, vary, value)?)?;
     Ok(SweepPoint {
         value,
         ghk_mv: ghk.as_ref().ok().copied(),

@@ -88,8 +88,19 @@ fn is_bad_input(e: &anyhow::Error) -> bool {
         .any(|c| c.is::<BadInput>() || c.is::<crate::scenario::ScenarioError>())
 }
 
+#[cfg(feature = "gui")]
 fn open_window(file: Option<PathBuf>) -> anyhow::Result<()> {
     crate::ui::run(file)
+}
+
+/// A build without the window says how to get it, and what it can do instead.
+#[cfg(not(feature = "gui"))]
+fn open_window(_file: Option<PathBuf>) -> anyhow::Result<()> {
+    Err(bad(
+        "this permeant was built without the window (the `gui` feature); rebuild with \
+         `cargo build --release` (the feature is on by default) to get it, or use a \
+         subcommand such as `permeant rest FILE` (see `permeant --help`)",
+    ))
 }
 
 /// Writes command output to stdout. A closed pipe (`permeant rest f.ron | head -1`) ends the
@@ -106,7 +117,7 @@ pub fn emit(text: &str) -> anyhow::Result<()> {
 }
 
 /// Reads a scenario, turning its error into bad input (exit 2).
-pub fn load(path: &std::path::Path) -> anyhow::Result<crate::scenario::Scenario> {
+pub fn load(path: &std::path::Path) -> anyhow::Result<crate::scenario::Valid> {
     crate::scenario::read_file(path).map_err(anyhow::Error::new)
 }
 

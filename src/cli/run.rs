@@ -25,10 +25,12 @@ pub struct Args {
 pub fn run(a: Args) -> anyhow::Result<()> {
     let mut s = super::load(&a.file)?;
     if let Some(x) = a.sample_ms {
-        s.run.sample_ms = x;
-        if let Some(p) = crate::scenario::validate(&s).first() {
-            return Err(super::bad(format!("--sample-ms {x}: {}", p.message)));
-        }
+        let mut changed = s.into_inner();
+        changed.run.sample_ms = x;
+        s = crate::scenario::validate(changed).map_err(|e| {
+            let reason = e.first().map_or_else(String::new, |p| p.message.clone());
+            super::bad(format!("--sample-ms {x}: {reason}"))
+        })?;
     }
     super::print_warnings(&a.file, &s);
     let mut run = Run::new(&s, SolverSettings::default())

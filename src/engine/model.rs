@@ -5,7 +5,7 @@
 
 use crate::constants::FARADAY_C_PER_MOL;
 use crate::physics::{Conditions, GatedChannel, Membrane, PumpModel, SteadyState};
-use crate::scenario::{Event, Scenario, Start};
+use crate::scenario::{Event, Start, Valid};
 
 use super::EngineError;
 
@@ -218,7 +218,7 @@ pub struct Model {
 impl Model {
     /// Builds the model of a validated scenario. Names are resolved here; a name that no
     /// species has is reported (validation already refuses it, so this is a second guard).
-    pub fn new(s: &Scenario) -> Result<Model, EngineError> {
+    pub fn new(s: &Valid) -> Result<Model, EngineError> {
         let idx = |name: &str, place: String| {
             s.species_index(name).ok_or(EngineError::UnknownSpecies {
                 place,

@@ -5,7 +5,7 @@
 use super::EngineError;
 use super::model::Model;
 use super::stepper::{Method, Settings, Stats, StepFailure, Stepper, System};
-use crate::scenario::Scenario;
+use crate::scenario::Valid;
 
 /// Tolerances of a run. The defaults meet model.md's accuracy (0.01 mV against a reference).
 #[derive(Debug, Clone, PartialEq)]
@@ -152,11 +152,7 @@ pub struct Run {
 
 impl Run {
     /// Starts a run of a validated scenario at t = 0.
-    pub fn new(s: &Scenario, settings: SolverSettings) -> Result<Run, EngineError> {
-        let problems = crate::scenario::validate(s);
-        if let Some(p) = problems.first() {
-            return Err(EngineError::Invalid(p.to_string()));
-        }
+    pub fn new(s: &Valid, settings: SolverSettings) -> Result<Run, EngineError> {
         let mut model = Model::new(s)?;
         let y = model.initial_state()?;
         let stepper = new_stepper(&model, &settings, &y);
@@ -341,11 +337,7 @@ impl Run {
     /// present state. V and tracked concentrations carry over; gates carry over where the
     /// channel (by label and gate count) is unchanged, and start at steady state otherwise;
     /// lagged inputs carry over by name, and new ones start at their present command.
-    pub fn update_scenario(&mut self, s: &Scenario) -> Result<(), EngineError> {
-        let problems = crate::scenario::validate(s);
-        if let Some(p) = problems.first() {
-            return Err(EngineError::Invalid(p.to_string()));
-        }
+    pub fn update_scenario(&mut self, s: &Valid) -> Result<(), EngineError> {
         let model = Model::new(s)?;
         let mut y = vec![0.0; model.dim()];
         y[0] = self.y[0];

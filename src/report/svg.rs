@@ -7,7 +7,7 @@ use plotters::prelude::*;
 use crate::analysis::rest_report;
 use crate::engine::EngineError;
 use crate::palette::{potential_rgb, species_rgb};
-use crate::scenario::{Event, Scenario};
+use crate::scenario::{Event, Scenario, Valid};
 
 /// Everything the figure shows.
 #[derive(Debug, Clone)]
@@ -26,7 +26,7 @@ pub struct Figure<'a> {
 /// The figure of a run of `s`: its title, the trace `t_ms`/`v_mv`, each species' reversal
 /// potential and the GHK potential at the scenario's starting conditions, and its events. The
 /// command line's `run --svg` and the window's export both draw this, so they match.
-pub fn figure_for<'a>(s: &Scenario, t_ms: &'a [f64], v_mv: &'a [f64]) -> Result<Figure<'a>, EngineError> {
+pub fn figure_for<'a>(s: &Valid, t_ms: &'a [f64], v_mv: &'a [f64]) -> Result<Figure<'a>, EngineError> {
     let report = rest_report(s)?;
     Ok(Figure {
         title: s.title.clone(),

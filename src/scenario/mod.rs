@@ -6,6 +6,7 @@
 pub mod paths;
 mod read;
 mod save;
+mod valid;
 mod validate;
 
 use serde::{Deserialize, Serialize};
@@ -13,7 +14,8 @@ use serde::{Deserialize, Serialize};
 pub use crate::physics::Kinetics;
 pub use read::{Location, Problem, ScenarioError, from_str, read_file};
 pub use save::{save_atomic, to_ron, to_ron_string, write_atomic, write_atomic_with};
-pub use validate::{MAX_OUTPUT_SAMPLES, validate, warnings};
+pub use valid::{Invalid, Valid, validate};
+pub use validate::{MAX_OUTPUT_SAMPLES, problems, warnings};
 
 /// The newest scenario format this build reads and writes.
 pub const FORMAT: u32 = 1;

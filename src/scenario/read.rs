@@ -11,7 +11,7 @@ use std::path::Path;
 
 use serde::Deserialize;
 
-use super::{FORMAT, Scenario, validate};
+use super::{FORMAT, Scenario, Valid, validate};
 
 /// Largest file read as a scenario. Real scenarios are a few kilobytes; the cap keeps a wrong
 /// path (a device, a multi-gigabyte log) from exhausting memory before the parser can refuse it.
@@ -89,7 +89,7 @@ fn io_reason(e: &std::io::Error) -> String {
 }
 
 /// Reads and validates a scenario file. The file is only opened for reading.
-pub fn read_file(path: &Path) -> Result<Scenario, ScenarioError> {
+pub fn read_file(path: &Path) -> Result<Valid, ScenarioError> {
     let file = path.display().to_string();
     let io = |reason| ScenarioError::Io {
         file: file.clone(),
@@ -140,7 +140,7 @@ struct FormatProbe {
 }
 
 /// Parses and validates scenario text; `file` names it in messages.
-pub fn from_str(text: &str, file: &str) -> Result<Scenario, ScenarioError> {
+pub fn from_str(text: &str, file: &str) -> Result<Valid, ScenarioError> {
     // Some editors start a UTF-8 file with an invisible byte-order mark; it is not part of RON.
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     if text.trim().is_empty() {
@@ -161,15 +161,10 @@ pub fn from_str(text: &str, file: &str) -> Result<Scenario, ScenarioError> {
         });
     }
     let scenario: Scenario = ron::from_str(text).map_err(|e| syntax_error(file, text, &e))?;
-    let problems = validate(&scenario);
-    if problems.is_empty() {
-        Ok(scenario)
-    } else {
-        Err(ScenarioError::Invalid {
-            file: file.into(),
-            problems,
-        })
-    }
+    validate(scenario).map_err(|e| ScenarioError::Invalid {
+        file: file.into(),
+        problems: e.0,
+    })
 }
 
 /// How the file's own words name the Rust type a serde error mentions.

@@ -95,8 +95,9 @@ impl Checker {
     }
 }
 
-/// Every problem that makes the scenario unusable, empty when it is valid.
-pub fn validate(s: &Scenario) -> Vec<Problem> {
+/// Every problem that makes the scenario unusable, empty when it is valid. [`super::validate`]
+/// turns an empty list into a [`super::Valid`] scenario.
+pub fn problems(s: &Scenario) -> Vec<Problem> {
     let mut c = Checker { problems: Vec::new() };
     if s.format > super::FORMAT {
         c.fail(

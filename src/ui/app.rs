@@ -28,7 +28,7 @@ use super::widgets::Editing;
 use super::{iv, theme};
 use crate::analysis::{RestReport, rest_report};
 use crate::autosave::Autosave;
-use crate::scenario::{self, Scenario};
+use crate::scenario::{self, Scenario, Valid};
 
 /// Wall time the engine may use per frame, leaving the rest of a 60 Hz frame for drawing.
 const ENGINE_BUDGET: Duration = Duration::from_millis(8);
@@ -53,13 +53,13 @@ pub struct AppOptions {
 
 /// Readouts that depend only on the scenario, recomputed when it changes.
 struct Readouts {
-    for_scenario: Option<Scenario>,
+    for_scenario: Option<Valid>,
     rest: Result<RestReport, String>,
     warnings: Vec<String>,
 }
 
 impl Readouts {
-    fn refresh(&mut self, s: &Scenario) {
+    fn refresh(&mut self, s: &Valid) {
         if self.for_scenario.as_ref() == Some(s) {
             return;
         }
@@ -90,7 +90,7 @@ pub struct App {
     doc: Document,
     runtime: Runtime,
     /// Scenario edits only; traces and view settings are not undone.
-    undo: Undoer<Scenario>,
+    undo: Undoer<Valid>,
     prefs: Prefs,
     store: Store,
     recent: Vec<PathBuf>,
@@ -140,7 +140,7 @@ impl App {
             .iter()
             .map(|(file, text)| {
                 let title = scenario::from_str(text, file)
-                    .map(|s| s.title)
+                    .map(|s| s.title.clone())
                     .unwrap_or_default();
                 (file.to_string(), title)
             })

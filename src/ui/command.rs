@@ -6,7 +6,7 @@
 use std::path::PathBuf;
 
 use crate::physics::Kinetics;
-use crate::scenario::{Channel, Event, Gate, Pump, Scenario, Species, Start};
+use crate::scenario::{Channel, Event, Gate, Pump, Scenario, Species, Start, Valid};
 
 use super::analysis::AnalysisCommand;
 use super::export::ExportKind;
@@ -316,8 +316,9 @@ impl Edit {
                 s.run.start = if *rest {
                     Start::Rest
                 } else {
-                    let v = crate::analysis::rest_report(s)
+                    let v = crate::scenario::validate(s.clone())
                         .ok()
+                        .and_then(|valid| crate::analysis::rest_report(&valid).ok())
                         .and_then(|r| r.resting_mv())
                         .unwrap_or(-70.0);
                     Start::Voltage((v * 10.0).round() / 10.0)
@@ -425,13 +426,10 @@ impl Edit {
 }
 
 /// The scenario after `edit`, or the first reason it would not be valid.
-pub fn check_edit(s: &Scenario, edit: &Edit) -> Result<Scenario, String> {
+pub fn check_edit(s: &Scenario, edit: &Edit) -> Result<Valid, String> {
     let mut next = s.clone();
     edit.apply(&mut next);
-    match crate::scenario::validate(&next).first() {
-        Some(p) => Err(p.message.clone()),
-        None => Ok(next),
-    }
+    crate::scenario::validate(next).map_err(|e| e.first().map(|p| p.message.clone()).unwrap_or_default())
 }
 
 fn rename_references(s: &mut Scenario, old: &str, new: &str) {
@@ -624,7 +622,7 @@ mod tests {
     use super::*;
 
     fn valid(s: &Scenario) -> bool {
-        crate::scenario::validate(s).is_empty()
+        crate::scenario::problems(s).is_empty()
     }
 
     #[test]
@@ -652,11 +650,15 @@ mod tests {
             ChannelPreset::Boltzmann,
             ChannelPreset::HhSodium,
         ] {
-            s = check_edit(&s, &Edit::AddChannel(p)).unwrap_or_else(|e| panic!("{p:?}: {e}"));
+            s = check_edit(&s, &Edit::AddChannel(p))
+                .unwrap_or_else(|e| panic!("{p:?}: {e}"))
+                .into_inner();
         }
         // A second sodium channel gets a label of its own.
         assert_eq!(s.channels[3].label, "fast sodium 1");
-        s = check_edit(&s, &Edit::Pump(true)).unwrap_or_else(|e| panic!("{e}"));
+        s = check_edit(&s, &Edit::Pump(true))
+            .unwrap_or_else(|e| panic!("{e}"))
+            .into_inner();
         let pump = s.pump.as_ref().map(|p| (p.exports.as_str(), p.imports.as_str()));
         assert_eq!(pump, Some(("Na+", "K+")));
     }

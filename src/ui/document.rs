@@ -3,7 +3,7 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::scenario::Scenario;
+use crate::scenario::Valid;
 
 /// Where the scenario came from.
 #[derive(Debug, Clone, PartialEq)]
@@ -18,15 +18,15 @@ pub enum Origin {
 
 #[derive(Debug, Clone)]
 pub struct Document {
-    pub scenario: Scenario,
+    pub scenario: Valid,
     pub origin: Origin,
     /// The scenario as last opened or saved: the document is "dirty" when it differs, so
     /// undoing back to it clears the mark.
-    saved: Scenario,
+    saved: Valid,
 }
 
 impl Document {
-    pub fn new(scenario: Scenario, origin: Origin) -> Self {
+    pub fn new(scenario: Valid, origin: Origin) -> Self {
         Self {
             saved: scenario.clone(),
             scenario,
@@ -35,7 +35,7 @@ impl Document {
     }
 
     pub fn fresh() -> Self {
-        Self::new(Scenario::new_default(), Origin::Fresh)
+        Self::new(Valid::new_default(), Origin::Fresh)
     }
 
     pub fn is_dirty(&self) -> bool {
@@ -87,12 +87,17 @@ mod tests {
         let mut d = Document::fresh();
         assert!(!d.is_dirty());
         assert!(!d.window_title().starts_with('*'));
-        d.scenario.temperature_c = 20.0;
+        let change = |d: &mut Document, f: &dyn Fn(&mut crate::scenario::Scenario)| {
+            let mut s = d.scenario.clone().into_inner();
+            f(&mut s);
+            d.scenario = crate::scenario::validate(s).expect("a valid change");
+        };
+        change(&mut d, &|s| s.temperature_c = 20.0);
         assert!(d.is_dirty());
         assert!(d.window_title().starts_with('*'));
-        d.scenario.temperature_c = 37.0;
+        change(&mut d, &|s| s.temperature_c = 37.0);
         assert!(!d.is_dirty());
-        d.scenario.title = "Squid axon".into();
+        change(&mut d, &|s| s.title = "Squid axon".into());
         d.saved_to(PathBuf::from("/tmp/x/axon.ron"));
         assert!(!d.is_dirty());
         assert_eq!(d.window_title(), "Squid axon — axon.ron · permeant");

@@ -11,7 +11,7 @@ use std::time::SystemTime;
 use egui::{ColorImage, Rect};
 
 use crate::report::{csv, svg};
-use crate::scenario::{Scenario, write_atomic};
+use crate::scenario::{Valid, write_atomic};
 
 /// What to export.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -94,7 +94,7 @@ pub fn with_extension(path: &Path, kind: ExportKind) -> PathBuf {
 
 /// The shown part of the run, with its scenario.
 pub struct Shown<'a> {
-    pub scenario: &'a Scenario,
+    pub scenario: &'a Valid,
     pub t_ms: &'a [f64],
     pub v_mv: &'a [f64],
     /// The kept traces, exported with the current one.

@@ -222,11 +222,10 @@ pub fn show(ui: &mut Ui, rt: &mut Runtime, rest: Option<&crate::analysis::RestRe
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::scenario::Scenario;
 
     #[test]
     fn at_rest_the_total_current_is_zero_at_the_resting_potential() {
-        let s = Scenario::new_default();
+        let s = crate::scenario::Valid::new_default();
         let mut rt = Runtime::new(&s);
         let rest = crate::analysis::rest_report(&s).ok().and_then(|r| r.resting_mv());
         let c = curves(&mut rt, -120.0, 100.0).expect("a present state");

@@ -369,7 +369,9 @@ mod tests {
 
     fn example(name: &str) -> Scenario {
         let text = crate::examples::example_text(name).unwrap_or_else(|| panic!("no example {name}"));
-        crate::scenario::from_str(text, name).unwrap_or_else(|e| panic!("{e}"))
+        crate::scenario::from_str(text, name)
+            .unwrap_or_else(|e| panic!("{e}"))
+            .into_inner()
     }
 
     /// The editor's addresses and the file paths agree on every field of every bundled example,

@@ -10,13 +10,13 @@ use egui::{Id, Modal, RichText, Ui};
 use super::command::Command;
 use super::document::{Document, Origin};
 use crate::autosave::{Autosave, INTERVAL_S, Recovered};
-use crate::scenario::{self, Scenario};
+use crate::scenario::{self, Valid};
 
 /// Autosaving for one session.
 pub struct Autosaver {
     store: Autosave,
     /// What was last written, so an unchanged scenario is not written again.
-    last_saved: Option<Scenario>,
+    last_saved: Option<Valid>,
     last_time: Instant,
     interval: Duration,
 }
@@ -25,7 +25,7 @@ pub struct Autosaver {
 #[derive(Debug, Clone)]
 pub struct Offer {
     /// The scenario, or why the autosave could not be read.
-    pub scenario: Result<Scenario, String>,
+    pub scenario: Result<Valid, String>,
     pub source: Option<PathBuf>,
     pub saved_at: Option<SystemTime>,
 }
@@ -182,7 +182,9 @@ mod tests {
         // Unchanged: nothing is waiting, even after the interval.
         std::thread::sleep(Duration::from_millis(40));
         assert_eq!(saver.tick(&doc).0, None);
-        doc.scenario.title = "changed".into();
+        let mut changed = doc.scenario.clone().into_inner();
+        changed.title = "changed".into();
+        doc.scenario = scenario::validate(changed).expect("valid");
         std::thread::sleep(Duration::from_millis(40));
         assert!(saver.tick(&doc).1.is_ok());
         let kept = scenario::read_file(&file).expect("readable");
@@ -196,10 +198,11 @@ mod tests {
     fn a_restored_scenario_stays_unsaved_against_its_file() {
         let dir = tempfile::tempdir().expect("temporary directory");
         let path = dir.path().join("cell.ron");
-        let on_disk = Scenario::new_default();
+        let on_disk = scenario::Scenario::new_default();
         scenario::save_atomic(&on_disk, &path).expect("saved");
         let mut edited = on_disk.clone();
         edited.temperature_c = 21.0;
+        let edited = scenario::validate(edited).expect("valid");
         let doc = Offer {
             scenario: Ok(edited.clone()),
             source: Some(path.clone()),

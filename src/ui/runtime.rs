@@ -6,7 +6,7 @@ use std::time::{Duration, Instant};
 
 use crate::engine::{Budget, Progress, Run, SolverSettings, Trace};
 use crate::physics::Conditions;
-use crate::scenario::Scenario;
+use crate::scenario::{Scenario, Valid};
 
 use super::prefs::Speed;
 
@@ -177,7 +177,7 @@ impl StepMeter {
 pub struct Runtime {
     run: Option<Run>,
     /// The scenario the run is running (to notice edits).
-    scenario: Scenario,
+    scenario: Valid,
     /// Why the run could not start or stopped early.
     pub error: Option<String>,
     pub running: bool,
@@ -202,7 +202,7 @@ fn window_settings(s: &Scenario) -> SolverSettings {
 
 impl Runtime {
     /// A run of `s` at t = 0, paused.
-    pub fn new(s: &Scenario) -> Self {
+    pub fn new(s: &Valid) -> Self {
         let mut r = Runtime {
             run: None,
             scenario: s.clone(),
@@ -231,7 +231,7 @@ impl Runtime {
     }
 
     /// Starts again at t = 0 with `s`, keeping the running/paused state.
-    pub fn restart(&mut self, s: &Scenario) {
+    pub fn restart(&mut self, s: &Valid) {
         self.scenario = s.clone();
         self.generation += 1;
         self.shown_ms = 0.0;
@@ -253,7 +253,7 @@ impl Runtime {
 
     /// Takes an edited scenario: a run that has not moved yet starts over (so "start at rest"
     /// uses the new resting state); one under way continues from its present state.
-    pub fn scenario_changed(&mut self, s: &Scenario) {
+    pub fn scenario_changed(&mut self, s: &Valid) {
         if *s == self.scenario {
             return;
         }
@@ -398,6 +398,10 @@ mod tests {
     use super::*;
     use crate::scenario::Event;
 
+    fn v(s: &Scenario) -> crate::scenario::Valid {
+        crate::scenario::validate(s.clone()).expect("a valid test scenario")
+    }
+
     fn pulsed() -> Scenario {
         let mut s = Scenario::new_default();
         s.run.duration_ms = 20.0;
@@ -412,7 +416,7 @@ mod tests {
     #[test]
     fn paced_frames_show_speed_times_wall_time() {
         let s = pulsed();
-        let mut rt = Runtime::new(&s);
+        let mut rt = Runtime::new(&v(&s));
         rt.toggle();
         for _ in 0..10 {
             rt.advance_frame(0.01, Speed::MsPerSecond(100.0), Duration::from_secs(5));
@@ -432,7 +436,7 @@ mod tests {
     #[test]
     fn derived_currents_balance_at_rest_and_follow_the_trace() {
         let s = Scenario::new_default();
-        let mut rt = Runtime::new(&s);
+        let mut rt = Runtime::new(&v(&s));
         rt.toggle();
         rt.advance_frame(0.1, Speed::Fastest, Duration::from_secs(5));
         rt.update_derived(true);
@@ -460,7 +464,7 @@ mod tests {
             at_ms: 5.0,
             lag_ms: 0.0,
         });
-        let mut rt = Runtime::new(&s);
+        let mut rt = Runtime::new(&v(&s));
         rt.toggle();
         rt.advance_frame(0.1, Speed::Fastest, Duration::from_secs(5));
         rt.update_derived(false);
@@ -477,7 +481,7 @@ mod tests {
     #[test]
     fn an_edit_mid_run_continues_the_trace_and_new_species_have_no_past() {
         let s = pulsed();
-        let mut rt = Runtime::new(&s);
+        let mut rt = Runtime::new(&v(&s));
         rt.toggle();
         rt.advance_frame(0.05, Speed::MsPerSecond(100.0), Duration::from_secs(5));
         rt.update_derived(false);
@@ -490,7 +494,7 @@ mod tests {
             outside_mm: 2.0,
             permeability_cm_per_s: 1e-9,
         });
-        rt.scenario_changed(&t);
+        rt.scenario_changed(&v(&t));
         assert!(rt.error.is_none(), "{:?}", rt.error);
         rt.advance_frame(0.05, Speed::MsPerSecond(100.0), Duration::from_secs(5));
         rt.update_derived(false);
@@ -498,7 +502,7 @@ mod tests {
         assert!(after > before, "the trace went on: {before} → {after}");
         let ca = &rt.derived.currents_ua_per_cm2[3];
         assert!(ca[0].is_nan() && ca[after - 1].is_finite());
-        rt.restart(&t);
+        rt.restart(&v(&t));
         assert_eq!(rt.trace().map_or(0, Trace::len), 0);
     }
 }
