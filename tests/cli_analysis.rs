@@ -1,4 +1,4 @@
-//! `permeant sweep` and `permeant fit` through the real binary in a fresh temporary directory:
+//! `permeant scan` and `permeant fit` through the real binary in a fresh temporary directory:
 //! the JSON and CSV shapes of command-line.md, agreement with `permeant rest` and with the
 //! library, and exit status 2 with a message naming the place for bad input.
 
@@ -50,12 +50,47 @@ fn setup() -> (tempfile::TempDir, PathBuf) {
 }
 
 #[test]
+fn the_old_name_sweep_still_scans_but_is_not_listed() {
+    let (dir, _) = setup();
+    let args = |cmd: &'static str| {
+        [
+            cmd,
+            "cell.ron",
+            "--vary",
+            "outside_mm:K+",
+            "--from",
+            "2",
+            "--to",
+            "100",
+            "--points",
+            "3",
+            "--json",
+        ]
+    };
+    let new = run_in(dir.path(), &args("scan"));
+    let old = run_in(dir.path(), &args("sweep"));
+    assert!(
+        new.status.success() && old.status.success(),
+        "{}{}",
+        stderr(&new),
+        stderr(&old)
+    );
+    assert_eq!(stdout(&old), stdout(&new));
+    let help = run_in(dir.path(), &["--help"]);
+    assert!(
+        stdout(&help).contains("scan") && !stdout(&help).contains("sweep"),
+        "{}",
+        stdout(&help)
+    );
+}
+
+#[test]
 fn sweep_json_has_the_documented_shape_and_matches_rest() {
     let (dir, _) = setup();
     let o = run_in(
         dir.path(),
         &[
-            "sweep",
+            "scan",
             "cell.ron",
             "--vary",
             "outside_mm:K+",
@@ -130,7 +165,7 @@ fn sweep_csv_and_table() {
     let o = run_in(
         dir.path(),
         &[
-            "sweep",
+            "scan",
             "cell.ron",
             "--vary",
             "dose_um:k blocker",
@@ -172,7 +207,7 @@ fn sweep_csv_and_table() {
     let o = run_in(
         dir.path(),
         &[
-            "sweep",
+            "scan",
             "cell.ron",
             "--vary",
             "outside_mm:K+",
@@ -195,7 +230,7 @@ fn sweep_csv_and_table() {
     let o = run_in(
         dir.path(),
         &[
-            "sweep",
+            "scan",
             "only_k.ron",
             "--vary",
             "outside_mm:K+",
@@ -223,7 +258,7 @@ fn sweep_csv_and_table() {
     let o = run_in(
         dir.path(),
         &[
-            "sweep",
+            "scan",
             "only_k.ron",
             "--vary",
             "permeability:K+",
@@ -305,7 +340,7 @@ fn sweep_bad_input_exits_2_naming_the_problem() {
         ),
     ];
     for (args, needles) in cases {
-        let mut all = vec!["sweep", "cell.ron"];
+        let mut all = vec!["scan", "cell.ron"];
         all.extend_from_slice(args);
         let o = run_in(dir.path(), &all);
         assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr(&o));
@@ -317,7 +352,7 @@ fn sweep_bad_input_exits_2_naming_the_problem() {
     let o = run_in(
         dir.path(),
         &[
-            "sweep",
+            "scan",
             "missing.ron",
             "--vary",
             "temperature_c",
@@ -345,7 +380,7 @@ fn sweep_points(dir: &Path) -> Vec<(f64, f64)> {
     let o = run_in(
         dir,
         &[
-            "sweep",
+            "scan",
             "cell.ron",
             "--vary",
             "outside_mm:K+",

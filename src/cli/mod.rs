@@ -47,8 +47,11 @@ enum Command {
     Run(run::Args),
     /// Validate a scenario file: prints `ok`, or the errors (exit status 2).
     Check(check::Args),
+    // "Scan", because to electrophysiologists a sweep is one recorded episode; `sweep` is
+    // still accepted, unlisted, for one release.
     /// Vary one input over a range: the GHK and the steady-state potential at each value.
-    Sweep(sweep::Args),
+    #[command(alias = "sweep")]
+    Scan(sweep::Args),
     /// Fit permeability ratios (relative to the first species) to measured potentials.
     Fit(fit::Args),
 }
@@ -66,7 +69,7 @@ pub fn main() -> ExitCode {
         Some(Command::Rest(a)) => rest::run(a),
         Some(Command::Run(a)) => run::run(a),
         Some(Command::Check(a)) => check::run(a),
-        Some(Command::Sweep(a)) => sweep::run(a),
+        Some(Command::Scan(a)) => sweep::run(a),
         Some(Command::Fit(a)) => fit::run(a),
         None => open_window(cli.file),
     };

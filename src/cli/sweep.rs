@@ -1,4 +1,4 @@
-//! `permeant sweep FILE --vary WHAT --from A --to B --points N [--log] [--csv OUT] [--json]`:
+//! `permeant scan FILE --vary WHAT --from A --to B --points N [--log] [--csv OUT] [--json]`:
 //! the GHK and steady-state potentials across a range of one input, on every core.
 
 use std::io::IsTerminal;
