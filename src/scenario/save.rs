@@ -44,8 +44,7 @@ pub fn write_atomic_with(
     path: &Path,
     fill: impl FnOnce(&mut std::fs::File) -> std::io::Result<()>,
 ) -> std::io::Result<()> {
-    // Through a symbolic link, replace the file it points at rather than the link itself.
-    let target = std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf());
+    let target = through_links(path)?;
     let dir = match target.parent() {
         Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
         _ => PathBuf::from("."),
@@ -64,10 +63,13 @@ pub fn write_atomic_with(
             .create_new(true)
             .open(&tmp)?;
         fill(&mut f)?;
-        // Keep the permissions of the file being replaced (a shared, read-only-for-others file
-        // stays so); a new file gets the usual ones.
-        if let Ok(meta) = std::fs::metadata(&target) {
-            let _ = f.set_permissions(meta.permissions());
+        // Keep the permissions of the file being replaced (a private or a shared file stays
+        // so); a new file gets the usual ones. Failing that, the target stays as it was rather
+        // than turning up with other permissions.
+        match std::fs::metadata(&target) {
+            Ok(meta) => f.set_permissions(meta.permissions())?,
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+            Err(e) => return Err(e),
         }
         f.sync_all()?;
         drop(f);
@@ -85,6 +87,32 @@ pub fn write_atomic_with(
     }
 }
 
+/// How many links are followed before a cycle is assumed (Linux's own limit).
+const MAX_LINKS: usize = 40;
+
+/// The file that writing `path` should replace: through symbolic links (a chain of them, and a
+/// dangling one, whose target is then created), so the link stays a link to the new contents
+/// rather than being replaced by a plain file.
+fn through_links(path: &Path) -> std::io::Result<PathBuf> {
+    let mut p = path.to_path_buf();
+    for _ in 0..MAX_LINKS {
+        match std::fs::symlink_metadata(&p) {
+            Ok(m) if m.file_type().is_symlink() => {
+                let to = std::fs::read_link(&p)?;
+                p = match p.parent() {
+                    Some(dir) if to.is_relative() => dir.join(to),
+                    _ => to,
+                };
+            }
+            _ => return Ok(p),
+        }
+    }
+    Err(std::io::Error::other(format!(
+        "{}: more than {MAX_LINKS} symbolic links in a row (a cycle?)",
+        path.display()
+    )))
+}
+
 /// Makes the rename itself durable where the platform allows it; a failure here loses nothing
 /// that was on disk before, so it is not reported.
 fn sync_dir(dir: &Path) {
@@ -94,4 +122,128 @@ fn sync_dir(dir: &Path) {
     }
     #[cfg(not(unix))]
     let _ = dir;
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_save_replaces_the_file_and_leaves_no_temporary_file() {
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let path = dir.path().join("cell.ron");
+        write_atomic(&path, b"old").expect("written");
+        write_atomic(&path, b"new").expect("written");
+        assert_eq!(std::fs::read(&path).expect("readable"), b"new");
+        let names: Vec<_> = std::fs::read_dir(dir.path())
+            .expect("lists")
+            .filter_map(|e| e.ok().map(|e| e.file_name()))
+            .collect();
+        assert_eq!(names, ["cell.ron"]);
+    }
+
+    #[test]
+    fn a_failed_fill_leaves_the_target_as_it_was() {
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let path = dir.path().join("run.csv");
+        write_atomic(&path, b"complete").expect("written");
+        let e = write_atomic_with(&path, |f| {
+            f.write_all(b"half")?;
+            Err(std::io::Error::other("the run failed"))
+        })
+        .expect_err("refused");
+        assert_eq!(e.to_string(), "the run failed");
+        assert_eq!(std::fs::read(&path).expect("readable"), b"complete");
+        assert_eq!(std::fs::read_dir(dir.path()).expect("lists").count(), 1);
+    }
+
+    #[cfg(unix)]
+    mod unix {
+        use std::os::unix::fs::{PermissionsExt, symlink};
+
+        use super::*;
+
+        fn mode(p: &Path) -> u32 {
+            std::fs::metadata(p).expect("metadata").permissions().mode() & 0o777
+        }
+
+        /// Writing through a link (here a relative link to a file in another folder, through a
+        /// second link) writes the file it points at; the links stay links to it.
+        #[test]
+        fn writing_through_a_symbolic_link_writes_its_target_and_keeps_the_link() {
+            let dir = tempfile::tempdir().expect("a temporary folder");
+            std::fs::create_dir(dir.path().join("shared")).expect("a folder");
+            let target = dir.path().join("shared").join("cell.ron");
+            std::fs::write(&target, "old").expect("written");
+            let link = dir.path().join("link.ron");
+            symlink("shared/cell.ron", &link).expect("linked");
+            let outer = dir.path().join("outer.ron");
+            symlink("link.ron", &outer).expect("linked");
+            write_atomic(&outer, b"new").expect("written");
+            assert_eq!(std::fs::read(&target).expect("readable"), b"new");
+            for (l, to) in [(&link, "shared/cell.ron"), (&outer, "link.ron")] {
+                let meta = std::fs::symlink_metadata(l).expect("metadata");
+                assert!(meta.file_type().is_symlink(), "{} is still a link", l.display());
+                assert_eq!(std::fs::read_link(l).expect("a link"), Path::new(to));
+            }
+            // No temporary file is left beside the link or the target.
+            assert_eq!(
+                std::fs::read_dir(dir.path().join("shared"))
+                    .expect("lists")
+                    .count(),
+                1
+            );
+            assert_eq!(std::fs::read_dir(dir.path()).expect("lists").count(), 3);
+        }
+
+        /// A link whose target does not exist yet: the target is created, the link kept.
+        #[test]
+        fn writing_through_a_dangling_link_creates_its_target() {
+            let dir = tempfile::tempdir().expect("a temporary folder");
+            let link = dir.path().join("link.ron");
+            symlink("later.ron", &link).expect("linked");
+            write_atomic(&link, b"first").expect("written");
+            assert_eq!(
+                std::fs::read(dir.path().join("later.ron")).expect("readable"),
+                b"first"
+            );
+            assert!(
+                std::fs::symlink_metadata(&link)
+                    .expect("metadata")
+                    .file_type()
+                    .is_symlink()
+            );
+        }
+
+        #[test]
+        fn a_cycle_of_links_is_refused_and_nothing_is_written() {
+            let dir = tempfile::tempdir().expect("a temporary folder");
+            let (a, b) = (dir.path().join("a.ron"), dir.path().join("b.ron"));
+            symlink("b.ron", &a).expect("linked");
+            symlink("a.ron", &b).expect("linked");
+            let e = write_atomic(&a, b"x").expect_err("refused");
+            assert!(e.to_string().contains("symbolic links"), "{e}");
+            assert_eq!(std::fs::read_dir(dir.path()).expect("lists").count(), 2);
+        }
+
+        /// The replaced file keeps its permissions, directly and through a link: modes that
+        /// differ from what a new file gets (0o644 under the common umask 022), one private
+        /// and one read-only.
+        #[test]
+        fn a_save_keeps_the_permissions_of_the_file_it_replaces() {
+            let dir = tempfile::tempdir().expect("a temporary folder");
+            let target = dir.path().join("cell.ron");
+            let link = dir.path().join("link.ron");
+            symlink("cell.ron", &link).expect("linked");
+            for (through, wanted) in [(&target, 0o600), (&link, 0o640), (&link, 0o444)] {
+                std::fs::write(&target, "old").ok();
+                std::fs::set_permissions(&target, std::fs::Permissions::from_mode(wanted))
+                    .expect("permissions set");
+                save_atomic(&Scenario::new_default(), through).expect("saved");
+                assert_eq!(mode(&target), wanted, "through {}", through.display());
+                let back = crate::scenario::read_file(&target).expect("reads back");
+                assert_eq!(*back, Scenario::new_default());
+            }
+        }
+    }
 }
