@@ -17,8 +17,8 @@ use permeant::analysis::sweep::{
     SweepControl, SweepError, SweepPoint, SweepRange, Vary, apply, nernst_line, sweep, sweep_point,
 };
 use permeant::constants::nernst_slope_mv_per_decade;
-use permeant::engine::{Model, Run, SolverSettings};
-use permeant::physics::{Conditions, Kinetics};
+use permeant::engine::{EngineError, Model, Run, SolverSettings};
+use permeant::physics::{Conditions, Kinetics, Undefined};
 use permeant::scenario::{Channel, Event, Gate, Pump, Scenario, Species};
 
 // ---------------------------------------------------------------------------------------------
@@ -689,6 +689,120 @@ fn bad_data_messages_name_the_row_or_parameter() {
         FitError::Undetermined { names, .. } => assert_eq!(names, vec!["Cl-".to_string()]),
         other => panic!("expected Undetermined, got {other}"),
     }
+}
+
+/// RFC 4180 (common practice for CSV): a quoted cell may hold the delimiter, a doubled quote
+/// and a line break; rows are numbered by the line they start on, as a spreadsheet shows them.
+#[test]
+fn measured_data_are_read_as_csv_with_quoted_cells_and_comments() {
+    let text = "# bath potassium series, invented\n\
+                \"outside K+\n(mM, \"\"bath\"\")\",\"v_mv\"\n\
+                \"2\", -80.5\n\
+                \x20 # an indented note, with \"quotes\", and commas\n\
+                \n\
+                \"1e1\",\"-50\",,\n";
+    let points = parse_points(text).expect("reads");
+    assert_eq!(
+        points,
+        vec![
+            DataPoint {
+                value: 2.0,
+                v_mv: -80.5,
+                row: 4
+            },
+            DataPoint {
+                value: 10.0,
+                v_mv: -50.0,
+                row: 7
+            }
+        ]
+    );
+    // A comma inside quotes stays in its cell: one bad number, not a third cell.
+    let e = parse_points("value,v_mv\n\"1,5\",-70\n").expect_err("a decimal comma");
+    assert_eq!(
+        e,
+        DataError::NotNumber {
+            row: 2,
+            column: "value",
+            cell: "1,5".into()
+        }
+    );
+    // The row of a bad cell after a quoted line break is the line it starts on.
+    let e = parse_points("\"value\nin mM\",v_mv\n2,-80\n3,\"-7O\"\n").expect_err("a letter O");
+    assert!(e.to_string().starts_with("row 4: the v_mv cell \"-7O\""), "{e}");
+    let e = parse_points("# only a note\n\n").expect_err("nothing");
+    assert_eq!(e, DataError::NoPoints);
+}
+
+/// A cell with a bath potassium series where the point without bath potassium has no
+/// potential: K+ can only leave and Cl- (none inside) only enter, so every current is outward
+/// (model.md, "Zero-current potential").
+fn no_potential_at_zero_bath_potassium() -> (Scenario, Vec<DataPoint>) {
+    let mut s = Scenario::new_default();
+    s.temperature_c = 37.0;
+    s.species = vec![
+        species("K+", 1, 140.0, 5.0, 1.0e-6),
+        species("Cl-", -1, 0.0, 120.0, 0.1e-6),
+    ];
+    let vary = Vary::OutsideMm("K+".into());
+    let mut data = synthetic(&s, &vary, &[5.0, 20.0, 50.0], &mut || 0.0);
+    data.insert(
+        1,
+        DataPoint {
+            value: 0.0,
+            v_mv: -90.0,
+            row: 9,
+        },
+    );
+    (s, data)
+}
+
+#[test]
+fn a_point_without_a_potential_is_a_model_error_not_a_failure_to_converge() {
+    let (s, data) = no_potential_at_zero_bath_potassium();
+    let vary = Vary::OutsideMm("K+".into());
+    let e = fit(&s, &vary, &names(&["Cl-"]), &data, FitSpace::LogRatio).expect_err("no potential");
+    assert!(matches!(e, FitError::NoPotential { row: 9, .. }), "{e:?}");
+    let text = e.to_string();
+    assert!(
+        text.starts_with("row 9 (0): ") && text.contains("no resting potential"),
+        "{text}"
+    );
+    assert!(!text.contains("converge"), "{text}");
+    assert!(e.is_bad_input(), "the data point is at fault");
+}
+
+/// The engine refusing a point's scenario, or a potential that is not finite, are model
+/// failures with messages of their own; none is worded as a minimiser that did not converge,
+/// and none blames the user's input.
+#[test]
+fn model_failures_in_a_fit_have_their_own_variants_and_messages() {
+    let refused = FitError::Model {
+        row: 4,
+        value: 20.0,
+        ratios: "Cl- 0.1000".into(),
+        source: EngineError::NoRestingState {
+            reason: Undefined::AlwaysOutward,
+        },
+    };
+    let not_finite = FitError::NotFinite {
+        ratios: "Cl- 0.1000".into(),
+    };
+    for e in [&refused, &not_finite] {
+        assert!(!e.to_string().contains("converge"), "{e}");
+        assert!(!e.is_bad_input(), "{e}");
+    }
+    assert!(
+        refused
+            .to_string()
+            .starts_with("row 4 (20): at the ratios Cl- 0.1000 the model cannot be built: "),
+        "{refused}"
+    );
+    let stuck = FitError::NotConverged {
+        evaluations: 200,
+        ratios: "Cl- 0.1000".into(),
+    };
+    assert!(stuck.to_string().contains("did not converge") && !stuck.is_bad_input());
 }
 
 // ---------------------------------------------------------------------------------------------

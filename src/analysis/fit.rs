@@ -12,7 +12,7 @@ use nalgebra::{DMatrix, DVector, Dyn, SymmetricEigen};
 use rayon::prelude::*;
 
 use super::sweep::{SweepError, Vary, apply, check_value};
-use crate::engine::Model;
+use crate::engine::{EngineError, Model};
 use crate::physics::{Conditions, Undefined, ghk_current_ua_per_cm2};
 use crate::scenario::{Scenario, Valid};
 
@@ -45,32 +45,58 @@ pub enum DataError {
     WrongCellCount { row: usize, found: usize },
     #[error("the data hold no rows of value,v_mv")]
     NoPoints,
+    #[error("row {row}: the row cannot be read as CSV: {message}")]
+    Malformed { row: usize, message: String },
 }
 
-/// Columns of a data row, for messages.
-const COLUMNS: [&str; 2] = ["value", "v_mv"];
-
-fn unquote(cell: &str) -> &str {
-    let c = cell.trim();
-    c.strip_prefix('"')
-        .and_then(|x| x.strip_suffix('"'))
-        .map_or(c, str::trim)
-}
-
-/// Parses `value,v_mv` rows. Blank lines and lines starting with `#` are skipped; the first
-/// other line is a header when none of its cells is a number. Spreadsheet habits are accepted:
-/// a byte-order mark, quoted cells, trailing empty cells and Windows line ends.
+/// Parses `value,v_mv` rows with a CSV reader, so quoted cells may hold commas and quotes.
+/// Blank lines and lines whose first cell starts with `#` are skipped; the first other row is a
+/// header when none of its cells is a number. Spreadsheet habits are accepted: a byte-order
+/// mark, quoted cells, spaces around cells, trailing empty cells and Windows line ends. Rows
+/// are numbered by the line they start on (the spreadsheet row), for messages.
 pub fn parse_points(text: &str) -> Result<Vec<DataPoint>, DataError> {
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .comment(Some(b'#'))
+        .trim(csv::Trim::All)
+        .from_reader(text.as_bytes());
+    // The reader's own line count passes over blank lines, and its position of a record is
+    // where it began reading, before the blank and comment lines it skipped: rows are counted
+    // from the first byte of the record itself.
+    let bytes = text.as_bytes();
+    let row_at = |pos: Option<&csv::Position>| {
+        let mut at = pos.map_or(0, |p| usize::try_from(p.byte()).unwrap_or(usize::MAX));
+        loop {
+            match bytes.get(at) {
+                Some(b'\n' | b'\r') => at += 1,
+                Some(b'#') => {
+                    at += bytes
+                        .get(at..)
+                        .and_then(|rest| rest.iter().position(|&b| b == b'\n'))
+                        .unwrap_or(0)
+                        + 1;
+                }
+                _ => break,
+            }
+        }
+        let before = bytes.get(..at).unwrap_or(bytes);
+        1 + before.iter().filter(|&&b| b == b'\n').count()
+    };
     let mut points = Vec::new();
     let mut first = true;
-    for (i, line) in text.lines().enumerate() {
-        let row = i + 1;
-        let line = line.trim();
-        if line.is_empty() || line.starts_with('#') {
+    for record in reader.records() {
+        let record = record.map_err(|e| DataError::Malformed {
+            row: row_at(e.position()),
+            message: e.to_string(),
+        })?;
+        let row = row_at(record.position());
+        let mut cells: Vec<&str> = record.iter().collect();
+        // The reader knows only comments at the start of a line; an indented one is one too.
+        if cells.first().is_some_and(|c| c.starts_with('#')) || cells.iter().all(|c| c.is_empty()) {
             continue;
         }
-        let mut cells: Vec<&str> = line.split(',').map(unquote).collect();
         while cells.len() > 2 && cells.last().is_some_and(|c| c.is_empty()) {
             cells.pop();
         }
@@ -78,31 +104,15 @@ pub fn parse_points(text: &str) -> Result<Vec<DataPoint>, DataError> {
         if was_first && cells.iter().all(|c| c.parse::<f64>().is_err()) {
             continue;
         }
-        if cells.len() != 2 {
+        let [value, v_mv] = cells[..] else {
             return Err(DataError::WrongCellCount {
                 row,
                 found: cells.len(),
             });
-        }
-        let mut xy = [0.0; 2];
-        for (k, cell) in cells.iter().enumerate() {
-            let x: f64 = cell.parse().map_err(|_| DataError::NotNumber {
-                row,
-                column: COLUMNS[k],
-                cell: cell.to_string(),
-            })?;
-            if !x.is_finite() {
-                return Err(DataError::NotFinite {
-                    row,
-                    column: COLUMNS[k],
-                    cell: cell.to_string(),
-                });
-            }
-            xy[k] = x;
-        }
+        };
         points.push(DataPoint {
-            value: xy[0],
-            v_mv: xy[1],
+            value: number(row, "value", value)?,
+            v_mv: number(row, "v_mv", v_mv)?,
             row,
         });
     }
@@ -110,6 +120,23 @@ pub fn parse_points(text: &str) -> Result<Vec<DataPoint>, DataError> {
         return Err(DataError::NoPoints);
     }
     Ok(points)
+}
+
+/// The finite number in a cell; `row` and `column` name it in messages.
+fn number(row: usize, column: &'static str, cell: &str) -> Result<f64, DataError> {
+    let x: f64 = cell.parse().map_err(|_| DataError::NotNumber {
+        row,
+        column,
+        cell: cell.to_string(),
+    })?;
+    if !x.is_finite() {
+        return Err(DataError::NotFinite {
+            row,
+            column,
+            cell: cell.to_string(),
+        });
+    }
+    Ok(x)
 }
 
 /// Reads and parses a data file.
@@ -166,7 +193,10 @@ pub enum FitError {
     )]
     NoConcentration { name: String },
     #[error("the data cannot determine the permeability ratio of {}: {detail}", names.iter().map(|n| format!("\"{n}\"")).collect::<Vec<_>>().join(" and "))]
-    Undetermined { names: Vec<String>, detail: String },
+    Undetermined {
+        names: Vec<String>,
+        detail: &'static str,
+    },
     #[error("row {row} ({value}): at the ratios {ratios} the model has no resting potential: {reason}")]
     NoPotential {
         row: usize,
@@ -174,8 +204,22 @@ pub enum FitError {
         ratios: String,
         reason: Undefined,
     },
-    #[error("the fit did not converge: {0}")]
-    NotConverged(String),
+    /// The engine refused the scenario of one data point: a failure of the model, not of the
+    /// minimiser.
+    #[error("row {row} ({value}): at the ratios {ratios} the model cannot be built: {source}")]
+    Model {
+        row: usize,
+        value: f64,
+        ratios: String,
+        source: EngineError,
+    },
+    #[error("at the ratios {ratios} the model's potential or its slope is not finite")]
+    NotFinite { ratios: String },
+    #[error("the fit did not converge: no minimum within {evaluations} evaluations (last ratios {ratios})")]
+    NotConverged { evaluations: usize, ratios: String },
+    /// The minimiser gave up for a reason of its own (its termination report, as it words it).
+    #[error("the fit did not converge: {reason}")]
+    Stopped { reason: String },
 }
 
 impl FitError {
@@ -184,7 +228,10 @@ impl FitError {
     pub fn is_bad_input(&self) -> bool {
         match self {
             FitError::Vary(e) | FitError::InvalidPoint { source: e, .. } => e.is_bad_input(),
-            FitError::NotConverged(_) => false,
+            FitError::Model { .. }
+            | FitError::NotFinite { .. }
+            | FitError::NotConverged { .. }
+            | FitError::Stopped { .. } => false,
             _ => true,
         }
     }
@@ -274,10 +321,10 @@ impl Setup<'_> {
         for (&i, &t) in self.free.iter().zip(theta.iter()) {
             s.species[i].permeability_cm_per_s = self.ratio(t) * p_ref;
         }
-        crate::scenario::validate(s).map_err(|e| SweepError::InvalidAt {
-            quantity: self.vary.to_string(),
+        crate::scenario::validate(s).map_err(|problem| SweepError::InvalidAt {
+            vary: self.vary.clone(),
             value,
-            problem: e.first().map(ToString::to_string).unwrap_or_default(),
+            problem,
         })
     }
 
@@ -291,7 +338,12 @@ impl Setup<'_> {
     /// where finite differences of solved potentials would carry the solver's tolerance.
     fn point(&self, dp: &DataPoint, theta: &DVector<f64>) -> Result<(f64, Vec<f64>), FitError> {
         let s = self.point_scenario(dp.value, theta)?;
-        let mut model = Model::new(&s).map_err(|e| FitError::NotConverged(e.to_string()))?;
+        let mut model = Model::new(&s).map_err(|source| FitError::Model {
+            row: dp.row,
+            value: dp.value,
+            ratios: self.ratios_text(theta),
+            source,
+        })?;
         let v = model
             .steady_state_at_start()
             .resting_mv
@@ -353,10 +405,9 @@ impl Setup<'_> {
         let v = DVector::from_iterator(n, rows.iter().map(|r| r.0));
         let j = DMatrix::from_fn(n, p, |k, c| rows[k].1[c]);
         if v.iter().chain(j.iter()).any(|x| !x.is_finite()) {
-            return Err(FitError::NotConverged(format!(
-                "at the ratios {} the model's potential or its slope is not finite",
-                self.ratios_text(theta)
-            )));
+            return Err(FitError::NotFinite {
+                ratios: self.ratios_text(theta),
+            });
         }
         Ok((v, j))
     }
@@ -455,9 +506,7 @@ fn inverse_normal_matrix(j: &DMatrix<f64>, names: &[String]) -> Result<DMatrix<f
     if !flat.is_empty() {
         return Err(FitError::Undetermined {
             names: flat,
-            detail:
-                "the fitted potentials hardly change with it (it may be fitting towards 0; try without it)"
-                    .into(),
+            detail: "the fitted potentials hardly change with it (it may be fitting towards 0; try without it)",
         });
     }
     // Scaling the columns to unit length makes the test independent of the parameters' units.
@@ -469,7 +518,7 @@ fn inverse_normal_matrix(j: &DMatrix<f64>, names: &[String]) -> Result<DMatrix<f
         .iter()
         .enumerate()
         .min_by(|a, b| a.1.total_cmp(b.1))
-        .ok_or_else(|| FitError::NotConverged("no parameters".into()))?;
+        .ok_or(FitError::NothingFree)?;
     if l_min < COLLINEAR_EIGENVALUE {
         let v = eig.eigenvectors.column(k_min);
         let involved: Vec<String> = (0..p)
@@ -478,12 +527,12 @@ fn inverse_normal_matrix(j: &DMatrix<f64>, names: &[String]) -> Result<DMatrix<f
             .collect();
         return Err(FitError::Undetermined {
             names: involved,
-            detail: "over these data their effects on the potential are proportional, so only a combination of them is fixed; add points over a wider range or vary another input".into(),
+            detail: "over these data their effects on the potential are proportional, so only a combination of them is fixed; add points over a wider range or vary another input",
         });
     }
     let inv = scaled.try_inverse().ok_or_else(|| FitError::Undetermined {
         names: names.to_vec(),
-        detail: "the normal matrix is singular".into(),
+        detail: "the normal matrix is singular",
     })?;
     Ok(&d * inv * &d)
 }
@@ -514,7 +563,9 @@ fn minimize(
             // The minimiser stopped because an evaluation failed; say which and where.
             return Err(match &problem.state {
                 Err(e) => e.clone(),
-                Ok(_) => FitError::NotConverged("a model evaluation failed".into()),
+                Ok(_) => FitError::Stopped {
+                    reason: "a model evaluation failed".into(),
+                },
             });
         }
         TerminationReason::ResidualsZero
@@ -523,13 +574,16 @@ fn minimize(
         // Rounding stops further progress: the fit sits at its minimum to machine precision.
         | TerminationReason::NoImprovementPossible(_) => {}
         TerminationReason::LostPatience => {
-            return Err(FitError::NotConverged(format!(
-                "no minimum within {} evaluations (last ratios {})",
-                report.number_of_evaluations,
-                setup.ratios_text(&problem.theta)
-            )));
+            return Err(FitError::NotConverged {
+                evaluations: report.number_of_evaluations,
+                ratios: setup.ratios_text(&problem.theta),
+            });
         }
-        other => return Err(FitError::NotConverged(format!("{other:?}"))),
+        other => {
+            return Err(FitError::Stopped {
+                reason: format!("{other:?}"),
+            });
+        }
     }
     // The minimiser leaves its best parameters set, with their evaluation cached.
     let ssr = match &problem.state {

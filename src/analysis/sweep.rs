@@ -10,7 +10,7 @@ use rayon::prelude::*;
 
 use crate::engine::{EngineError, Model};
 use crate::physics::{Undefined, ghk_potential_mv, nernst_mv};
-use crate::scenario::{Event, Scenario, Valid};
+use crate::scenario::{Event, Invalid, Scenario, Valid};
 
 /// The input a sweep or a fit varies, in the command line's spelling (command-line.md).
 #[derive(Debug, Clone, PartialEq, Eq, Hash)]
@@ -48,11 +48,12 @@ pub enum SweepError {
     NotFinite { end: &'static str, value: f64 },
     #[error("a log range needs both ends above 0 (got {from} to {to})")]
     LogNeedsPositive { from: f64, to: f64 },
-    #[error("at {quantity} = {value} the scenario is not valid: {problem}")]
+    /// Only the first problem is named: it is the one the varied value causes.
+    #[error("at {vary} = {value} the scenario is not valid: {}", first_problem(problem))]
     InvalidAt {
-        quantity: String,
+        vary: Vary,
         value: f64,
-        problem: String,
+        problem: Invalid,
     },
     #[error(transparent)]
     Engine(#[from] EngineError),
@@ -66,6 +67,10 @@ impl SweepError {
     pub fn is_bad_input(&self) -> bool {
         !matches!(self, SweepError::Engine(_) | SweepError::Cancelled)
     }
+}
+
+fn first_problem(e: &Invalid) -> String {
+    e.first().map(ToString::to_string).unwrap_or_default()
 }
 
 fn quoted_list<'a>(names: impl Iterator<Item = &'a str>) -> String {
@@ -215,10 +220,10 @@ pub fn apply(s: &Scenario, vary: &Vary, value: f64) -> Result<Scenario, SweepErr
 
 /// Checks that `s` with the input set to `value` is a valid scenario.
 pub fn check_value(s: &Scenario, vary: &Vary, value: f64) -> Result<Valid, SweepError> {
-    crate::scenario::validate(apply(s, vary, value)?).map_err(|e| SweepError::InvalidAt {
-        quantity: vary.to_string(),
+    crate::scenario::validate(apply(s, vary, value)?).map_err(|problem| SweepError::InvalidAt {
+        vary: vary.clone(),
         value,
-        problem: e.first().map(ToString::to_string).unwrap_or_default(),
+        problem,
     })
 }
 
