@@ -5,9 +5,22 @@
 //! The scenarios here are invented for these tests.
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
 use serde_json::Value;
+
+mod common;
+use common::cli::{Sandbox, assert_bad_input, stderr, stdout};
+use common::reference::{ghk_current_ua_per_cm2, nernst_mv};
+
+/// Relative agreement with a value the test computes itself: CODATA's published ten-digit R
+/// and F (model.md) differ from the exact products used here by about 2e-11, f64 rounding adds
+/// about 1e-16 a step, and the program writes every digit (JSON, CSV) or exact labels.
+const RELATIVE: f64 = 1e-9;
+/// A potential the program solves for (GHK, rest) against its closed form: the root finder
+/// stops far inside the 0.01 mV accuracy of model.md.
+const SOLVED_MV: f64 = 1e-6;
+/// Half the last digit of a label printed to 0.1 mV.
+const LABEL_MV: f64 = 0.05;
 
 /// A small passive cell: potassium alone is permeant, so its GHK potential is its Nernst
 /// potential; calcium has none inside, so its reversal potential is undefined.
@@ -23,57 +36,6 @@ const GOOD: &str = r#"(
     run: (duration_ms: 10.0, sample_ms: 0.5),
 )
 "#;
-
-/// A fresh directory holding the files of one test; commands run inside it.
-struct Sandbox {
-    dir: tempfile::TempDir,
-}
-
-impl Sandbox {
-    fn new() -> Self {
-        Sandbox {
-            dir: tempfile::tempdir().expect("a temporary directory"),
-        }
-    }
-
-    fn write(&self, name: &str, contents: impl AsRef<[u8]>) -> PathBuf {
-        let path = self.dir.path().join(name);
-        std::fs::write(&path, contents).expect("write a test file");
-        path
-    }
-
-    fn path(&self, name: &str) -> PathBuf {
-        self.dir.path().join(name)
-    }
-
-    fn run(&self, args: &[&str]) -> Output {
-        Command::new(env!("CARGO_BIN_EXE_permeant"))
-            .args(args)
-            .current_dir(self.dir.path())
-            .output()
-            .expect("run the permeant binary")
-    }
-}
-
-fn stdout(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
-
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
-
-/// Exit status 2 (bad input), a message on stderr containing every word, nothing on stdout,
-/// and no panic.
-fn assert_bad_input(o: &Output, words: &[&str]) {
-    let err = stderr(o);
-    assert_eq!(o.status.code(), Some(2), "exit status; stderr:\n{err}");
-    assert!(!err.contains("panicked"), "{err}");
-    assert!(o.stdout.is_empty(), "nothing on stdout, got:\n{}", stdout(o));
-    for w in words {
-        assert!(err.contains(w), "`{w}` missing from stderr:\n{err}");
-    }
-}
 
 fn good_with(old: &str, new: &str) -> String {
     assert_eq!(
@@ -256,13 +218,6 @@ fn check_does_not_change_the_file() {
 
 // ------------------------------------------------------------------------- rest
 
-/// RT/F in mV at `t_c` from CODATA 2018 exact values of R = N_A·k and F = N_A·e.
-fn rt_over_f_mv(t_c: f64) -> f64 {
-    let r = 8.314_462_618_153_24; // J/(mol·K), CODATA 2018 (exact)
-    let f = 96_485.332_123_310_02; // C/mol, CODATA 2018 (exact)
-    1000.0 * r * (t_c + 273.15) / f
-}
-
 #[test]
 fn rest_json_has_the_documented_shape_and_values() {
     let sb = Sandbox::new();
@@ -286,19 +241,17 @@ fn rest_json_has_the_documented_shape_and_values() {
     assert_eq!(charges, [1, 2, -1]);
 
     // Nernst: E = (RT/zF) ln(c_out/c_in) (Nernst 1889; common practice).
-    let e_k = rt_over_f_mv(25.0) * (6.0_f64 / 120.0).ln();
-    let e_cl = -rt_over_f_mv(25.0) * (115.0_f64 / 9.0).ln();
+    let e_k = nernst_mv(1, 120.0, 6.0, 25.0);
+    let e_cl = nernst_mv(-1, 9.0, 115.0, 25.0);
     let got_k = species[0]["reversal_mv"]
         .as_f64()
         .expect("K+ has a reversal potential");
     let got_cl = species[2]["reversal_mv"]
         .as_f64()
         .expect("Cl- has a reversal potential");
-    // Relative 1e-9: CODATA's published ten-digit R and F differ from the exact products
-    // by about 2e-11, and the JSON carries every digit.
-    assert!((got_k - e_k).abs() < 1e-9 * e_k.abs(), "E_K {got_k} vs {e_k}");
+    assert!((got_k - e_k).abs() < RELATIVE * e_k.abs(), "E_K {got_k} vs {e_k}");
     assert!(
-        (got_cl - e_cl).abs() < 1e-9 * e_cl.abs(),
+        (got_cl - e_cl).abs() < RELATIVE * e_cl.abs(),
         "E_Cl {got_cl} vs {e_cl}"
     );
     // No calcium inside: no Nernst potential, `null` (command-line.md).
@@ -312,8 +265,8 @@ fn rest_json_has_the_documented_shape_and_values() {
     // (Goldman 1943; Hodgkin & Katz 1949), and with no pump or channels so is rest.
     let ghk = j["ghk_mv"].as_f64().expect("ghk_mv is a number");
     let rest = j["resting_mv"].as_f64().expect("resting_mv is a number");
-    assert!((ghk - e_k).abs() < 1e-6, "GHK {ghk} vs E_K {e_k}");
-    assert!((rest - e_k).abs() < 1e-6, "rest {rest} vs E_K {e_k}");
+    assert!((ghk - e_k).abs() < SOLVED_MV, "GHK {ghk} vs E_K {e_k}");
+    assert!((rest - e_k).abs() < SOLVED_MV, "rest {rest} vs E_K {e_k}");
 }
 
 #[test]
@@ -328,7 +281,7 @@ fn rest_table_names_every_species_in_millivolts() {
     }
     assert!(out.contains("mV"), "{out}");
     // E_K at 25 °C, to two decimals, and the undefined calcium potential as a dash.
-    let e_k = rt_over_f_mv(25.0) * (6.0_f64 / 120.0).ln();
+    let e_k = nernst_mv(1, 120.0, 6.0, 25.0);
     assert!(
         out.contains(&format!("{e_k:.2}")),
         "E_K {e_k:.2} missing from:\n{out}"
@@ -383,6 +336,335 @@ fn run_writes_one_csv_row_per_sample() {
         .lines()
         .count();
     assert_eq!(rows, 1 + 41);
+}
+
+/// An excitable cell invented for these tests, with every kind of column the current
+/// depends on moving during the run: pulses drive V through 0 mV and back, the bath's K+ rises
+/// through a lag, Na+ permeability is scaled down and back through a lag, four ions of three
+/// charges, gated channels on two of them.
+const SPIKES: &str = r#"(
+    format: 1,
+    title: "Spikes in a changing bath",
+    temperature_c: 10.0,
+    species: [
+        (name: "K+", charge: 1, inside_mm: 135.0, outside_mm: 4.0, permeability_cm_per_s: 4.0e-7),
+        (name: "Na+", charge: 1, inside_mm: 14.0, outside_mm: 150.0, permeability_cm_per_s: 1.5e-8),
+        (name: "Cl-", charge: -1, inside_mm: 8.0, outside_mm: 125.0, permeability_cm_per_s: 6.0e-8),
+        (name: "Ca2+", charge: 2, inside_mm: 0.0002, outside_mm: 1.8, permeability_cm_per_s: 2.0e-8),
+    ],
+    channels: [
+        (label: "fast sodium", species: "Na+", max_permeability_cm_per_s: 9.0e-5, shift_mv: 0.0,
+         q10: 3.0, reference_temperature_c: 6.3,
+         gates: [(kinetics: HhSodiumActivation, power: 3), (kinetics: HhSodiumInactivation, power: 1)]),
+        (label: "delayed potassium", species: "K+", max_permeability_cm_per_s: 2.5e-5, shift_mv: 0.0,
+         q10: 3.0, reference_temperature_c: 6.3,
+         gates: [(kinetics: HhPotassiumActivation, power: 4)]),
+    ],
+    protocol: [
+        BathChange(species: "K+", outside_mm: 12.0, at_ms: 5.0, lag_ms: 8.0),
+        PermeabilityScale(species: "Na+", factor: 0.6, from_ms: 25.0, until_ms: Some(45.0), lag_ms: 3.0),
+        InjectTrain(amplitude_ua_per_cm2: 30.0, width_ms: 1.0, period_ms: 20.0, count: 3, from_ms: 10.0),
+    ],
+    run: (duration_ms: 60.0, sample_ms: 0.1),
+)
+"#;
+
+/// SPIKES' species as the test knows them: name, charge, inside and outside mM, resting
+/// permeability cm/s (the file's values, written again here rather than read through the crate).
+const SPIKES_SPECIES: [(&str, i32, f64, f64, f64); 4] = [
+    ("K+", 1, 135.0, 4.0, 4.0e-7),
+    ("Na+", 1, 14.0, 150.0, 1.5e-8),
+    ("Cl-", -1, 8.0, 125.0, 6.0e-8),
+    ("Ca2+", 2, 0.0002, 1.8, 2.0e-8),
+];
+const SPIKES_TEMPERATURE_C: f64 = 10.0;
+
+/// A CSV of numbers with a header, as columns by name.
+struct Table {
+    names: Vec<String>,
+    rows: Vec<Vec<f64>>,
+}
+
+impl Table {
+    fn parse(text: &str) -> Table {
+        let mut lines = text.lines();
+        let names = lines
+            .next()
+            .expect("a header")
+            .split(',')
+            .map(str::to_string)
+            .collect();
+        let rows = lines
+            .map(|l| {
+                l.split(',')
+                    .map(|c| {
+                        c.parse()
+                            .unwrap_or_else(|_| panic!("`{c}` is not a number in {l}"))
+                    })
+                    .collect()
+            })
+            .collect();
+        Table { names, rows }
+    }
+
+    fn column(&self, name: &str) -> Vec<f64> {
+        let k = self
+            .names
+            .iter()
+            .position(|n| n == name)
+            .unwrap_or_else(|| panic!("no column {name} in {:?}", self.names));
+        self.rows.iter().map(|r| r[k]).collect()
+    }
+}
+
+/// Each `i_ua_per_cm2:NAME` column is the GHK current of that species at that sample's V, with
+/// the permeability the sample's own state gives it (resting plus gated, P_max·m³h and
+/// P_max·n⁴, times the lagged scale) and the lagged bath concentration: the published equation
+/// (Goldman 1943; Hodgkin & Katz 1949, as model.md writes it) with CODATA 2018 constants,
+/// evaluated here, not by the crate.
+#[test]
+fn run_current_columns_are_the_ghk_current_of_each_sample() {
+    let sb = Sandbox::with("spikes.ron", SPIKES);
+    sb.ok(&["run", "spikes.ron", "--csv", "out.csv"]);
+    let table = Table::parse(&sb.read("out.csv"));
+    let v = table.column("v_mv");
+    let (m, h) = (
+        table.column("gate:fast sodium:m"),
+        table.column("gate:fast sodium:h"),
+    );
+    let n = table.column("gate:delayed potassium:n");
+    let k_out = table.column("bath_mm:K+");
+    let na_scale = table.column("factor:Na+:event1");
+    // The run does what the test needs: V crosses 0 mV, the bath and the scale move.
+    assert!(
+        v.iter().any(|&x| x > 10.0) && v.iter().any(|&x| x < -60.0),
+        "{v:?}"
+    );
+    assert!(k_out.iter().any(|&c| c > 11.0) && na_scale.iter().any(|&f| f < 0.61));
+    let mut near_zero = 0;
+    for (s, &(name, charge, inside, outside, p_rest)) in SPIKES_SPECIES.iter().enumerate() {
+        let got = table.column(&format!("i_ua_per_cm2:{name}"));
+        assert_eq!(got.len(), v.len());
+        for k in 0..v.len() {
+            let (p, c_out) = match s {
+                0 => (p_rest + 2.5e-5 * n[k].powi(4), k_out[k]),
+                1 => ((p_rest + 9.0e-5 * m[k].powi(3) * h[k]) * na_scale[k], outside),
+                _ => (p_rest, outside),
+            };
+            let (want, scale) = ghk_current_ua_per_cm2(p, charge, inside, c_out, v[k], SPIKES_TEMPERATURE_C);
+            assert!(
+                (got[k] - want).abs() <= RELATIVE * scale,
+                "{name} at row {}: {} vs {want} µA/cm² (V {} mV)",
+                k + 2,
+                got[k],
+                v[k]
+            );
+            if v[k].abs() < 1.0 {
+                near_zero += 1;
+            }
+        }
+    }
+    assert!(
+        near_zero > 0,
+        "some samples lie near 0 mV, where u/(1 − e^(−u)) needs care"
+    );
+}
+
+/// One pixel of the figure, in the units of an axis: the tolerance of reading a value back
+/// from a picture whose coordinates are whole pixels.
+const ONE_PIXEL: f64 = 1.0;
+
+/// A tick label: its value and its position along the axis, in pixels.
+#[derive(Debug, Clone, Copy)]
+struct Tick {
+    value: f64,
+    px: f64,
+}
+
+/// The straight line through an axis' tick labels (least squares): pixels → value.
+#[derive(Debug, Clone, Copy)]
+struct Axis {
+    value_at_0: f64,
+    per_px: f64,
+}
+
+impl Axis {
+    fn through(ticks: &[Tick]) -> Axis {
+        let n = ticks.len() as f64;
+        let (mp, mv) = (
+            ticks.iter().map(|t| t.px).sum::<f64>() / n,
+            ticks.iter().map(|t| t.value).sum::<f64>() / n,
+        );
+        let sxy: f64 = ticks.iter().map(|t| (t.px - mp) * (t.value - mv)).sum();
+        let sxx: f64 = ticks.iter().map(|t| (t.px - mp).powi(2)).sum();
+        let per_px = sxy / sxx;
+        Axis {
+            value_at_0: mv - per_px * mp,
+            per_px,
+        }
+    }
+    fn value(&self, px: f64) -> f64 {
+        self.value_at_0 + self.per_px * px
+    }
+    fn px(&self, value: f64) -> f64 {
+        (value - self.value_at_0) / self.per_px
+    }
+}
+
+fn attr(n: roxmltree::Node, name: &str) -> f64 {
+    n.attribute(name)
+        .and_then(|a| a.parse().ok())
+        .unwrap_or_else(|| panic!("{name} of {n:?}"))
+}
+
+/// The points of a polyline, in pixels.
+fn points(n: roxmltree::Node) -> Vec<(f64, f64)> {
+    n.attribute("points")
+        .unwrap_or_default()
+        .split_whitespace()
+        .map(|p| {
+            let (x, y) = p.split_once(',').expect("x,y");
+            (x.parse().expect("x"), y.parse().expect("y"))
+        })
+        .collect()
+}
+
+/// Checks one axis' tick labels (evenly spaced values at evenly spaced pixels, at least three)
+/// and returns the axis they define.
+fn checked_axis(mut ticks: Vec<Tick>, which: &str) -> Axis {
+    assert!(ticks.len() >= 3, "{which}: {ticks:?}");
+    ticks.sort_by(|a, b| a.value.total_cmp(&b.value));
+    let step = ticks[1].value - ticks[0].value;
+    let axis = Axis::through(&ticks);
+    for (w, t) in ticks.windows(2).zip(&ticks) {
+        assert!(
+            ((w[1].value - w[0].value) - step).abs() < RELATIVE * step.abs(),
+            "{which}: uneven {ticks:?}"
+        );
+        assert!(
+            (axis.px(t.value) - t.px).abs() <= ONE_PIXEL,
+            "{which}: {t:?} off its line"
+        );
+    }
+    // Round steps (common practice for axis labels): 1, 2 or 5 times a power of ten.
+    let mantissa = step / 10f64.powf(step.log10().floor());
+    assert!(
+        [1.0, 2.0, 5.0].iter().any(|m| (mantissa - m).abs() < RELATIVE),
+        "{which}: step {step}"
+    );
+    axis
+}
+
+/// `run --svg` read back as a figure: the tick labels make two straight axes, the V trace's
+/// points map back through them to the CSV's times and potentials within a pixel, and each
+/// reversal potential's dashed line sits at its Nernst value (CODATA 2018 constants, the
+/// file's concentrations) within a pixel, labelled with that value.
+#[test]
+fn run_svg_is_a_figure_of_the_csv_with_nernst_lines() {
+    let sb = Sandbox::with("spikes.ron", SPIKES);
+    sb.ok(&["run", "spikes.ron", "--csv", "out.csv", "--svg", "out.svg"]);
+    let table = Table::parse(&sb.read("out.csv"));
+    let (t_ms, v_mv) = (table.column("time_ms"), table.column("v_mv"));
+    let text = sb.read("out.svg");
+    let doc = roxmltree::Document::parse(&text).expect("the figure is well-formed XML");
+    let svg = doc.root_element();
+    assert_eq!(svg.tag_name().name(), "svg");
+    let texts: Vec<(roxmltree::Node, &str)> = svg
+        .descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .map(|n| (n, n.text().unwrap_or_default().trim()))
+        .collect();
+    for label in [
+        "Spikes in a changing bath",
+        "time (ms)",
+        "membrane potential (mV)",
+    ] {
+        assert!(texts.iter().any(|(_, s)| *s == label), "`{label}` is missing");
+    }
+    // Tick labels: numbers, right-aligned left of the plot (V) or centred below it (time).
+    let ticks = |anchor: &str, along: &str| -> Vec<Tick> {
+        texts
+            .iter()
+            .filter(|(n, _)| n.attribute("text-anchor") == Some(anchor))
+            .filter_map(|(n, s)| {
+                Some(Tick {
+                    value: s.parse().ok()?,
+                    px: attr(*n, along),
+                })
+            })
+            .collect()
+    };
+    let time = checked_axis(ticks("middle", "x"), "time axis");
+    let volts = checked_axis(ticks("end", "y"), "potential axis");
+    assert!(
+        time.per_px > 0.0 && volts.per_px < 0.0,
+        "time grows rightwards, V upwards"
+    );
+    // The time axis starts at 0 at its first label and reaches the end of the run.
+    assert!(ticks("middle", "x").iter().any(|t| t.value == 0.0));
+    let px_ms = time.per_px.abs();
+    let px_mv = volts.per_px.abs();
+
+    // The trace: the one polyline of more than two points. The figure keeps every sample of a
+    // run this short (it thins only beyond 6000), so its points are the CSV's rows in order.
+    let traces: Vec<Vec<(f64, f64)>> = svg
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline"))
+        .map(points)
+        .filter(|p| p.len() > 2)
+        .collect();
+    assert_eq!(traces.len(), 1, "one trace");
+    let trace = &traces[0];
+    assert_eq!(trace.len(), t_ms.len(), "one point per sample");
+    for (k, &(x, y)) in trace.iter().enumerate() {
+        let (t, v) = (time.value(x), volts.value(y));
+        assert!(
+            (t - t_ms[k]).abs() <= ONE_PIXEL * px_ms,
+            "row {}: t {t} vs {}",
+            k + 2,
+            t_ms[k]
+        );
+        assert!(
+            (v - v_mv[k]).abs() <= ONE_PIXEL * px_mv,
+            "row {}: V {v} vs {}",
+            k + 2,
+            v_mv[k]
+        );
+    }
+
+    // Reversal lines: each species' label names its Nernst value to 0.1 mV and has the colour
+    // of a dashed horizontal line drawn at that value.
+    for &(name, charge, inside, outside, _) in &SPIKES_SPECIES {
+        let e_mv = nernst_mv(charge, inside, outside, SPIKES_TEMPERATURE_C);
+        let prefix = format!("E {name} ");
+        let (label, words) = texts
+            .iter()
+            .find(|(_, s)| s.starts_with(&prefix))
+            .unwrap_or_else(|| panic!("no label for {name}"));
+        let shown: f64 = words[prefix.len()..]
+            .trim_end_matches(" mV")
+            .parse()
+            .unwrap_or_else(|_| panic!("{words}"));
+        assert!(
+            (shown - e_mv).abs() <= LABEL_MV * (1.0 + RELATIVE),
+            "{words} vs {e_mv:.3} mV"
+        );
+        let colour = label.attribute("fill").expect("a coloured label");
+        let ys: Vec<f64> = svg
+            .descendants()
+            .filter(|n| n.has_tag_name("polyline") && n.attribute("stroke") == Some(colour))
+            .flat_map(points)
+            .map(|(_, y)| y)
+            .collect();
+        assert!(ys.len() >= 10, "{name}: a dashed line, {} points", ys.len());
+        for y in ys {
+            let at = volts.value(y);
+            assert!(
+                (at - e_mv).abs() <= ONE_PIXEL * px_mv,
+                "{name}: line at {at} mV vs {e_mv} mV"
+            );
+        }
+    }
 }
 
 #[test]

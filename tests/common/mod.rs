@@ -2,6 +2,9 @@
 
 #![allow(dead_code)]
 
+pub mod cli;
+pub mod reference;
+
 use permeant::scenario::{Scenario, Valid, validate};
 
 /// `s` as a validated scenario; a test that builds an invalid one has a bug, so this panics
