@@ -9,16 +9,34 @@ use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 
 mod common;
+use common::reference::{
+    self, Ion, ghk_voltage_mv, potential_carrying_mv, slope_conductance_ms_per_cm2, zero_current_mv,
+};
 use common::valid;
+
+/// A potential the program solves for against a closed form or the tests' own bisection: the
+/// root finder stops far inside [`ACCURACY_MV`].
+const SOLVED_MV: f64 = 1e-6;
+/// model.md's accuracy of a trace against a reference solution at every output sample.
+const ACCURACY_MV: f64 = 0.01;
+/// Relative agreement with a value computed here from the same formula and CODATA constants
+/// (the published ten-digit R and F differ from the exact products by about 2e-11).
+const RELATIVE: f64 = 1e-9;
+/// Fitted ratios against the ratios exact data were made with: the data carry the reference to
+/// every digit, so only the solver's and the minimiser's tolerances remain.
+const RATIO_RELATIVE: f64 = 1e-8;
+/// A passive GHK membrane is linear only to first order: over a step of about 1 mV its slope
+/// conductance changes by about ΔV/(2·RT/F), under 2 % at RT/F = 26.7 mV, so exponential
+/// charging with one time constant holds to that.
+const LINEARITY: f64 = 0.02;
 use permeant::analysis::fit::{DataError, DataPoint, FitError, FitSpace, fit, parse_points};
 use permeant::analysis::metrics::{SpikeSettings, dose_response, first_event_ms, trace_metrics};
 use permeant::analysis::rest_report;
 use permeant::analysis::sweep::{
-    SweepControl, SweepError, SweepPoint, SweepRange, Vary, apply, nernst_line, sweep, sweep_point,
+    SweepControl, SweepError, SweepPoint, SweepRange, Vary, nernst_line, sweep, sweep_point,
 };
-use permeant::constants::nernst_slope_mv_per_decade;
-use permeant::engine::{EngineError, Model, Run, SolverSettings};
-use permeant::physics::{Conditions, Kinetics, Undefined};
+use permeant::engine::{EngineError, Run, SolverSettings};
+use permeant::physics::{Kinetics, Undefined};
 use permeant::scenario::{Channel, Event, Gate, Pump, Scenario, Species};
 
 // ---------------------------------------------------------------------------------------------
@@ -136,16 +154,57 @@ fn excitable() -> Scenario {
     s
 }
 
-/// Measured-looking points: the model's own resting potentials at `values`, plus noise.
-fn synthetic(s: &Scenario, vary: &Vary, values: &[f64], noise: &mut dyn FnMut() -> f64) -> Vec<DataPoint> {
+/// A scenario's species as the reference's ions (its inputs, read as given).
+fn ions(s: &Scenario) -> Vec<Ion> {
+    s.species
+        .iter()
+        .map(|x| Ion {
+            charge: x.charge,
+            inside_mm: x.inside_mm,
+            outside_mm: x.outside_mm,
+            p_cm_per_s: x.permeability_cm_per_s,
+        })
+        .collect()
+}
+
+/// `s` with the bath's K+ (the first species) at `k_out_mm`, set here rather than through the
+/// sweep's own `apply`.
+fn with_bath_k(s: &Scenario, k_out_mm: f64) -> Scenario {
+    let mut s = s.clone();
+    assert_eq!(s.species[0].name, "K+", "test setup: K+ comes first");
+    s.species[0].outside_mm = k_out_mm;
+    s
+}
+
+/// Measured-looking points of a passive cell over bath K+: the potential where the published
+/// GHK currents sum to zero, found by the tests' own bisection ([`zero_current_mv`]), plus noise.
+fn bath_k_series(s: &Scenario, values: &[f64], noise: &mut dyn FnMut() -> f64) -> Vec<DataPoint> {
+    assert!(
+        s.channels.is_empty() && s.pump.is_none(),
+        "test setup: a passive cell"
+    );
+    values
+        .iter()
+        .enumerate()
+        .map(|(k, &x)| DataPoint {
+            value: x,
+            v_mv: zero_current_mv(&ions(&with_bath_k(s, x)), s.temperature_c) + noise(),
+            row: k + 2,
+        })
+        .collect()
+}
+
+/// A round trip, for a cell with no closed form (a pump, gated channels): points at the
+/// program's own steady states over bath K+, which a fit must find its way back to.
+fn program_bath_k_series(s: &Scenario, values: &[f64]) -> Vec<DataPoint> {
     values
         .iter()
         .enumerate()
         .map(|(k, &x)| {
-            let r = rest_report(&valid(&apply(s, vary, x).expect("applies"))).expect("report");
+            let r = rest_report(&valid(&with_bath_k(s, x))).expect("report");
             DataPoint {
                 value: x,
-                v_mv: r.resting_mv().expect("defined") + noise(),
+                v_mv: r.resting_mv().expect("defined"),
                 row: k + 2,
             }
         })
@@ -191,10 +250,10 @@ fn names(v: &[&str]) -> Vec<String> {
 // Sweeps
 
 #[test]
-fn bath_potassium_sweep_approaches_the_nernst_slope() {
-    // CODATA 2018 constants give ln(10)·RT/F = 61.5 mV per decade at 37 °C.
-    let nernst = nernst_slope_mv_per_decade(37.0, 1);
-    assert!((nernst - 61.5).abs() < 0.05);
+fn bath_potassium_sweep_follows_the_ghk_equation_towards_the_nernst_slope() {
+    // CODATA 2018 constants give ln(10)·RT/F = 61.54 mV per decade at 37 °C.
+    let nernst = reference::nernst_slope_mv_per_decade(1, 37.0);
+    assert!((nernst - 61.54).abs() < 0.005, "{nernst}");
     // A potassium-dominated cell (P_Na/P_K = 0.01, chloride impermeant).
     let s = passive(37.0, 0.01, 0.0);
     let vary = Vary::parse("outside_mm:K+", &s).expect("parses");
@@ -205,12 +264,26 @@ fn bath_potassium_sweep_approaches_the_nernst_slope() {
         log: true,
     };
     let pts = sweep(&s, &vary, &range, &SweepControl::default()).expect("sweep");
+    // Every point is the GHK voltage equation at its bath K+ (Goldman 1943; Hodgkin & Katz 1949).
+    for p in &pts {
+        let want = ghk_voltage_mv(&ions(&with_bath_k(&s, p.value)), 37.0);
+        for got in [p.ghk_mv, p.resting_mv] {
+            let got = got.expect("defined");
+            assert!(
+                (got - want).abs() < SOLVED_MV,
+                "at {} mM: {got} vs {want}",
+                p.value
+            );
+        }
+    }
     let slope = |a: &SweepPoint, b: &SweepPoint| {
         (b.resting_mv.expect("defined") - a.resting_mv.expect("defined")) / (b.value / a.value).log10()
     };
+    // Near 150 mM the sodium term is 1.45/151 of the potassium term, so the slope is within
+    // 2 % of Nernst's (common practice: high bath K+ makes a K+ electrode of the cell).
     let high = slope(&pts[39], &pts[40]);
     assert!(
-        (high - 61.5).abs() / 61.5 < 0.05,
+        (high - nernst).abs() / nernst < 0.02,
         "slope at high K+ {high} mV/decade"
     );
     // Common practice: at low bath potassium the sodium leak matters more and the curve
@@ -223,10 +296,14 @@ fn bath_potassium_sweep_approaches_the_nernst_slope() {
     let values: Vec<f64> = pts.iter().map(|p| p.value).collect();
     let line = nernst_line(&s, &vary, &values).expect("a concentration sweep has a line");
     assert_eq!(line.species, "K+");
-    assert_eq!(line.slope_mv_per_decade, nernst);
-    let e_first = line.e_mv[0].expect("defined");
-    let e_last = line.e_mv[40].expect("defined");
-    assert!(((e_last - e_first) / 150f64.log10() - nernst).abs() < 1e-9);
+    assert!((line.slope_mv_per_decade - nernst).abs() < RELATIVE * nernst);
+    for (x, e) in values.iter().zip(&line.e_mv) {
+        let want = reference::nernst_mv(1, 140.0, *x, 37.0);
+        assert!(
+            (e.expect("defined") - want).abs() < RELATIVE * want.abs().max(1.0),
+            "{x} mM"
+        );
+    }
     // The Nernst potential bounds the resting potential from below in a cell where the only
     // other permeant ion (Na+) reverses positive (common practice).
     assert!(
@@ -246,6 +323,30 @@ fn sweep_points_equal_single_rest_reports() {
         ("permeability:Cl-", 1e-9, 1e-6, true),
         ("dose_um:sodium blocker", 0.01, 100.0, true),
     ];
+    // The scenario each point should be, with the field set here by hand (not by `apply`).
+    let by_hand = |what: &str, x: f64| {
+        let mut e = s.clone();
+        match what {
+            "temperature_c" => e.temperature_c = x,
+            "outside_mm:K+" => e.species[0].outside_mm = x,
+            "inside_mm:Na+" => e.species[1].inside_mm = x,
+            "permeability:Cl-" => e.species[2].permeability_cm_per_s = x,
+            _ => {
+                let Event::Agent {
+                    dose_um,
+                    from_ms,
+                    until_ms,
+                    ..
+                } = &mut e.protocol[0]
+                else {
+                    panic!("test setup: the agent comes first");
+                };
+                // In force from t = 0 to the end (see `sweep::apply`).
+                (*dose_um, *from_ms, *until_ms) = (x, 0.0, None);
+            }
+        }
+        valid(&e)
+    };
     for (what, from, to, log) in cases {
         let vary = Vary::parse(what, &s).expect("parses");
         assert_eq!(
@@ -268,7 +369,7 @@ fn sweep_points_equal_single_rest_reports() {
         assert_eq!(pts.len(), 7);
         assert_eq!((pts[0].value, pts[6].value), (from, to), "ends are exact");
         for p in &pts {
-            let r = rest_report(&valid(&apply(&s, &vary, p.value).expect("applies"))).expect("report");
+            let r = rest_report(&by_hand(what, p.value)).expect("report");
             assert_eq!(p.ghk_mv, r.ghk_mv.as_ref().ok().copied(), "{what} = {}", p.value);
             assert_eq!(p.resting_mv, r.resting_mv(), "{what} = {}", p.value);
             assert!(
@@ -450,7 +551,7 @@ fn undefined_potentials_are_reported_not_nan() {
 fn fit_recovers_known_ratios_from_exact_points() {
     let truth = passive(37.0, 0.05, 0.3);
     let vary = Vary::OutsideMm("K+".into());
-    let data = synthetic(&truth, &vary, &log_values(2.0, 100.0, 20), &mut || 0.0);
+    let data = bath_k_series(&truth, &log_values(2.0, 100.0, 20), &mut || 0.0);
     // Start far from the truth, and in both parameter spaces.
     let start = passive(37.0, 0.5, 0.02);
     for space in [FitSpace::LogRatio, FitSpace::Direct] {
@@ -492,7 +593,7 @@ fn noisy_fits_have_honest_standard_errors() {
     let mut within_one = [0usize; 2];
     for seed in 1..=trials {
         let mut rng = Rng::new(seed);
-        let data = synthetic(&truth, &vary, &values, &mut || 0.5 * rng.normal());
+        let data = bath_k_series(&truth, &values, &mut || 0.5 * rng.normal());
         let r = fit(&truth, &vary, &names(&["Na+", "Cl-"]), &data, FitSpace::LogRatio).expect("fits");
         // The rms residual estimates the noise, 0.5 mV.
         assert!(
@@ -526,19 +627,22 @@ fn noisy_fits_have_honest_standard_errors() {
     }
 }
 
+/// The resting ratio quoted for the squid giant axon, P_K : P_Na : P_Cl = 1 : 0.04 : 0.45
+/// (Hodgkin & Katz 1949, J. Physiol. 108:37, from memory), is used here as parameters only:
+/// this checks that such a ratio fits back from a series made with the GHK currents, not the
+/// paper's measurements.
 #[test]
-fn hodgkin_katz_resting_ratio_fits_back_from_a_bath_potassium_series() {
-    // Hodgkin & Katz 1949, J. Physiol. 108:37 (from memory): at rest P_K : P_Na : P_Cl =
-    // 1 : 0.04 : 0.45 in the squid giant axon.
+fn a_squid_axon_like_ratio_fits_back_from_a_bath_potassium_series() {
     let truth = axon_hodgkin_katz();
     let vary = Vary::OutsideMm("K+".into());
-    let data = synthetic(&truth, &vary, &log_values(2.0, 100.0, 12), &mut || 0.0);
+    let data = bath_k_series(&truth, &log_values(2.0, 100.0, 12), &mut || 0.0);
     let mut start = truth.clone();
     start.species[1].permeability_cm_per_s = 0.2e-6;
     start.species[2].permeability_cm_per_s = 0.05e-6;
     let r = fit(&start, &vary, &names(&["Na+", "Cl-"]), &data, FitSpace::LogRatio).expect("fits");
-    assert!((r.ratios[0].ratio - 0.04).abs() < 1e-8, "{:?}", r.ratios);
-    assert!((r.ratios[1].ratio - 0.45).abs() < 1e-8, "{:?}", r.ratios);
+    for (got, want) in r.ratios.iter().zip([0.04, 0.45]) {
+        assert!((got.ratio - want).abs() < RATIO_RELATIVE * want, "{:?}", r.ratios);
+    }
 }
 
 #[test]
@@ -547,7 +651,7 @@ fn fit_through_a_pump_and_gated_channels() {
     // pump and open channels shift the potential away from the GHK value.
     let truth = excitable();
     let vary = Vary::OutsideMm("K+".into());
-    let data = synthetic(&truth, &vary, &log_values(2.0, 20.0, 10), &mut || 0.0);
+    let data = program_bath_k_series(&truth, &log_values(2.0, 20.0, 10));
     let mut start = truth.clone();
     start.species[1].permeability_cm_per_s = 5e-9;
     start.species[2].permeability_cm_per_s = 2e-7;
@@ -564,7 +668,7 @@ fn three_ratios_with_a_divalent_ion_from_a_distant_start() {
     let mut truth = passive(37.0, 0.04, 0.3);
     truth.species.push(species("Ca2+", 2, 1.0e-4, 2.0, 0.4e-6));
     let vary = Vary::OutsideMm("K+".into());
-    let data = synthetic(&truth, &vary, &log_values(1.0, 150.0, 20), &mut || 0.0);
+    let data = bath_k_series(&truth, &log_values(1.0, 150.0, 20), &mut || 0.0);
     let mut start = truth.clone();
     for (i, p) in [(1, 2.0e-7), (2, 5.0e-8), (3, 1.0e-7)] {
         start.species[i].permeability_cm_per_s = p;
@@ -636,7 +740,7 @@ fn bad_data_messages_name_the_row_or_parameter() {
 
     let s = passive(37.0, 0.05, 0.3);
     let vary = Vary::OutsideMm("K+".into());
-    let data = synthetic(&s, &vary, &log_values(2.0, 100.0, 6), &mut || 0.0);
+    let data = bath_k_series(&s, &log_values(2.0, 100.0, 6), &mut || 0.0);
     let free = |v: &[&str]| fit(&s, &vary, &names(v), &data, FitSpace::LogRatio).expect_err("refused");
     assert!(matches!(free(&[]), FitError::NothingFree));
     let e = free(&["Ca2+"]).to_string();
@@ -683,7 +787,7 @@ fn bad_data_messages_name_the_row_or_parameter() {
     // Data made without any chloride permeability drive that ratio towards 0, where the
     // potentials no longer depend on it.
     let no_cl = passive(37.0, 0.05, 0.0);
-    let data = synthetic(&no_cl, &vary, &log_values(2.0, 100.0, 8), &mut || 0.0);
+    let data = bath_k_series(&no_cl, &log_values(2.0, 100.0, 8), &mut || 0.0);
     let e = fit(&s, &vary, &names(&["Na+", "Cl-"]), &data, FitSpace::LogRatio).expect_err("flat");
     match e {
         FitError::Undetermined { names, .. } => assert_eq!(names, vec!["Cl-".to_string()]),
@@ -744,8 +848,7 @@ fn no_potential_at_zero_bath_potassium() -> (Scenario, Vec<DataPoint>) {
         species("K+", 1, 140.0, 5.0, 1.0e-6),
         species("Cl-", -1, 0.0, 120.0, 0.1e-6),
     ];
-    let vary = Vary::OutsideMm("K+".into());
-    let mut data = synthetic(&s, &vary, &[5.0, 20.0, 50.0], &mut || 0.0);
+    let mut data = bath_k_series(&s, &[5.0, 20.0, 50.0], &mut || 0.0);
     data.insert(
         1,
         DataPoint {
@@ -827,42 +930,40 @@ fn passive_step_response_has_the_membrane_time_constant() {
     let m =
         trace_metrics(&tr.t_ms, tr.v_mv(), first_event_ms(&s), SpikeSettings::default()).expect("metrics");
 
-    let mut model = Model::new(&valid(&s)).expect("model");
-    let v0 = model.steady_state_at_start().resting_mv.expect("rest");
-    let (inside, outside, factor) = model.membrane.file_values();
-    let cond = Conditions {
-        inside_mm: &inside,
-        outside_mm: &outside,
-        p_factor: &factor,
-        inject_ua_per_cm2: 0.0,
-    };
-    let mut scratch = vec![0.0; 3];
-    let h = 1e-3;
-    let g_ms = (model
-        .membrane
-        .steady_net_current(v0 + h, &cond, &mut [], &mut scratch)
-        - model
-            .membrane
-            .steady_net_current(v0 - h, &cond, &mut [], &mut scratch))
-        / (2.0 * h);
+    // The resting potential, the potential carrying the injected current, and the slope
+    // conductance at rest, all from the published GHK currents (the tests' own code).
+    let cell = ions(&s);
+    let v0 = zero_current_mv(&cell, 37.0);
+    let v_end = potential_carrying_mv(&cell, 37.0, i_ua);
+    let g_ms = slope_conductance_ms_per_cm2(&cell, 37.0, v0);
     let tau_ms = s.cell.capacitance_uf_per_cm2 / g_ms;
 
-    assert!((m.before_first_event_mv - v0).abs() < 1e-6);
+    assert!((m.before_first_event_mv - v0).abs() < SOLVED_MV);
+    // 180 ms after the step is many time constants: the trace has settled to its accuracy.
+    assert!(
+        180.0 > 15.0 * tau_ms,
+        "test setup: τ {tau_ms} ms is short against the run"
+    );
+    assert!(
+        (m.final_mv - v_end).abs() < ACCURACY_MV,
+        "final {} vs {v_end} mV",
+        m.final_mv
+    );
     let dv = m.final_mv - m.before_first_event_mv;
     assert!(
-        (dv - i_ua / g_ms).abs() < 0.02 * i_ua / g_ms,
+        (dv - i_ua / g_ms).abs() < LINEARITY * i_ua / g_ms,
         "ΔV {dv} vs {}",
         i_ua / g_ms
     );
     let half = m.half_change_ms.expect("half time");
     assert!(
-        (half - tau_ms * std::f64::consts::LN_2).abs() < 0.02 * tau_ms,
+        (half - tau_ms * std::f64::consts::LN_2).abs() < LINEARITY * tau_ms,
         "half {half} ms, τ {tau_ms} ms"
     );
     // The fastest rise is at the step: I/C.
     let rise = m.max_dvdt_mv_per_ms.expect("slope");
     assert!(
-        (rise - i_ua / s.cell.capacitance_uf_per_cm2).abs() < 0.02 * i_ua,
+        (rise - i_ua / s.cell.capacitance_uf_per_cm2).abs() < LINEARITY * i_ua,
         "{rise}"
     );
     assert_eq!(m.spike_count, 0);
@@ -918,6 +1019,7 @@ fn sodium_blocker_dose_response_silences_an_excitable_cell() {
     // Blocking the sodium leak hyperpolarizes; the half effect lies inside the dose range.
     let v: Vec<f64> = dr.points.iter().map(|p| p.resting_mv.expect("defined")).collect();
     assert!(v.windows(2).all(|w| w[1] < w[0]), "{v:?}");
-    let half = dr.half_effect_dose_um.expect("crosses");
-    assert!(half > 0.001 && half < 1000.0, "{half}");
+    // Where the potential passes halfway is interpolated between two doses of the range (so
+    // it lies inside it by construction); that it exists is what is checked.
+    assert!(dr.half_effect_dose_um.is_some(), "{:?}", dr.points);
 }

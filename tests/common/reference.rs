@@ -43,3 +43,88 @@ pub fn ghk_current_ua_per_cm2(
     let pzf = p_cm_per_s * z * F_C_PER_MOL;
     (pzf * (efflux - influx) * g, (pzf * efflux.max(influx) * g).abs())
 }
+
+/// ln(10)·RT/(zF), mV per tenfold change of concentration (the Nernst slope).
+pub fn nernst_slope_mv_per_decade(charge: i32, t_c: f64) -> f64 {
+    std::f64::consts::LN_10 * rt_over_f_mv(t_c) / f64::from(charge)
+}
+
+/// One permeant species for the references below: charge, inside and outside mM, P in cm/s.
+#[derive(Debug, Clone, Copy)]
+pub struct Ion {
+    pub charge: i32,
+    pub inside_mm: f64,
+    pub outside_mm: f64,
+    pub p_cm_per_s: f64,
+}
+
+/// The GHK voltage equation for monovalent ions (Goldman 1943; Hodgkin & Katz 1949):
+/// `V = (RT/F) ln((Σ_cations P c_out + Σ_anions P c_in) / (Σ_cations P c_in + Σ_anions P c_out))`.
+pub fn ghk_voltage_mv(ions: &[Ion], t_c: f64) -> f64 {
+    let (mut num, mut den) = (0.0, 0.0);
+    for i in ions {
+        match i.charge {
+            1 => {
+                num += i.p_cm_per_s * i.outside_mm;
+                den += i.p_cm_per_s * i.inside_mm;
+            }
+            -1 => {
+                num += i.p_cm_per_s * i.inside_mm;
+                den += i.p_cm_per_s * i.outside_mm;
+            }
+            z => panic!("the closed form holds for monovalent ions only, not charge {z}"),
+        }
+    }
+    rt_over_f_mv(t_c) * (num / den).ln()
+}
+
+/// The potential where the GHK currents of `ions` sum to zero, for any charges.
+pub fn zero_current_mv(ions: &[Ion], t_c: f64) -> f64 {
+    potential_carrying_mv(ions, t_c, 0.0)
+}
+
+/// The potential at which the GHK currents of `ions` sum to `outward_ua_per_cm2` (a steady
+/// injected current, model.md's membrane equation at dV/dt = 0), by plain bisection of
+/// [`ghk_current_ua_per_cm2`] between −1000 and +1000 mV (each current rises with V): slow and
+/// simple, and sharing no code with the program's root finder.
+pub fn potential_carrying_mv(ions: &[Ion], t_c: f64, outward_ua_per_cm2: f64) -> f64 {
+    let excess = |v: f64| -> f64 {
+        ions.iter()
+            .map(|i| ghk_current_ua_per_cm2(i.p_cm_per_s, i.charge, i.inside_mm, i.outside_mm, v, t_c).0)
+            .sum::<f64>()
+            - outward_ua_per_cm2
+    };
+    let (mut lo, mut hi) = (-1000.0, 1000.0);
+    assert!(
+        excess(lo) < 0.0 && excess(hi) > 0.0,
+        "no such potential within ±1000 mV"
+    );
+    // 2000 mV halved 60 times is below 2e-15 mV: the f64 spacing near any potential here.
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if excess(mid) < 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+/// The slope conductance `dΣI/dV` of `ions` at `v_mv`, mS/cm² (µA/cm² per mV), by a central
+/// difference of [`ghk_current_ua_per_cm2`] over ±1 µV.
+pub fn slope_conductance_ms_per_cm2(ions: &[Ion], t_c: f64, v_mv: f64) -> f64 {
+    let net = |v: f64| -> f64 {
+        ions.iter()
+            .map(|i| ghk_current_ua_per_cm2(i.p_cm_per_s, i.charge, i.inside_mm, i.outside_mm, v, t_c).0)
+            .sum()
+    };
+    let h = 1e-3;
+    (net(v_mv + h) - net(v_mv - h)) / (2.0 * h)
+}
+
+/// The fraction of a channel an agent blocks at dose `d` (the Hill equation, Hill 1910, as
+/// model.md writes it): `b = max_block · dⁿ/(dⁿ + IC50ⁿ)`.
+pub fn fraction_blocked(max_block: f64, ic50_um: f64, hill: f64, dose_um: f64) -> f64 {
+    max_block * dose_um.powf(hill) / (dose_um.powf(hill) + ic50_um.powf(hill))
+}
