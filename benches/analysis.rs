@@ -11,19 +11,12 @@ use permeant::analysis::decimate::decimate_min_max;
 use permeant::analysis::fit::{DataPoint, FitSpace, fit};
 use permeant::analysis::rest_report;
 use permeant::analysis::sweep::{SweepControl, SweepRange, Vary, apply, sweep};
-use permeant::physics::Kinetics;
+use permeant::scenario::Scenario;
 use permeant::scenario::validate;
-use permeant::scenario::{Channel, Gate, Scenario, Species};
 
-fn species(name: &str, charge: i32, inside_mm: f64, outside_mm: f64, p_cm_per_s: f64) -> Species {
-    Species {
-        name: name.into(),
-        charge,
-        inside_mm,
-        outside_mm,
-        permeability_cm_per_s: p_cm_per_s,
-    }
-}
+#[path = "../tests/common/cells.rs"]
+mod cells;
+use cells::{hh_channels, species};
 
 /// A passive cell with four permeant species, one of them divalent (invented numbers).
 fn passive() -> Scenario {
@@ -41,41 +34,7 @@ fn passive() -> Scenario {
 fn excitable() -> Scenario {
     let mut s = passive();
     s.temperature_c = 6.3;
-    let channel = |label: &str, sp: &str, p: f64, gates: Vec<Gate>| Channel {
-        label: label.into(),
-        species: sp.into(),
-        max_permeability_cm_per_s: p,
-        shift_mv: 0.0,
-        q10: 3.0,
-        reference_temperature_c: 6.3,
-        gates,
-    };
-    s.channels = vec![
-        channel(
-            "fast sodium",
-            "Na+",
-            8.0e-5,
-            vec![
-                Gate {
-                    kinetics: Kinetics::HhSodiumActivation,
-                    power: 3,
-                },
-                Gate {
-                    kinetics: Kinetics::HhSodiumInactivation,
-                    power: 1,
-                },
-            ],
-        ),
-        channel(
-            "delayed potassium",
-            "K+",
-            2.5e-5,
-            vec![Gate {
-                kinetics: Kinetics::HhPotassiumActivation,
-                power: 4,
-            }],
-        ),
-    ];
+    s.channels = hh_channels(8.0e-5, 2.5e-5);
     s
 }
 

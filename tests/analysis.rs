@@ -9,6 +9,7 @@ use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 
 mod common;
+use common::cells::{hh_channels, species};
 use common::reference::{
     self, Ion, ghk_voltage_mv, potential_carrying_mv, slope_conductance_ms_per_cm2, zero_current_mv,
 };
@@ -36,21 +37,11 @@ use permeant::analysis::sweep::{
     SweepControl, SweepError, SweepPoint, SweepRange, Vary, nernst_line, sweep, sweep_point,
 };
 use permeant::engine::{EngineError, Run, SolverSettings};
-use permeant::physics::{Kinetics, Undefined};
-use permeant::scenario::{Channel, Event, Gate, Pump, Scenario, Species};
+use permeant::physics::Undefined;
+use permeant::scenario::{Event, Pump, Scenario};
 
 // ---------------------------------------------------------------------------------------------
 // Cells
-
-fn species(name: &str, charge: i32, inside_mm: f64, outside_mm: f64, p_cm_per_s: f64) -> Species {
-    Species {
-        name: name.into(),
-        charge,
-        inside_mm,
-        outside_mm,
-        permeability_cm_per_s: p_cm_per_s,
-    }
-}
 
 /// A passive cell with K+, Na+ and Cl- permeabilities in the ratio 1 : r_na : r_cl.
 fn passive(temperature_c: f64, r_na: f64, r_cl: f64) -> Scenario {
@@ -97,38 +88,7 @@ fn excitable() -> Scenario {
         half_saturation_outside_mm: 1.5,
         hill_outside: 1.0,
     });
-    s.channels = vec![
-        Channel {
-            label: "fast sodium".into(),
-            species: "Na+".into(),
-            max_permeability_cm_per_s: 8.0e-5,
-            shift_mv: 0.0,
-            q10: 3.0,
-            reference_temperature_c: 6.3,
-            gates: vec![
-                Gate {
-                    kinetics: Kinetics::HhSodiumActivation,
-                    power: 3,
-                },
-                Gate {
-                    kinetics: Kinetics::HhSodiumInactivation,
-                    power: 1,
-                },
-            ],
-        },
-        Channel {
-            label: "delayed potassium".into(),
-            species: "K+".into(),
-            max_permeability_cm_per_s: 2.5e-5,
-            shift_mv: 0.0,
-            q10: 3.0,
-            reference_temperature_c: 6.3,
-            gates: vec![Gate {
-                kinetics: Kinetics::HhPotassiumActivation,
-                power: 4,
-            }],
-        },
-    ];
+    s.channels = hh_channels(8.0e-5, 2.5e-5);
     s.protocol = vec![
         Event::Agent {
             label: "sodium blocker".into(),

@@ -59,12 +59,15 @@ fn setup() -> Sandbox {
     Sandbox::with("cell.ron", CELL)
 }
 
+/// A scan's `--from`, `--to` and `--points`, as typed.
+type Span<'a> = (&'a str, &'a str, &'a str);
+
 /// `permeant scan FILE --vary WHAT --from A --to B --points N`, then any further arguments.
 fn sweep(
     sb: &Sandbox,
     file: &str,
     vary: &str,
-    (from, to, points): (&str, &str, &str),
+    (from, to, points): Span,
     more: &[&str],
 ) -> std::process::Output {
     let mut args = vec![
@@ -218,7 +221,7 @@ fn sweep_csv_and_table() {
 #[test]
 fn sweep_bad_input_exits_2_naming_the_problem() {
     let sb = setup();
-    let cases: [(&str, (&str, &str, &str), &[&str], &[&str]); 5] = [
+    let cases: [(&str, Span, &[&str], &[&str]); 5] = [
         (
             "outside_mm:Ca2+",
             ("1", "2", "3"),

@@ -158,40 +158,16 @@ pub fn trace_metrics(
     })
 }
 
-/// Each metric minus the baseline's (`None` where either is undefined).
+/// Each metric minus the baseline's, in [`METRIC_COLUMNS`] order (`None` where either is
+/// undefined).
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct MetricsDelta {
-    pub before_first_event_mv: f64,
-    pub final_mv: f64,
-    pub peak_mv: f64,
-    pub peak_t_ms: f64,
-    pub trough_mv: f64,
-    pub trough_t_ms: f64,
-    pub max_dvdt_mv_per_ms: Option<f64>,
-    pub half_change_ms: Option<f64>,
-    pub spike_count: i64,
-    pub first_spike_latency_ms: Option<f64>,
-}
-
-fn opt_sub(a: Option<f64>, b: Option<f64>) -> Option<f64> {
-    Some(a? - b?)
-}
+pub struct MetricsDelta([Option<f64>; 10]);
 
 impl TraceMetrics {
     /// This trace's metrics minus `baseline`'s.
     pub fn minus(&self, baseline: &TraceMetrics) -> MetricsDelta {
-        MetricsDelta {
-            before_first_event_mv: self.before_first_event_mv - baseline.before_first_event_mv,
-            final_mv: self.final_mv - baseline.final_mv,
-            peak_mv: self.peak_mv - baseline.peak_mv,
-            peak_t_ms: self.peak_t_ms - baseline.peak_t_ms,
-            trough_mv: self.trough_mv - baseline.trough_mv,
-            trough_t_ms: self.trough_t_ms - baseline.trough_t_ms,
-            max_dvdt_mv_per_ms: opt_sub(self.max_dvdt_mv_per_ms, baseline.max_dvdt_mv_per_ms),
-            half_change_ms: opt_sub(self.half_change_ms, baseline.half_change_ms),
-            spike_count: self.spike_count as i64 - baseline.spike_count as i64,
-            first_spike_latency_ms: opt_sub(self.first_spike_latency_ms, baseline.first_spike_latency_ms),
-        }
+        let (mine, base) = (self.cells(), baseline.cells());
+        MetricsDelta(std::array::from_fn(|k| Some(mine[k]? - base[k]?)))
     }
 
     /// Values in [`METRIC_COLUMNS`] order.
@@ -214,18 +190,7 @@ impl TraceMetrics {
 impl MetricsDelta {
     /// Differences in [`METRIC_COLUMNS`] order.
     pub fn cells(&self) -> [Option<f64>; 10] {
-        [
-            Some(self.before_first_event_mv),
-            Some(self.final_mv),
-            Some(self.peak_mv),
-            Some(self.peak_t_ms),
-            Some(self.trough_mv),
-            Some(self.trough_t_ms),
-            self.max_dvdt_mv_per_ms,
-            self.half_change_ms,
-            Some(self.spike_count as f64),
-            self.first_spike_latency_ms,
-        ]
+        self.0
     }
 }
 
@@ -471,9 +436,16 @@ mod tests {
         assert_eq!(m.spike_count, 3);
         let lat = m.first_spike_latency_ms.expect("latency");
         assert!((lat - 10.0).abs() < 0.11, "{lat}");
-        let d = m.minus(&m);
-        assert_eq!(d.spike_count, 0);
-        assert_eq!(d.final_mv, 0.0);
+        // Against a silent baseline at the same potential: three more spikes, the same final
+        // potential, and no latency difference where the baseline has no spike.
+        let flat =
+            trace_metrics(&t, &vec![-65.0; t.len()], Some(40.0), SpikeSettings::default()).expect("metrics");
+        let d = m.minus(&flat).cells();
+        let column = |name: &str| METRIC_COLUMNS.iter().position(|c| *c == name).expect("a column");
+        assert_eq!(d[column("spike_count")], Some(3.0));
+        assert_eq!(d[column("final_mv")], Some(0.0));
+        assert_eq!(d[column("peak_mv")], Some(85.0));
+        assert_eq!(d[column("first_spike_latency_ms")], None);
     }
 
     #[test]

@@ -132,23 +132,14 @@ pub fn run(a: Args) -> anyhow::Result<()> {
 
 /// The human-readable report.
 fn table(title: &str, vary: &Vary, r: &FitResult) -> String {
-    let mut o = String::new();
-    if !title.is_empty() {
-        o += &format!("{title}\n");
-    }
+    let mut o = super::title_line(title);
     o += &format!(
         "permeabilities relative to {} (fixed), fitted to {} point(s) over {}\n\n",
         r.reference,
         r.residuals.len(),
         vary.label()
     );
-    let name_w = r
-        .ratios
-        .iter()
-        .map(|x| x.name.chars().count())
-        .max()
-        .unwrap_or(0)
-        .max(7);
+    let name_w = super::name_width(r.ratios.iter().map(|x| x.name.as_str()));
     o += &format!(
         "{:<name_w$}  {:>12}  {:>12}  {:>14}\n",
         "species", "ratio", "std. error", "P (cm/s)"

@@ -119,6 +119,20 @@ pub fn emit(text: &str) -> anyhow::Result<()> {
     }
 }
 
+/// The first line of a readable report: the scenario's title, or nothing when it has none.
+pub fn title_line(title: &str) -> String {
+    if title.is_empty() {
+        String::new()
+    } else {
+        format!("{title}\n")
+    }
+}
+
+/// The width of a report's name column: its longest name, and at least the word "species".
+pub fn name_width<'a>(names: impl Iterator<Item = &'a str>) -> usize {
+    names.map(|n| n.chars().count()).max().unwrap_or(0).max(7)
+}
+
 /// Reads a scenario, turning its error into bad input (exit 2).
 pub fn load(path: &std::path::Path) -> anyhow::Result<crate::scenario::Valid> {
     crate::scenario::read_file(path).map_err(anyhow::Error::new)

@@ -65,22 +65,13 @@ fn mv(x: Option<f64>) -> String {
 
 /// The human-readable report.
 pub fn table(title: &str, r: &RestReport) -> String {
-    let mut o = String::new();
-    if !title.is_empty() {
-        o += &format!("{title}\n");
-    }
+    let mut o = super::title_line(title);
     o += &format!(
         "temperature {:.2} °C (RT/F = {:.3} mV)\n\n",
         r.temperature_c,
         rt_over_f_mv(r.temperature_c)
     );
-    let name_w = r
-        .species
-        .iter()
-        .map(|s| s.name.chars().count())
-        .max()
-        .unwrap_or(0)
-        .max(7);
+    let name_w = super::name_width(r.species.iter().map(|s| s.name.as_str()));
     o += &format!(
         "{:<name_w$}  {:>6}  {:>12}  {:>12}  {:>14}  {:>10}  {:>12}\n",
         "species", "charge", "inside (mM)", "outside (mM)", "P (cm/s)", "P/P_max", "E_rev (mV)"

@@ -203,10 +203,7 @@ fn table(
     points: &[SweepPoint],
     nernst: Option<&NernstLine>,
 ) -> String {
-    let mut o = String::new();
-    if !title.is_empty() {
-        o += &format!("{title}\n");
-    }
+    let mut o = super::title_line(title);
     o += &format!(
         "{} from {} to {}, {} point(s), {} spacing\n",
         vary.label(),

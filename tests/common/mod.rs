@@ -2,6 +2,7 @@
 
 #![allow(dead_code)]
 
+pub mod cells;
 pub mod cli;
 pub mod reference;
 
