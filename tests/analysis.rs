@@ -26,6 +26,12 @@ const RELATIVE: f64 = 1e-9;
 /// Fitted ratios against the ratios exact data were made with: the data carry the reference to
 /// every digit, so only the solver's and the minimiser's tolerances remain.
 const RATIO_RELATIVE: f64 = 1e-8;
+/// What a fit to exact data leaves: rms residuals (mV) and standard errors (of ratios) at the
+/// level of the root finder's rounding.
+const EXACT_FIT: f64 = 1e-9;
+/// Ratios fitted back to data made by the program itself, for a cell with no closed form (a
+/// pump, gated channels): the data carry the solver's tolerance, so the ratios carry more.
+const ROUND_TRIP_RELATIVE: f64 = 1e-5;
 /// A passive GHK membrane is linear only to first order: over a step of about 1 mV its slope
 /// conductance changes by about ΔV/(2·RT/F), under 2 % at RT/F = 26.7 mV, so exponential
 /// charging with one time constant holds to that.
@@ -519,23 +525,22 @@ fn fit_recovers_known_ratios_from_exact_points() {
         assert_eq!(r.reference, "K+");
         for (got, want) in r.ratios.iter().zip([0.05, 0.3]) {
             assert!(
-                (got.ratio - want).abs() < 1e-8 * want,
+                (got.ratio - want).abs() < RATIO_RELATIVE * want,
                 "{space:?} {}: {} vs {want}",
                 got.name,
                 got.ratio
             );
-            // Exact data leave only rounding: the error is within a standard error that is
-            // itself at rounding level.
+            // Exact data leave only rounding in the standard errors too.
             assert!(
-                got.standard_error < 1e-9,
+                got.standard_error < EXACT_FIT,
                 "{space:?} {} SE {}",
                 got.name,
                 got.standard_error
             );
-            assert!((got.ratio - want).abs() <= got.standard_error.max(1e-12) * 10.0);
-            assert!((got.p_cm_per_s - want * 1e-6).abs() < 1e-14);
+            // The reference species' permeability is 1e-6 cm/s.
+            assert!((got.p_cm_per_s - want * 1e-6).abs() < RATIO_RELATIVE * want * 1e-6);
         }
-        assert!(r.rms_residual_mv < 1e-9);
+        assert!(r.rms_residual_mv < EXACT_FIT);
         assert_eq!(r.degrees_of_freedom, 18);
         assert_eq!(r.residuals.len(), 20);
         assert_eq!(r.residuals[0].row, 2);
@@ -616,8 +621,13 @@ fn fit_through_a_pump_and_gated_channels() {
     start.species[1].permeability_cm_per_s = 5e-9;
     start.species[2].permeability_cm_per_s = 2e-7;
     let r = fit(&start, &vary, &names(&["Na+", "Cl-"]), &data, FitSpace::LogRatio).expect("fits");
-    assert!((r.ratios[0].ratio - 0.02).abs() < 1e-7, "{:?}", r.ratios);
-    assert!((r.ratios[1].ratio - 0.1).abs() < 1e-6, "{:?}", r.ratios);
+    for (got, want) in r.ratios.iter().zip([0.02, 0.1]) {
+        assert!(
+            (got.ratio - want).abs() < ROUND_TRIP_RELATIVE * want,
+            "{:?}",
+            r.ratios
+        );
+    }
 }
 
 #[test]
@@ -643,7 +653,7 @@ fn three_ratios_with_a_divalent_ion_from_a_distant_start() {
     .expect("fits");
     for (got, want) in r.ratios.iter().zip([0.04, 0.3, 0.4]) {
         assert!(
-            (got.ratio - want).abs() < 1e-8,
+            (got.ratio - want).abs() < RATIO_RELATIVE * want,
             "{}: {} vs {want}",
             got.name,
             got.ratio

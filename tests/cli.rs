@@ -324,10 +324,12 @@ fn run_writes_one_csv_row_per_sample() {
                 .expect("a time in the first column")
         })
         .collect();
-    // 0 to 10 ms inclusive every 0.5 ms.
+    // 0 to 10 ms inclusive every 0.5 ms, each time a product k·0.5 (model.md, "Output
+    // samples"), never a running sum.
     assert_eq!(times.len(), 21, "{csv}");
-    assert_eq!(times.first(), Some(&0.0));
-    assert_eq!(times.last(), Some(&10.0));
+    for (k, t) in times.iter().enumerate() {
+        assert_eq!(*t, k as f64 * 0.5, "row {}", k + 2);
+    }
     // --sample-ms overrides the file's interval.
     let o = sb.run(&["run", "good.ron", "--csv", "fine.csv", "--sample-ms", "0.25"]);
     assert_eq!(o.status.code(), Some(0), "stderr:\n{}", stderr(&o));
