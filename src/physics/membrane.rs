@@ -70,13 +70,27 @@ pub struct PumpModel {
 }
 
 /// What varies in time around a fixed membrane: concentrations on both sides, a multiplier on
-/// each species' permeability (scales and blocks), and the injected current.
-#[derive(Debug, Clone, Copy)]
-pub struct Conditions<'a> {
-    pub inside_mm: &'a [f64],
-    pub outside_mm: &'a [f64],
-    pub p_factor: &'a [f64],
+/// each species' permeability (scales and blocks), and the injected current. One per species
+/// in each vector. The engine keeps one as a buffer and rewrites it in place for every
+/// evaluation and sample, so nothing is allocated per sample.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Conditions {
+    pub inside_mm: Vec<f64>,
+    pub outside_mm: Vec<f64>,
+    pub p_factor: Vec<f64>,
     pub inject_ua_per_cm2: f64,
+}
+
+impl Conditions {
+    /// Room for `species` species, everything 0 and every factor 1.
+    pub fn with_species(species: usize) -> Conditions {
+        Conditions {
+            inside_mm: vec![0.0; species],
+            outside_mm: vec![0.0; species],
+            p_factor: vec![1.0; species],
+            inject_ua_per_cm2: 0.0,
+        }
+    }
 }
 
 /// The whole membrane of one cell.
@@ -128,13 +142,20 @@ impl Membrane {
         self.channels.iter().map(|c| c.gates.len()).sum()
     }
 
-    /// The file's own inside and outside concentrations and a factor of 1 everywhere.
-    pub fn file_values(&self) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
-        (
-            self.ions.iter().map(|i| i.inside_mm).collect(),
-            self.ions.iter().map(|i| i.outside_mm).collect(),
-            vec![1.0; self.ions.len()],
-        )
+    /// A membrane of resting permeabilities only: no channels, no pump.
+    pub fn passive(temperature_c: f64, ions: Vec<Ion>) -> Self {
+        Self::new(temperature_c, 1.0, ions, vec![], None)
+    }
+
+    /// The file's own inside and outside concentrations, a factor of 1 everywhere and no
+    /// injected current.
+    pub fn file_values(&self) -> Conditions {
+        Conditions {
+            inside_mm: self.ions.iter().map(|i| i.inside_mm).collect(),
+            outside_mm: self.ions.iter().map(|i| i.outside_mm).collect(),
+            p_factor: vec![1.0; self.ions.len()],
+            inject_ua_per_cm2: 0.0,
+        }
     }
 
     /// Total permeability of species `s` at this instant, cm/s.

@@ -6,6 +6,7 @@
 //! cancels the 1e6 of A → µA), which is why no scale factor appears in the current below.
 
 pub mod gates;
+pub mod iv;
 pub mod membrane;
 pub mod pump;
 pub mod root;
@@ -14,6 +15,7 @@ pub mod steady;
 use crate::constants::{FARADAY_C_PER_MOL, rt_over_f_mv};
 
 pub use gates::Kinetics;
+pub use iv::IvCurves;
 pub use membrane::{Conditions, GatedChannel, Ion, Membrane, PumpModel};
 pub use steady::{Crossing, SteadyState};
 
@@ -88,8 +90,10 @@ pub enum Undefined {
 
 /// The passive zero-current ("GHK") potential in mV of a set of ions, any charges.
 ///
-/// Brackets the root starting at ±1000 mV, widening as needed, then refines it with Brent's
-/// method. Each GHK current increases with V, so the root is unique when it exists.
+/// The steady state of a membrane with these ions' resting permeabilities and nothing else
+/// (no channels, pump or injection): the same bracketing from ±1000 mV, widening as needed,
+/// and Brent root as every other zero-current potential ([`steady::crossings`]). Each GHK
+/// current increases with V, so the root is unique when it exists.
 pub fn ghk_potential_mv(ions: &[Ion], temperature_c: f64) -> Result<f64, Undefined> {
     if !temperature_c.is_finite()
         || ions
@@ -101,60 +105,12 @@ pub fn ghk_potential_mv(ions: &[Ion], temperature_c: f64) -> Result<f64, Undefin
     if ions.iter().all(|i| i.p_cm_per_s <= 0.0) {
         return Err(Undefined::NothingPermeant);
     }
-    let net = |v: f64| -> f64 {
-        ions.iter()
-            .map(|i| {
-                ghk_current_ua_per_cm2(
-                    i.p_cm_per_s,
-                    i.charge,
-                    i.inside_mm,
-                    i.outside_mm,
-                    v,
-                    temperature_c,
-                )
-            })
-            .sum()
-    };
-    let (mut lo, mut hi) = (-1000.0, 1000.0);
-    let (mut f_lo, mut f_hi) = (net(lo), net(hi));
-    // Widening: far from the root the stable forms approach straight lines or constants, so a
-    // few doublings find a sign change if one exists at all. A current that has decayed to
-    // exactly 0 far out (its exponential underflowed, e.g. when the only permeant ion is absent
-    // on one side) has not changed sign, so it ends the widening without making a bracket.
-    let (mut lo_done, mut hi_done) = (false, false);
-    for _ in 0..12 {
-        if (lo_done || f_lo <= 0.0) && (hi_done || f_hi >= 0.0) {
-            break;
-        }
-        if !lo_done && f_lo > 0.0 {
-            let f = net(lo * 2.0);
-            if f == 0.0 {
-                lo_done = true;
-            } else {
-                lo *= 2.0;
-                f_lo = f;
-            }
-        }
-        if !hi_done && f_hi < 0.0 {
-            let f = net(hi * 2.0);
-            if f == 0.0 {
-                hi_done = true;
-            } else {
-                hi *= 2.0;
-                f_hi = f;
-            }
-        }
+    let m = Membrane::passive(temperature_c, ions.to_vec());
+    match m.steady_state(&m.file_values()).resting_mv {
+        // Permeant ions absent on both sides: reported as before, as nothing permeant.
+        Err(Undefined::NoCurrent) => Err(Undefined::NothingPermeant),
+        other => other,
     }
-    if f_hi < 0.0 {
-        return Err(Undefined::AlwaysInward);
-    }
-    if f_lo > 0.0 {
-        return Err(Undefined::AlwaysOutward);
-    }
-    if f_lo == 0.0 && f_hi == 0.0 {
-        return Err(Undefined::NothingPermeant);
-    }
-    root::brent(net, lo, hi, f_lo, f_hi, 1e-12).ok_or(Undefined::NotFinite)
 }
 
 /// The closed-form GHK voltage equation, valid only when every permeant ion is monovalent.

@@ -89,6 +89,39 @@ fn refine_near_misses(xs: &mut Vec<f64>, fs: &mut Vec<f64>, f: &mut impl FnMut(f
     }
 }
 
+/// Every zero crossing of the current `f` on the sorted grid `xs` (with `fs = f(xs)`), most
+/// negative first: a grid point where `f` is exactly 0, or a sign change between neighbours
+/// refined with Brent's method to 1e-12 mV. This is the one zero-current root of the program:
+/// the GHK potential, the steady state and the I–V view's zero crossings all go through it.
+pub fn crossings(f: &mut impl FnMut(f64) -> f64, xs: &[f64], fs: &[f64]) -> Vec<Crossing> {
+    let n = xs.len().min(fs.len());
+    let mut out = Vec::new();
+    for k in 0..n.saturating_sub(1) {
+        let (a, b, fa, fb) = (xs[k], xs[k + 1], fs[k], fs[k + 1]);
+        if fa == 0.0 {
+            let before = if k > 0 { fs[k - 1] } else { fa };
+            out.push(Crossing {
+                v_mv: a,
+                increasing: fb > 0.0 && before <= 0.0,
+            });
+        } else if fa * fb < 0.0
+            && let Some(v) = root::brent(&mut *f, a, b, fa, fb, 1e-12)
+        {
+            out.push(Crossing {
+                v_mv: v,
+                increasing: fb > fa,
+            });
+        }
+    }
+    if n >= 1 && fs[n - 1] == 0.0 {
+        out.push(Crossing {
+            v_mv: xs[n - 1],
+            increasing: n >= 2 && fs[n - 2] < 0.0,
+        });
+    }
+    out
+}
+
 impl Membrane {
     /// Steady-state net current at `v_mv` (gates at x∞(V)), outward positive.
     pub fn steady_net_current(
@@ -110,8 +143,8 @@ impl Membrane {
             && cond
                 .inside_mm
                 .iter()
-                .chain(cond.outside_mm)
-                .chain(cond.p_factor)
+                .chain(&cond.outside_mm)
+                .chain(&cond.p_factor)
                 .all(|x| x.is_finite())
             && cond.inject_ua_per_cm2.is_finite();
         if !all_finite {
@@ -166,37 +199,13 @@ impl Membrane {
                 resting_mv: Err(Undefined::NotFinite),
             };
         }
-        let mut crossings = Vec::new();
-        for k in 0..xs.len() - 1 {
-            let (a, b, fa, fb) = (xs[k], xs[k + 1], fs[k], fs[k + 1]);
-            if fa == 0.0 {
-                let before = if k > 0 { fs[k - 1] } else { fa };
-                crossings.push(Crossing {
-                    v_mv: a,
-                    increasing: fb > 0.0 && before <= 0.0,
-                });
-            } else if fa * fb < 0.0
-                && let Some(v) = root::brent(&mut f, a, b, fa, fb, 1e-12)
-            {
-                crossings.push(Crossing {
-                    v_mv: v,
-                    increasing: fb > fa,
-                });
-            }
-        }
         if fs.iter().all(|&x| x == 0.0) {
             return SteadyState {
                 crossings: vec![],
                 resting_mv: Err(Undefined::NoCurrent),
             };
         }
-        let n = fs.len();
-        if fs[n - 1] == 0.0 {
-            crossings.push(Crossing {
-                v_mv: xs[n - 1],
-                increasing: n >= 2 && fs[n - 2] < 0.0,
-            });
-        }
+        let crossings = crossings(&mut f, &xs, &fs);
         let resting_mv = match crossings.iter().find(|c| c.increasing) {
             Some(c) => Ok(c.v_mv),
             None if fs.iter().all(|&x| x < 0.0) => Err(Undefined::AlwaysInward),
