@@ -13,7 +13,7 @@ use rayon::prelude::*;
 
 use super::sweep::{SweepError, Vary, apply, check_value};
 use crate::engine::{EngineError, Model};
-use crate::physics::{Conditions, Undefined, ghk_current_ua_per_cm2};
+use crate::physics::{Undefined, ghk_current_ua_per_cm2};
 use crate::scenario::{Scenario, Valid};
 
 /// One measured point. `row` is its 1-based line in the file (the spreadsheet row), for messages.
@@ -338,12 +338,7 @@ impl Setup<'_> {
     /// where finite differences of solved potentials would carry the solver's tolerance.
     fn point(&self, dp: &DataPoint, theta: &DVector<f64>) -> Result<(f64, Vec<f64>), FitError> {
         let s = self.point_scenario(dp.value, theta)?;
-        let mut model = Model::new(&s).map_err(|source| FitError::Model {
-            row: dp.row,
-            value: dp.value,
-            ratios: self.ratios_text(theta),
-            source,
-        })?;
+        let model = Model::new(&s);
         let v = model
             .steady_state_at_start()
             .resting_mv
@@ -353,13 +348,8 @@ impl Setup<'_> {
                 ratios: self.ratios_text(theta),
                 reason,
             })?;
-        let (inside, outside, factor, inject) = model.conditions_at_start();
-        let cond = Conditions {
-            inside_mm: &inside,
-            outside_mm: &outside,
-            p_factor: &factor,
-            inject_ua_per_cm2: inject,
-        };
+        let cond = model.conditions_at_start();
+        let (inside, outside, factor) = (&cond.inside_mm, &cond.outside_mm, &cond.p_factor);
         let m = &model.membrane;
         let mut gates = vec![0.0; m.gate_count()];
         let mut scratch = vec![0.0; m.ions.len()];

@@ -37,12 +37,11 @@ impl RestReport {
 
 /// Computes the resting report of a valid scenario.
 pub fn rest_report(s: &Valid) -> Result<RestReport, EngineError> {
-    let mut model = Model::new(s)?;
-    Ok(rest_report_with(s, &mut model))
+    Ok(rest_report_with(s, &Model::new(s)))
 }
 
 /// The report for a scenario whose model is already built.
-pub fn rest_report_with(s: &Valid, model: &mut Model) -> RestReport {
+pub fn rest_report_with(s: &Valid, model: &Model) -> RestReport {
     let p_max = s
         .species
         .iter()

@@ -327,7 +327,7 @@ pub type Potentials = (Result<f64, Undefined>, Result<f64, Undefined>);
 /// GHK and steady-state potentials of a scenario, exactly as `rest_report` computes them.
 pub fn potentials(s: &Valid) -> Result<Potentials, EngineError> {
     let ghk = ghk_potential_mv(&s.ions(), s.temperature_c);
-    let resting = Model::new(s)?.steady_state_at_start().resting_mv;
+    let resting = Model::new(s).steady_state_at_start().resting_mv;
     Ok((ghk, resting))
 }
 

@@ -1,14 +1,17 @@
-//! Time courses: the cell as an ODE ([`model`]), two adaptive steppers — explicit
-//! ([`dopri5`]) and, for stiff cells, linearly implicit ([`rosenbrock`]) — and a streaming run
-//! that advances in bounded chunks ([`run`]).
+//! Time courses: the cell as an ODE ([`model`]) with its compiled protocol ([`protocol`]), two
+//! adaptive steppers — explicit ([`dopri5`]) and, for stiff cells, linearly implicit
+//! ([`rosenbrock`]) — on one shared driver ([`stepper`]), and a streaming run that advances in
+//! bounded chunks ([`run`]).
 
 pub mod dopri5;
 pub mod model;
+pub mod protocol;
 pub mod rosenbrock;
 pub mod run;
 pub mod stepper;
 
-pub use model::Model;
+pub use model::{GateKind, Model, Readout, SampleCurrents, StateId, Workspace};
+pub use protocol::{Lag, LagId, LagKind};
 pub use run::{Budget, Progress, Run, SolverSettings, Trace};
 pub use stepper::{Method, Stats};
 
@@ -17,8 +20,6 @@ use crate::physics::Undefined;
 /// Why a run could not start or continue. Every variant that happens in time carries the time.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum EngineError {
-    #[error("{place} names the species \"{name}\", which the scenario does not have")]
-    UnknownSpecies { place: String, name: String },
     #[error("cannot start at rest: {reason}")]
     NoRestingState { reason: Undefined },
     #[error(
@@ -27,6 +28,4 @@ pub enum EngineError {
     StepUnderflow { t_ms: f64, quantity: String },
     #[error("at t = {t_ms} ms {quantity} became infinite or not a number")]
     NotFinite { t_ms: f64, quantity: String },
-    #[error("the scenario is not valid: {0}")]
-    Invalid(String),
 }

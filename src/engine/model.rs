@@ -1,199 +1,69 @@
-//! The simulated cell as an ODE: the flat state vector, the protocol's piecewise-constant
-//! commands, and the one derivative function every time course computes through.
+//! The simulated cell as an ODE: the flat state vector with a typed identity per component, the
+//! one derivative function every time course computes through, and the read-only quantities of
+//! a stored state (conditions, currents, steady state). The model is immutable once built: what
+//! changes while a run goes on (the present segment's commands, scratch space) lives in a
+//! [`Workspace`] the run owns, so one model can serve several threads at once.
 //!
 //! State layout: `[V, gates…, lagged inputs…, inside concentrations… (when tracked)]`.
 
 use crate::constants::FARADAY_C_PER_MOL;
-use crate::physics::{Conditions, GatedChannel, Membrane, PumpModel, SteadyState};
-use crate::scenario::{Event, Start, Valid};
+use crate::physics::{Conditions, GatedChannel, IvCurves, Kinetics, Membrane, PumpModel, SteadyState};
+use crate::scenario::{Start, Valid};
 
 use super::EngineError;
+use super::protocol::{Lag, LagId, LagKind, Protocol, fraction_blocked};
+use super::stepper::System;
 
-/// What one lagged input follows.
-#[derive(Debug, Clone, PartialEq)]
-pub enum LagKind {
-    /// A permeability scale on one species (one per event).
-    Scale {
-        species: usize,
-        factor: f64,
-        from_ms: f64,
-        until_ms: Option<f64>,
-        lag_ms: f64,
+/// The kind of a gate, as far as its identity and short name go.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum GateKind {
+    /// Hodgkin–Huxley sodium activation, `m`.
+    M,
+    /// Hodgkin–Huxley sodium inactivation, `h`.
+    H,
+    /// Hodgkin–Huxley potassium activation, `n`.
+    N,
+    /// A Boltzmann gate, named by its position in the channel.
+    Boltzmann,
+}
+
+impl GateKind {
+    fn of(k: &Kinetics) -> GateKind {
+        match k {
+            Kinetics::HhSodiumActivation => GateKind::M,
+            Kinetics::HhSodiumInactivation => GateKind::H,
+            Kinetics::HhPotassiumActivation => GateKind::N,
+            Kinetics::Boltzmann { .. } => GateKind::Boltzmann,
+        }
+    }
+}
+
+/// What one component of the state vector is. An edit mid-run carries each component over to
+/// the new model by this identity, never by position or display name.
+#[derive(Debug, Clone, PartialEq, Eq, Hash)]
+pub enum StateId {
+    /// The membrane potential.
+    V,
+    /// A gate of the channel labelled `channel`: for Hodgkin–Huxley kinds the `nth` gate of
+    /// that kind in the channel (0 first), for Boltzmann gates the gate's position.
+    Gate {
+        channel: String,
+        kind: GateKind,
+        nth: usize,
     },
-    /// The bath concentration of one species: `(at_ms, outside_mm, lag_ms)` in time order,
-    /// ties kept in file order so the later entry wins.
-    Bath {
-        species: usize,
-        file_mm: f64,
-        changes: Vec<(f64, f64, f64)>,
-    },
-    /// An agent's effective dose, µM.
-    Agent {
-        species: usize,
-        max_block: f64,
-        ic50_um: f64,
-        hill: f64,
-        dose_um: f64,
-        from_ms: f64,
-        until_ms: Option<f64>,
-        onset_ms: f64,
-        washout_ms: f64,
-    },
+    /// A lagged input.
+    Lag(LagId),
+    /// The tracked inside concentration of a species.
+    Inside { species: String },
 }
 
-/// One lagged input with its display name.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Lag {
-    pub name: String,
-    pub kind: LagKind,
-}
-
-fn in_span(t: f64, from: f64, until: Option<f64>) -> bool {
-    t >= from && until.is_none_or(|u| t < u)
-}
-
-impl Lag {
-    /// The command in force at `t` (right-continuous: an edge at `t` is already applied).
-    pub fn command(&self, t_ms: f64) -> f64 {
-        match &self.kind {
-            LagKind::Scale {
-                factor,
-                from_ms,
-                until_ms,
-                ..
-            } => {
-                if in_span(t_ms, *from_ms, *until_ms) {
-                    *factor
-                } else {
-                    1.0
-                }
-            }
-            LagKind::Bath { file_mm, changes, .. } => changes
-                .iter()
-                .rev()
-                .find(|c| c.0 <= t_ms)
-                .map_or(*file_mm, |c| c.1),
-            LagKind::Agent {
-                dose_um,
-                from_ms,
-                until_ms,
-                ..
-            } => {
-                if in_span(t_ms, *from_ms, *until_ms) {
-                    *dose_um
-                } else {
-                    0.0
-                }
-            }
-        }
-    }
-
-    /// The time constant in force at `t` given the present lagged value `e`.
-    pub fn tau_ms(&self, t_ms: f64, e: f64) -> f64 {
-        match &self.kind {
-            LagKind::Scale { lag_ms, .. } => *lag_ms,
-            LagKind::Bath { changes, .. } => changes.iter().rev().find(|c| c.0 <= t_ms).map_or(0.0, |c| c.2),
-            LagKind::Agent {
-                onset_ms, washout_ms, ..
-            } => {
-                if self.command(t_ms) > e {
-                    *onset_ms
-                } else {
-                    *washout_ms
-                }
-            }
-        }
-    }
-
-    /// Every time at which the command may change.
-    fn edges(&self, out: &mut Vec<f64>) {
-        match &self.kind {
-            LagKind::Scale {
-                from_ms, until_ms, ..
-            }
-            | LagKind::Agent {
-                from_ms, until_ms, ..
-            } => {
-                out.push(*from_ms);
-                out.extend(until_ms);
-            }
-            LagKind::Bath { changes, .. } => out.extend(changes.iter().map(|c| c.0)),
-        }
-    }
-}
-
-/// Fraction of a species' permeability blocked by an agent at lagged dose `d_um`.
-pub fn fraction_blocked(max_block: f64, ic50_um: f64, hill: f64, d_um: f64) -> f64 {
-    let d = d_um.max(0.0);
-    if d == 0.0 {
-        return 0.0;
-    }
-    max_block / (1.0 + (ic50_um / d).powf(hill))
-}
-
-/// A train of injected pulses (a single `Inject` is a train of one).
-#[derive(Debug, Clone, PartialEq)]
-pub struct Pulses {
-    pub amplitude_ua_per_cm2: f64,
-    pub from_ms: f64,
-    pub width_ms: f64,
-    pub period_ms: f64,
-    pub count: u32,
-}
-
-impl Pulses {
-    fn start(&self, k: u32) -> f64 {
-        self.from_ms + f64::from(k) * self.period_ms
-    }
-
-    /// Amplitude in force at `t` (pulse k covers `[from + k·period, from + k·period + width)`).
-    fn at(&self, t_ms: f64) -> f64 {
-        if t_ms < self.from_ms {
-            return 0.0;
-        }
-        let k = ((t_ms - self.from_ms) / self.period_ms).floor();
-        // The neighbouring pulse is checked too: rounding in the division can land one off.
-        let mut sum = 0.0;
-        for k in [k - 1.0, k, k + 1.0] {
-            if k >= 0.0 && k < f64::from(self.count) {
-                let s = self.start(k as u32);
-                if t_ms >= s && t_ms < s + self.width_ms {
-                    sum += self.amplitude_ua_per_cm2;
-                }
-            }
-        }
-        sum
-    }
-
-    /// First pulse edge strictly after `t`, if any.
-    fn next_edge_after(&self, t_ms: f64) -> Option<f64> {
-        let k0 = if t_ms < self.from_ms {
-            0.0
-        } else {
-            ((t_ms - self.from_ms) / self.period_ms).floor() - 1.0
-        };
-        let mut k = k0.max(0.0);
-        while k < f64::from(self.count) {
-            let s = self.start(k as u32);
-            if s > t_ms {
-                return Some(s);
-            }
-            if s + self.width_ms > t_ms {
-                return Some(s + self.width_ms);
-            }
-            k += 1.0;
-        }
-        None
-    }
-}
-
-/// The compiled scenario: membrane, lagged inputs, pulses and layout.
+/// The compiled scenario: membrane, protocol and layout. Immutable and `Sync`.
 #[derive(Debug, Clone)]
 pub struct Model {
     pub membrane: Membrane,
-    pub lags: Vec<Lag>,
-    pub pulses: Vec<Pulses>,
+    pub protocol: Protocol,
     pub species_names: Vec<String>,
+    /// Display names of the gates, in state order (`gate:<channel>:<short>`).
     pub gate_names: Vec<String>,
     pub track_concentrations: bool,
     /// Area over volume of the spherical cell, 1/cm.
@@ -201,35 +71,94 @@ pub struct Model {
     pub duration_ms: f64,
     pub sample_ms: f64,
     pub start: Start,
-    /// Static command edges, sorted.
-    edges: Vec<f64>,
-    /// Which lag holds each species' bath concentration, if any.
-    bath_lag: Vec<Option<usize>>,
+    /// Identity of every state component, in state order.
+    state_ids: Vec<StateId>,
+}
+
+// The model is shared read-only (a sweep's threads, a window frame and a run at once): keep it so.
+const _: () = {
+    const fn shared_across_threads<T: Sync + Send>() {}
+    shared_across_threads::<Model>();
+};
+
+/// What a run changes while it goes on: the commands of the present segment and scratch space
+/// for the derivative. One per run (or per thread), made by [`Model::workspace`].
+#[derive(Debug, Clone)]
+pub struct Workspace {
     /// Commands of the present segment, one per lag, and their time constants.
     seg_command: Vec<f64>,
     seg_tau: Vec<f64>,
     seg_inject: f64,
-    scratch_inside: Vec<f64>,
-    scratch_outside: Vec<f64>,
-    scratch_factor: Vec<f64>,
-    scratch_currents: Vec<f64>,
+    cond: Conditions,
+    currents: Vec<f64>,
+}
+
+/// Currents of one stored sample, µA/cm²: what the CSV writes and the window plots.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct SampleCurrents {
+    /// Each species' GHK current, resting plus gated (outward positive).
+    pub species_ua_per_cm2: Vec<f64>,
+    pub pump_ua_per_cm2: f64,
+    /// Sum of the species and pump currents.
+    pub net_ua_per_cm2: f64,
+    /// Injected current (depolarizing positive).
+    pub inject_ua_per_cm2: f64,
+}
+
+/// Reusable buffers for reading a stored sample: its conditions and its currents.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Readout {
+    pub conditions: Conditions,
+    pub currents: SampleCurrents,
+}
+
+/// Short gate names of one channel: m, h, n for the Hodgkin–Huxley kinds (m2, m3… for a
+/// second or third gate of one kind), `gate<j>` for a Boltzmann gate at position j.
+fn gate_ids(label: &str, kinetics: &[Kinetics]) -> Vec<(StateId, String)> {
+    let mut out: Vec<(StateId, String)> = Vec::with_capacity(kinetics.len());
+    for (j, k) in kinetics.iter().enumerate() {
+        let kind = GateKind::of(k);
+        let (nth, short) = match kind {
+            GateKind::Boltzmann => (j, format!("gate{j}")),
+            _ => {
+                let nth = kinetics[..j].iter().filter(|p| GateKind::of(p) == kind).count();
+                let letter = match kind {
+                    GateKind::M => "m",
+                    GateKind::H => "h",
+                    _ => "n",
+                };
+                let short = if nth == 0 {
+                    letter.to_string()
+                } else {
+                    format!("{letter}{}", nth + 1)
+                };
+                (nth, short)
+            }
+        };
+        out.push((
+            StateId::Gate {
+                channel: label.to_string(),
+                kind,
+                nth,
+            },
+            format!("gate:{label}:{short}"),
+        ));
+    }
+    out
 }
 
 impl Model {
-    /// Builds the model of a validated scenario. Names are resolved here; a name that no
-    /// species has is reported (validation already refuses it, so this is a second guard).
-    pub fn new(s: &Valid) -> Result<Model, EngineError> {
-        let idx = |name: &str, place: String| {
-            s.species_index(name).ok_or(EngineError::UnknownSpecies {
-                place,
-                name: name.to_string(),
-            })
-        };
+    /// Builds the model of a validated scenario. Validation resolved every name already, so
+    /// this cannot fail; a name that did not resolve would leave its item out.
+    pub fn new(s: &Valid) -> Model {
         let ions = s.ions();
         let mut channels = Vec::new();
         let mut gate_names = Vec::new();
-        for (i, c) in s.channels.iter().enumerate() {
-            let sp = idx(&c.species, format!("channels[{i}].species"))?;
+        let mut state_ids = vec![StateId::V];
+        for c in &s.channels {
+            let Some(sp) = s.species_index(&c.species) else {
+                continue;
+            };
             channels.push(GatedChannel::new(
                 sp,
                 c.max_permeability_cm_per_s,
@@ -239,20 +168,16 @@ impl Model {
                 s.temperature_c,
                 c.gates.iter().map(|g| (g.kinetics, g.power)).collect(),
             ));
-            for (j, g) in c.gates.iter().enumerate() {
-                let short = match g.kinetics {
-                    crate::physics::Kinetics::HhSodiumActivation => "m".to_string(),
-                    crate::physics::Kinetics::HhSodiumInactivation => "h".to_string(),
-                    crate::physics::Kinetics::HhPotassiumActivation => "n".to_string(),
-                    crate::physics::Kinetics::Boltzmann { .. } => format!("gate{j}"),
-                };
-                gate_names.push(format!("gate:{}:{short}", c.label));
+            let kinetics: Vec<Kinetics> = c.gates.iter().map(|g| g.kinetics).collect();
+            for (id, name) in gate_ids(&c.label, &kinetics) {
+                state_ids.push(id);
+                gate_names.push(name);
             }
         }
-        let pump = match &s.pump {
-            Some(p) => Some(PumpModel {
-                exported: idx(&p.exports, "pump.exports".into())?,
-                imported: idx(&p.imports, "pump.imports".into())?,
+        let pump = s.pump.as_ref().and_then(|p| {
+            Some(PumpModel {
+                exported: s.species_index(&p.exports)?,
+                imported: s.species_index(&p.imports)?,
                 exported_per_cycle: p.exported_per_cycle,
                 imported_per_cycle: p.imported_per_cycle,
                 max_ua_per_cm2: p.max_current_ua_per_cm2,
@@ -260,9 +185,8 @@ impl Model {
                 hill_inside: p.hill_inside,
                 half_outside_mm: p.half_saturation_outside_mm,
                 hill_outside: p.hill_outside,
-            }),
-            None => None,
-        };
+            })
+        });
         let membrane = Membrane::new(
             s.temperature_c,
             s.cell.capacitance_uf_per_cm2,
@@ -270,131 +194,17 @@ impl Model {
             channels,
             pump,
         );
-
-        let mut lags = Vec::new();
-        let mut pulses = Vec::new();
-        let mut bath_lag: Vec<Option<usize>> = vec![None; s.species.len()];
-        for (i, ev) in s.protocol.iter().enumerate() {
-            match ev {
-                Event::PermeabilityScale {
-                    species,
-                    factor,
-                    from_ms,
-                    until_ms,
-                    lag_ms,
-                } => {
-                    let sp = idx(species, format!("protocol[{i}].species"))?;
-                    lags.push(Lag {
-                        name: format!("factor:{species}:event{i}"),
-                        kind: LagKind::Scale {
-                            species: sp,
-                            factor: *factor,
-                            from_ms: *from_ms,
-                            until_ms: *until_ms,
-                            lag_ms: *lag_ms,
-                        },
-                    });
-                }
-                Event::BathChange {
-                    species,
-                    outside_mm,
-                    at_ms,
-                    lag_ms,
-                } => {
-                    let sp = idx(species, format!("protocol[{i}].species"))?;
-                    let l = match bath_lag[sp] {
-                        Some(l) => l,
-                        None => {
-                            lags.push(Lag {
-                                name: format!("bath_mm:{species}"),
-                                kind: LagKind::Bath {
-                                    species: sp,
-                                    file_mm: s.species[sp].outside_mm,
-                                    changes: vec![],
-                                },
-                            });
-                            bath_lag[sp] = Some(lags.len() - 1);
-                            lags.len() - 1
-                        }
-                    };
-                    if let LagKind::Bath { changes, .. } = &mut lags[l].kind {
-                        changes.push((*at_ms, *outside_mm, *lag_ms));
-                    }
-                }
-                Event::Agent {
-                    label,
-                    species,
-                    max_block,
-                    ic50_um,
-                    hill,
-                    dose_um,
-                    from_ms,
-                    until_ms,
-                    onset_ms,
-                    washout_ms,
-                } => {
-                    let sp = idx(species, format!("protocol[{i}].species"))?;
-                    lags.push(Lag {
-                        name: format!("dose_um:{label}"),
-                        kind: LagKind::Agent {
-                            species: sp,
-                            max_block: *max_block,
-                            ic50_um: *ic50_um,
-                            hill: *hill,
-                            dose_um: *dose_um,
-                            from_ms: *from_ms,
-                            until_ms: *until_ms,
-                            onset_ms: *onset_ms,
-                            washout_ms: *washout_ms,
-                        },
-                    });
-                }
-                Event::Inject {
-                    amplitude_ua_per_cm2,
-                    from_ms,
-                    until_ms,
-                } => pulses.push(Pulses {
-                    amplitude_ua_per_cm2: *amplitude_ua_per_cm2,
-                    from_ms: *from_ms,
-                    width_ms: until_ms - from_ms,
-                    period_ms: (until_ms - from_ms).max(f64::MIN_POSITIVE),
-                    count: 1,
-                }),
-                Event::InjectTrain {
-                    amplitude_ua_per_cm2,
-                    width_ms,
-                    period_ms,
-                    count,
-                    from_ms,
-                } => pulses.push(Pulses {
-                    amplitude_ua_per_cm2: *amplitude_ua_per_cm2,
-                    from_ms: *from_ms,
-                    width_ms: *width_ms,
-                    period_ms: *period_ms,
-                    count: *count,
-                }),
-            }
+        let protocol = Protocol::new(s);
+        state_ids.extend(protocol.lags.iter().map(|l| StateId::Lag(l.id.clone())));
+        if s.cell.track_concentrations {
+            state_ids.extend(s.species.iter().map(|x| StateId::Inside {
+                species: x.name.clone(),
+            }));
         }
-        for l in &mut lags {
-            if let LagKind::Bath { changes, .. } = &mut l.kind {
-                // Stable sort: equal times keep file order, and the later one wins.
-                changes.sort_by(|a, b| a.0.total_cmp(&b.0));
-            }
-        }
-        let mut edges = Vec::new();
-        for l in &lags {
-            l.edges(&mut edges);
-        }
-        edges.retain(|e| e.is_finite());
-        edges.sort_by(f64::total_cmp);
-        edges.dedup();
-        let n_species = s.species.len();
-        let n_lags = lags.len();
         let d_cm = s.cell.diameter_um * 1e-4;
-        Ok(Model {
+        Model {
             membrane,
-            lags,
-            pulses,
+            protocol,
             species_names: s.species.iter().map(|x| x.name.clone()).collect(),
             gate_names,
             track_concentrations: s.cell.track_concentrations,
@@ -402,16 +212,41 @@ impl Model {
             duration_ms: s.run.duration_ms,
             sample_ms: s.run.sample_ms,
             start: s.run.start,
-            edges,
-            bath_lag,
+            state_ids,
+        }
+    }
+
+    /// Scratch and segment state for one run of this model.
+    pub fn workspace(&self) -> Workspace {
+        let n_lags = self.protocol.lags.len();
+        Workspace {
             seg_command: vec![0.0; n_lags],
             seg_tau: vec![0.0; n_lags],
             seg_inject: 0.0,
-            scratch_inside: vec![0.0; n_species],
-            scratch_outside: vec![0.0; n_species],
-            scratch_factor: vec![1.0; n_species],
-            scratch_currents: vec![0.0; n_species],
-        })
+            cond: Conditions::with_species(self.species_count()),
+            currents: vec![0.0; self.species_count()],
+        }
+    }
+
+    /// Buffers for [`Model::read`], sized for this model.
+    pub fn readout(&self) -> Readout {
+        Readout {
+            conditions: Conditions::with_species(self.species_count()),
+            currents: SampleCurrents {
+                species_ua_per_cm2: vec![0.0; self.species_count()],
+                ..SampleCurrents::default()
+            },
+        }
+    }
+
+    /// The lagged inputs, in state order.
+    pub fn lags(&self) -> &[Lag] {
+        &self.protocol.lags
+    }
+
+    /// Identity of every state component, in state order.
+    pub fn state_ids(&self) -> &[StateId] {
+        &self.state_ids
     }
 
     pub fn species_count(&self) -> usize {
@@ -424,89 +259,107 @@ impl Model {
         1 + self.membrane.gate_count()
     }
     pub fn conc_offset(&self) -> usize {
-        self.lag_offset() + self.lags.len()
+        self.lag_offset() + self.protocol.lags.len()
     }
     /// Length of the state vector.
     pub fn dim(&self) -> usize {
-        self.conc_offset()
-            + if self.track_concentrations {
-                self.species_count()
-            } else {
-                0
-            }
+        self.state_ids.len()
     }
 
-    /// Names of the state components, for CSV headers and plots.
-    pub fn state_names(&self) -> Vec<String> {
-        let mut n = vec!["v_mv".to_string()];
-        n.extend(self.gate_names.iter().cloned());
-        n.extend(self.lags.iter().map(|l| l.name.clone()));
-        if self.track_concentrations {
-            n.extend(self.species_names.iter().map(|s| format!("inside_mm:{s}")));
+    /// Display name of state component `i`, for CSV headers and plots: `v_mv`,
+    /// `gate:<channel>:<short>`, the lag's name, `inside_mm:<species>`.
+    pub fn state_name(&self, i: usize) -> String {
+        match self.state_ids.get(i) {
+            Some(StateId::V) => "v_mv".to_string(),
+            Some(StateId::Gate { .. }) => self
+                .gate_names
+                .get(i - self.gate_offset())
+                .cloned()
+                .unwrap_or_default(),
+            Some(StateId::Lag(_)) => self
+                .protocol
+                .lags
+                .get(i - self.lag_offset())
+                .map(Lag::name)
+                .unwrap_or_default(),
+            Some(StateId::Inside { species }) => format!("inside_mm:{species}"),
+            None => String::new(),
         }
-        n
+    }
+
+    /// Display names of every state component, in state order.
+    pub fn state_names(&self) -> Vec<String> {
+        (0..self.dim()).map(|i| self.state_name(i)).collect()
     }
 
     /// The first command edge strictly after `t`, or `None`.
     pub fn next_edge_after(&self, t_ms: f64) -> Option<f64> {
-        let i = self.edges.partition_point(|&e| e <= t_ms);
-        let mut next = self.edges.get(i).copied();
-        for p in &self.pulses {
-            if let Some(e) = p.next_edge_after(t_ms) {
-                next = Some(next.map_or(e, |n: f64| n.min(e)));
-            }
-        }
-        next
+        self.protocol.next_edge_after(t_ms)
     }
 
     /// Injected current in force at `t`.
     pub fn inject_at(&self, t_ms: f64) -> f64 {
-        self.pulses.iter().map(|p| p.at(t_ms)).sum()
+        self.protocol.inject_at(t_ms)
+    }
+
+    /// Which species' concentrations change during a run: those with a bath change, and all
+    /// of them when inside concentrations are tracked.
+    pub fn concentrations_vary(&self) -> Vec<bool> {
+        let mut v = vec![self.track_concentrations; self.species_count()];
+        for (x, l) in v.iter_mut().zip(&self.protocol.bath_lag) {
+            *x |= l.is_some();
+        }
+        v
     }
 
     /// Fix the commands for the segment that starts at `t` and snap instant (τ = 0) lags in `y`.
-    pub fn begin_segment(&mut self, t_ms: f64, y: &mut [f64]) {
+    pub fn begin_segment(&self, ws: &mut Workspace, t_ms: f64, y: &mut [f64]) {
         let off = self.lag_offset();
-        for (i, l) in self.lags.iter().enumerate() {
+        for (i, l) in self.protocol.lags.iter().enumerate() {
             let cmd = l.command(t_ms);
             let tau = l.tau_ms(t_ms, y[off + i]);
-            self.seg_command[i] = cmd;
-            self.seg_tau[i] = tau;
+            ws.seg_command[i] = cmd;
+            ws.seg_tau[i] = tau;
             if tau <= 0.0 {
                 y[off + i] = cmd;
             }
         }
-        self.seg_inject = self.inject_at(t_ms);
+        ws.seg_inject = self.inject_at(t_ms);
     }
 
     /// Lags at their t = 0 commands, written into `y`.
     pub fn lags_at_start(&self, y: &mut [f64]) {
         let off = self.lag_offset();
-        for (i, l) in self.lags.iter().enumerate() {
+        for (i, l) in self.protocol.lags.iter().enumerate() {
             y[off + i] = l.command(0.0);
         }
     }
 
-    /// Fill the concentration and factor scratch from a state vector.
-    fn fill_conditions(&mut self, y: &[f64]) {
+    /// The concentrations and permeability factors of the state `y` written into `out`, with
+    /// `inject_ua_per_cm2` as its injected current.
+    pub fn conditions(&self, y: &[f64], inject_ua_per_cm2: f64, out: &mut Conditions) {
         let n = self.species_count();
         let lo = self.lag_offset();
+        let co = self.conc_offset();
+        out.inside_mm.resize(n, 0.0);
+        out.outside_mm.resize(n, 0.0);
+        out.p_factor.resize(n, 1.0);
         for s in 0..n {
-            self.scratch_inside[s] = if self.track_concentrations {
-                y[self.conc_offset() + s].max(0.0)
+            out.inside_mm[s] = if self.track_concentrations {
+                y[co + s].max(0.0)
             } else {
                 self.membrane.ions[s].inside_mm
             };
-            self.scratch_outside[s] = match self.bath_lag[s] {
+            out.outside_mm[s] = match self.protocol.bath_lag[s] {
                 Some(l) => y[lo + l].max(0.0),
                 None => self.membrane.ions[s].outside_mm,
             };
-            self.scratch_factor[s] = 1.0;
+            out.p_factor[s] = 1.0;
         }
-        for (i, l) in self.lags.iter().enumerate() {
+        for (i, l) in self.protocol.lags.iter().enumerate() {
             let e = y[lo + i];
             match &l.kind {
-                LagKind::Scale { species, .. } => self.scratch_factor[*species] *= e.max(0.0),
+                LagKind::Scale { species, .. } => out.p_factor[*species] *= e.max(0.0),
                 LagKind::Agent {
                     species,
                     max_block,
@@ -514,37 +367,32 @@ impl Model {
                     hill,
                     ..
                 } => {
-                    self.scratch_factor[*species] *= 1.0 - fraction_blocked(*max_block, *ic50_um, *hill, e);
+                    out.p_factor[*species] *= 1.0 - fraction_blocked(*max_block, *ic50_um, *hill, e);
                 }
                 LagKind::Bath { .. } => {}
             }
         }
+        out.inject_ua_per_cm2 = inject_ua_per_cm2;
     }
 
-    /// The derivative of the state at `y`, under the present segment's commands.
-    pub fn derivatives(&mut self, y: &[f64], dy: &mut [f64]) {
-        self.fill_conditions(y);
-        let cond = Conditions {
-            inside_mm: &self.scratch_inside,
-            outside_mm: &self.scratch_outside,
-            p_factor: &self.scratch_factor,
-            inject_ua_per_cm2: self.seg_inject,
-        };
+    /// The derivative of the state at `y`, under the segment's commands held in `ws`.
+    pub fn derivatives(&self, ws: &mut Workspace, y: &[f64], dy: &mut [f64]) {
+        self.conditions(y, ws.seg_inject, &mut ws.cond);
         let g0 = self.gate_offset();
         let ng = self.membrane.gate_count();
         let v = y[0];
         let pump = self
             .membrane
-            .currents(v, &y[g0..g0 + ng], &cond, &mut self.scratch_currents);
-        let net: f64 = self.scratch_currents.iter().sum::<f64>() + pump;
-        dy[0] = (self.seg_inject - net) / self.membrane.capacitance_uf_per_cm2;
+            .currents(v, &y[g0..g0 + ng], &ws.cond, &mut ws.currents);
+        let net: f64 = ws.currents.iter().sum::<f64>() + pump;
+        dy[0] = (ws.seg_inject - net) / self.membrane.capacitance_uf_per_cm2;
         self.membrane
             .gate_derivatives(v, &y[g0..g0 + ng], &mut dy[g0..g0 + ng]);
         let lo = self.lag_offset();
-        for i in 0..self.lags.len() {
-            let tau = self.seg_tau[i];
+        for i in 0..self.protocol.lags.len() {
+            let tau = ws.seg_tau[i];
             dy[lo + i] = if tau > 0.0 {
-                (self.seg_command[i] - y[lo + i]) / tau
+                (ws.seg_command[i] - y[lo + i]) / tau
             } else {
                 0.0
             };
@@ -555,7 +403,7 @@ impl Model {
             // dc/dt in mM/ms = −I·(A/Vol)/(zF) with I in µA/cm²: µA → A is 1e-6, mol/cm³ → mM is
             // 1e6, and s → ms is 1e-3, leaving the 1e-3 below.
             for s in 0..self.species_count() {
-                let mut i_s = self.scratch_currents[s];
+                let mut i_s = ws.currents[s];
                 if let Some((e, ie, m, im)) = shares {
                     if s == e {
                         i_s += ie;
@@ -570,28 +418,36 @@ impl Model {
         }
     }
 
-    /// Species currents (µA/cm²) and pump current at a stored state.
-    pub fn currents_at(&mut self, y: &[f64], species_out: &mut [f64]) -> f64 {
-        self.fill_conditions(y);
-        let cond = Conditions {
-            inside_mm: &self.scratch_inside,
-            outside_mm: &self.scratch_outside,
-            p_factor: &self.scratch_factor,
-            inject_ua_per_cm2: 0.0,
-        };
+    /// Everything derived from the stored sample `(t, y)` for output: its conditions and its
+    /// currents (each species', the pump's, their sum, and the injected current), into `r`.
+    /// The one place the CSV and the window compute per-sample currents.
+    pub fn read(&self, t_ms: f64, y: &[f64], r: &mut Readout) {
+        let inject = self.inject_at(t_ms);
+        self.conditions(y, inject, &mut r.conditions);
         let g0 = self.gate_offset();
         let ng = self.membrane.gate_count();
-        self.membrane.currents(y[0], &y[g0..g0 + ng], &cond, species_out)
+        let c = &mut r.currents;
+        c.species_ua_per_cm2.resize(self.species_count(), 0.0);
+        let pump = self
+            .membrane
+            .currents(y[0], &y[g0..g0 + ng], &r.conditions, &mut c.species_ua_per_cm2);
+        c.pump_ua_per_cm2 = pump;
+        c.net_ua_per_cm2 = c.species_ua_per_cm2.iter().sum::<f64>() + pump;
+        c.inject_ua_per_cm2 = inject;
     }
 
-    /// Conditions (inside, outside, permeability factor) at a stored state, copied out.
-    pub fn conditions_at(&mut self, y: &[f64]) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
-        self.fill_conditions(y);
-        (
-            self.scratch_inside.clone(),
-            self.scratch_outside.clone(),
-            self.scratch_factor.clone(),
-        )
+    /// The gates of the state `y`.
+    pub fn gates<'a>(&self, y: &'a [f64]) -> &'a [f64] {
+        let g0 = self.gate_offset();
+        &y[g0..g0 + self.membrane.gate_count()]
+    }
+
+    /// Instantaneous I–V curves at the state `y` (gates, concentrations and factors frozen)
+    /// over `[lo_mv, hi_mv]` in `steps` intervals.
+    pub fn iv_curves(&self, y: &[f64], lo_mv: f64, hi_mv: f64, steps: usize) -> IvCurves {
+        let mut cond = Conditions::with_species(self.species_count());
+        self.conditions(y, 0.0, &mut cond);
+        crate::physics::iv::curves(&self.membrane, self.gates(y), &cond, lo_mv, hi_mv, steps)
     }
 
     /// The state at t = 0 before V and the gates are chosen: lagged inputs at their t = 0
@@ -609,29 +465,22 @@ impl Model {
     }
 
     /// Inside and outside concentrations, permeability factors and injected current in force
-    /// at t = 0: the conditions of [`Model::steady_state_at_start`], copied out.
-    pub fn conditions_at_start(&mut self) -> (Vec<f64>, Vec<f64>, Vec<f64>, f64) {
+    /// at t = 0: the conditions of [`Model::steady_state_at_start`].
+    pub fn conditions_at_start(&self) -> Conditions {
         let y = self.start_inputs();
-        let (inside, outside, factor) = self.conditions_at(&y);
-        (inside, outside, factor, self.inject_at(0.0))
+        let mut cond = Conditions::with_species(self.species_count());
+        self.conditions(&y, self.inject_at(0.0), &mut cond);
+        cond
     }
 
     /// The steady state under the commands in force at t = 0 (lags at their t = 0 commands,
     /// injection at t = 0, inside concentrations as in the file).
-    pub fn steady_state_at_start(&mut self) -> SteadyState {
-        let y = self.start_inputs();
-        self.fill_conditions(&y);
-        let cond = Conditions {
-            inside_mm: &self.scratch_inside,
-            outside_mm: &self.scratch_outside,
-            p_factor: &self.scratch_factor,
-            inject_ua_per_cm2: self.inject_at(0.0),
-        };
-        self.membrane.steady_state(&cond)
+    pub fn steady_state_at_start(&self) -> SteadyState {
+        self.membrane.steady_state(&self.conditions_at_start())
     }
 
     /// The initial state of a run (model.md "Time-varying inputs" and `run.start`).
-    pub fn initial_state(&mut self) -> Result<Vec<f64>, EngineError> {
+    pub fn initial_state(&self) -> Result<Vec<f64>, EngineError> {
         let mut y = self.start_inputs();
         let v = match self.start {
             Start::Voltage(v) => v,
@@ -644,5 +493,12 @@ impl Model {
         let ng = self.membrane.gate_count();
         self.membrane.steady_gates(v, &mut y[1..1 + ng]);
         Ok(y)
+    }
+}
+
+impl System for Model {
+    type Workspace = Workspace;
+    fn derivatives(&self, ws: &mut Workspace, _t: f64, y: &[f64], dy: &mut [f64]) {
+        Model::derivatives(self, ws, y, dy);
     }
 }

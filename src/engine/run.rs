@@ -3,8 +3,8 @@
 //! the command line runs it to the end.
 
 use super::EngineError;
-use super::model::Model;
-use super::stepper::{Method, Settings, Stats, StepFailure, Stepper, System};
+use super::model::{Model, StateId, Workspace};
+use super::stepper::{Method, Settings, Stats, StepFailure, Stepper};
 use crate::scenario::Valid;
 
 /// Tolerances of a run. The defaults meet model.md's accuracy (0.01 mV against a reference).
@@ -123,16 +123,11 @@ impl Trace {
     }
 }
 
-struct Wrapped<'a>(&'a mut Model);
-impl System for Wrapped<'_> {
-    fn derivatives(&mut self, _t: f64, y: &[f64], dy: &mut [f64]) {
-        self.0.derivatives(y, dy);
-    }
-}
-
 /// One run in progress.
 pub struct Run {
     model: Model,
+    /// The present segment's commands and the derivative's scratch.
+    ws: Workspace,
     settings: SolverSettings,
     stepper: Stepper,
     y: Vec<f64>,
@@ -153,12 +148,13 @@ pub struct Run {
 impl Run {
     /// Starts a run of a validated scenario at t = 0.
     pub fn new(s: &Valid, settings: SolverSettings) -> Result<Run, EngineError> {
-        let mut model = Model::new(s)?;
+        let model = Model::new(s);
         let y = model.initial_state()?;
         let stepper = new_stepper(&model, &settings, &y);
         let trace = Trace::new(model.state_names());
         let n = y.len();
         Ok(Run {
+            ws: model.workspace(),
             model,
             settings,
             stepper,
@@ -177,9 +173,6 @@ impl Run {
 
     pub fn model(&self) -> &Model {
         &self.model
-    }
-    pub fn model_mut(&mut self) -> &mut Model {
-        &mut self.model
     }
     pub fn trace(&self) -> &Trace {
         &self.trace
@@ -256,7 +249,7 @@ impl Run {
         let mut steps = 0u64;
         loop {
             if !self.segment_open {
-                self.model.begin_segment(self.t_ms, &mut self.y);
+                self.model.begin_segment(&mut self.ws, self.t_ms, &mut self.y);
                 self.stepper.invalidate();
                 // Samples exactly at a segment start take the new segment's instant inputs.
                 self.emit_samples(self.t_ms, true, false);
@@ -286,7 +279,7 @@ impl Run {
             if span <= 1e-12 * self.t_ms.abs().max(1.0) {
                 // Two command edges closer than a step can resolve (a pulse's end and the next
                 // one's start rounded one ulp apart): cross the sliver with one Euler step.
-                self.model.derivatives(&self.y, &mut self.scratch);
+                self.model.derivatives(&mut self.ws, &self.y, &mut self.scratch);
                 if let Some(c) = self.scratch.iter().position(|d| !d.is_finite()) {
                     return Err(EngineError::NotFinite {
                         t_ms: self.t_ms,
@@ -301,11 +294,13 @@ impl Run {
                 continue;
             }
             let t_before = self.t_ms;
-            let mut sys = Wrapped(&mut self.model);
-            match self
-                .stepper
-                .step(&mut sys, &mut self.t_ms, &mut self.y, self.seg_end)
-            {
+            match self.stepper.step(
+                &self.model,
+                &mut self.ws,
+                &mut self.t_ms,
+                &mut self.y,
+                self.seg_end,
+            ) {
                 Ok(()) => {}
                 Err(StepFailure::Underflow { component }) => {
                     return Err(EngineError::StepUnderflow {
@@ -334,35 +329,38 @@ impl Run {
     }
 
     /// Replaces the scenario mid-run: the edit takes effect now and the run continues from the
-    /// present state. V and tracked concentrations carry over; gates carry over where the
-    /// channel (by label and gate count) is unchanged, and start at steady state otherwise;
-    /// lagged inputs carry over by name, and new ones start at their present command.
-    pub fn update_scenario(&mut self, s: &Valid) -> Result<(), EngineError> {
-        let model = Model::new(s)?;
+    /// present state. Every state component carries over by its identity ([`StateId`]): V,
+    /// tracked concentrations of species still there, gates of a channel still labelled the
+    /// same, lagged inputs of the same scale, bath or agent even when their events moved in the
+    /// protocol or changed their values. New gates start at their steady state at the present
+    /// V, new lagged inputs at their present command, new concentrations at the file's value.
+    pub fn update_scenario(&mut self, s: &Valid) {
+        let model = Model::new(s);
         let mut y = vec![0.0; model.dim()];
         y[0] = self.y[0];
         let ng = model.membrane.gate_count();
         model.membrane.steady_gates(y[0], &mut y[1..1 + ng]);
-        let old_names = self.model.state_names();
-        let new_names = model.state_names();
-        for (i, name) in new_names.iter().enumerate().skip(1) {
-            if let Some(j) = old_names.iter().position(|n| n == name) {
+        let old_ids = self.model.state_ids();
+        let new_ids = model.state_ids();
+        let old_of = |id: &StateId| old_ids.iter().position(|o| o == id);
+        for (i, id) in new_ids.iter().enumerate().skip(1) {
+            if let Some(j) = old_of(id) {
                 y[i] = self.y[j];
-            } else if i >= model.lag_offset() && i < model.conc_offset() {
-                y[i] = model.lags[i - model.lag_offset()].command(self.t_ms);
-            } else if i >= model.conc_offset() {
+            } else if let StateId::Lag(_) = id {
+                y[i] = model.lags()[i - model.lag_offset()].command(self.t_ms);
+            } else if let StateId::Inside { .. } = id {
                 y[i] = model.membrane.ions[i - model.conc_offset()].inside_mm;
             }
         }
-        if new_names != old_names {
-            // The trace's columns describe the old layout; keep V and time, map the rest.
-            let mut columns = vec![Vec::new(); new_names.len()];
-            for (i, name) in new_names.iter().enumerate() {
-                if let Some(j) = old_names.iter().position(|n| n == name) {
-                    columns[i] = std::mem::take(&mut self.trace.columns[j]);
-                } else {
-                    columns[i] = vec![f64::NAN; self.trace.t_ms.len()];
-                }
+        let new_names = model.state_names();
+        if new_ids != old_ids || new_names != self.trace.names {
+            // The trace's columns describe the old layout: each follows its component.
+            let mut columns = vec![Vec::new(); new_ids.len()];
+            for (i, id) in new_ids.iter().enumerate() {
+                columns[i] = match old_of(id) {
+                    Some(j) => std::mem::take(&mut self.trace.columns[j]),
+                    None => vec![f64::NAN; self.trace.t_ms.len()],
+                };
             }
             self.trace.columns = columns;
             self.trace.names = new_names;
@@ -375,6 +373,7 @@ impl Run {
         self.earlier_stats = self.stats();
         self.stepper = new_stepper(&model, &self.settings, &y);
         self.scratch = vec![0.0; y.len()];
+        self.ws = model.workspace();
         self.model = model;
         self.y = y;
         if old_sample != self.model.sample_ms {
@@ -383,7 +382,6 @@ impl Run {
         }
         self.segment_open = false;
         self.finished = self.t_ms >= self.model.duration_ms && self.finished;
-        Ok(())
     }
 }
 
@@ -401,15 +399,8 @@ fn atol_for(model: &Model, s: &SolverSettings, y: &[f64]) -> Vec<f64> {
     let mut a = vec![s.atol_gate; y.len()];
     a[0] = s.atol_v_mv;
     let lo = model.lag_offset();
-    for (i, l) in model.lags.iter().enumerate() {
-        let scale = l.command(0.0).abs().max(1.0).max(match &l.kind {
-            super::model::LagKind::Bath { changes, file_mm, .. } => {
-                changes.iter().fold(*file_mm, |m, c| m.max(c.1))
-            }
-            super::model::LagKind::Scale { factor, .. } => *factor,
-            super::model::LagKind::Agent { dose_um, .. } => *dose_um,
-        });
-        a[lo + i] = s.atol_relative * scale;
+    for (i, l) in model.lags().iter().enumerate() {
+        a[lo + i] = s.atol_relative * l.scale();
     }
     if model.track_concentrations {
         let co = model.conc_offset();

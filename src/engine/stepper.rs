@@ -1,12 +1,16 @@
 //! What the two steppers share: the system trait, tolerances, work counts, failures, the
-//! starting step-size heuristic, and the choice between them behind one type the run drives.
+//! starting step-size heuristic, one adaptive driver over a [`Scheme`] (first evaluation,
+//! starting step, landing on the end of a segment, retry after rejection, bookkeeping), and the
+//! choice between the two methods behind one type the run drives.
 
 use super::dopri5::Dopri5;
 use super::rosenbrock::Rosenbrock;
 
-/// Anything with a state vector and a derivative.
+/// Anything with a state vector and a derivative. The system itself is read-only; whatever it
+/// changes while evaluating (segment commands, scratch) lives in its workspace.
 pub trait System {
-    fn derivatives(&mut self, t: f64, y: &[f64], dy: &mut [f64]);
+    type Workspace;
+    fn derivatives(&self, ws: &mut Self::Workspace, t: f64, y: &[f64], dy: &mut [f64]);
 }
 
 /// Tolerances and limits of a stepper.
@@ -96,8 +100,9 @@ pub(crate) fn too_small(h: f64, t: f64) -> bool {
 /// f only, and at rest f is rounding noise: it then proposes a step far past the boundary,
 /// whose amplified noise moves a resting cell before any error test can notice.
 #[allow(clippy::too_many_arguments)]
-pub(crate) fn initial_step(
-    sys: &mut impl System,
+pub(crate) fn initial_step<S: System>(
+    sys: &S,
+    ws: &mut S::Workspace,
     settings: &Settings,
     order: i32,
     stable_h_lambda: Option<f64>,
@@ -125,7 +130,7 @@ pub(crate) fn initial_step(
     for i in 0..y.len() {
         y1[i] = y[i] + h0 * f0[i];
     }
-    sys.derivatives(t + h0, y1, f1);
+    sys.derivatives(ws, t + h0, y1, f1);
     let mut d2 = 0.0;
     for i in 0..y.len() {
         let sk = settings.scale(i, y[i], y[i]);
@@ -153,6 +158,210 @@ pub(crate) fn initial_step(
         h
     } else {
         h_limit.min(1e-6)
+    }
+}
+
+/// The outcome of one trial step of a [`Scheme`].
+pub enum Trial {
+    /// The trial is accepted; the scheme holds the new state for [`Scheme::commit`] and
+    /// proposes `h_new` for the next step (before the largest-step limit).
+    Accept { h_new: f64 },
+    /// The trial is rejected; try again with `h`.
+    Reject { h: f64 },
+    /// The trial state or its derivative was not finite in `component`.
+    NotFinite { component: usize },
+}
+
+/// One step method: what differs between the explicit and the linearly implicit stepper. The
+/// [`Adaptive`] driver does everything around it.
+pub trait Scheme {
+    /// Order of the method, for the starting step heuristic.
+    const ORDER: i32;
+    /// Largest h·|λ| the starting step may take, for an explicit method.
+    const STABLE_H_LAMBDA: Option<f64>;
+
+    /// Storage for a system of `dim` components, allocated once.
+    fn new(dim: usize) -> Self;
+
+    /// Work at a new point before any trial, with `f0 = f(t, y)` known (Rosenbrock's Jacobian).
+    fn prepare<S: System>(
+        &mut self,
+        _sys: &S,
+        _ws: &mut S::Workspace,
+        _t: f64,
+        _y: &[f64],
+        _f0: &[f64],
+        _stats: &mut Stats,
+    ) -> Result<(), StepFailure> {
+        Ok(())
+    }
+
+    /// One trial step of size `h` from `(t, y)` with `f0 = f(t, y)`. Writes the scaled error
+    /// of each component into `err`.
+    #[allow(clippy::too_many_arguments)]
+    fn attempt<S: System>(
+        &mut self,
+        sys: &S,
+        ws: &mut S::Workspace,
+        settings: &Settings,
+        stats: &mut Stats,
+        t: f64,
+        y: &[f64],
+        f0: &[f64],
+        h: f64,
+        last_rejected: bool,
+        err: &mut [f64],
+    ) -> Trial;
+
+    /// Takes the accepted trial of size `h` from `y`: `y` becomes the new state and `f0` its
+    /// derivative; the scheme keeps what its dense output needs.
+    fn commit(&mut self, h: f64, y: &mut [f64], f0: &mut Vec<f64>);
+
+    /// The dense-output state at `t` inside the last accepted step `[t_old, t_old + h_old]`.
+    fn dense(&self, t_old: f64, h_old: f64, t: f64, out: &mut [f64]);
+
+    /// The system changed at the present point (a command edge or an edit).
+    fn invalidate(&mut self) {}
+}
+
+/// An adaptive stepper: a [`Scheme`] with the bookkeeping every method needs.
+#[derive(Debug, Clone)]
+pub struct Adaptive<M> {
+    pub settings: Settings,
+    pub stats: Stats,
+    /// Proposed next step size, ms (0 until the first step chooses one).
+    pub h: f64,
+    /// f(t, y) at the present point, valid when `f0_valid` (first same as last).
+    f0: Vec<f64>,
+    f0_valid: bool,
+    /// Scaled error of each component in the last trial.
+    err: Vec<f64>,
+    /// Scratch of the starting step heuristic.
+    y1: Vec<f64>,
+    f1: Vec<f64>,
+    /// Start and size of the last accepted step.
+    t_old: f64,
+    h_old: f64,
+    pub(crate) scheme: M,
+}
+
+impl<M: Scheme> Adaptive<M> {
+    pub fn new(dim: usize, settings: Settings) -> Self {
+        Self {
+            settings,
+            stats: Stats::default(),
+            h: 0.0,
+            f0: vec![0.0; dim],
+            f0_valid: false,
+            err: vec![0.0; dim],
+            y1: vec![0.0; dim],
+            f1: vec![0.0; dim],
+            t_old: 0.0,
+            h_old: 0.0,
+            scheme: M::new(dim),
+        }
+    }
+
+    /// Forget the derivative at the present point: the system changed (a command edge or an edit).
+    pub fn invalidate(&mut self) {
+        self.f0_valid = false;
+        self.scheme.invalidate();
+    }
+
+    /// Size of the last accepted step.
+    pub fn last_step(&self) -> f64 {
+        self.h_old
+    }
+
+    /// Takes one accepted step from `(t, y)` that does not pass `t_end`; updates both.
+    /// Lands exactly on `t_end` when the step reaches it.
+    pub fn step<S: System>(
+        &mut self,
+        sys: &S,
+        ws: &mut S::Workspace,
+        t: &mut f64,
+        y: &mut [f64],
+        t_end: f64,
+    ) -> Result<(), StepFailure> {
+        if !self.f0_valid {
+            sys.derivatives(ws, *t, y, &mut self.f0);
+            self.stats.evaluations += 1;
+            if let Some(c) = first_non_finite(&self.f0) {
+                return Err(StepFailure::NotFinite { component: c });
+            }
+            self.f0_valid = true;
+            self.scheme.invalidate();
+        }
+        self.scheme.prepare(sys, ws, *t, y, &self.f0, &mut self.stats)?;
+        let span = t_end - *t;
+        let h_limit = span.min(self.settings.h_max);
+        if self.h <= 0.0 {
+            self.h = initial_step(
+                sys,
+                ws,
+                &self.settings,
+                M::ORDER,
+                M::STABLE_H_LAMBDA,
+                *t,
+                y,
+                &self.f0,
+                &mut self.y1,
+                &mut self.f1,
+                h_limit,
+            );
+            self.stats.evaluations += 1;
+        }
+        let mut h = self.h.min(h_limit);
+        let mut last_rejected = false;
+        loop {
+            h = land_on_end(*t, h, t_end, span);
+            if too_small(h, *t) {
+                return Err(underflow(&self.err));
+            }
+            let trial = self.scheme.attempt(
+                sys,
+                ws,
+                &self.settings,
+                &mut self.stats,
+                *t,
+                y,
+                &self.f0,
+                h,
+                last_rejected,
+                &mut self.err,
+            );
+            match trial {
+                Trial::Accept { h_new } => {
+                    self.stats.accepted += 1;
+                    self.scheme.commit(h, y, &mut self.f0);
+                    self.t_old = *t;
+                    self.h_old = h;
+                    *t = if h == span { t_end } else { *t + h };
+                    self.h = h_new.min(self.settings.h_max);
+                    return Ok(());
+                }
+                Trial::Reject { h: next } => {
+                    self.stats.rejected += 1;
+                    h = next;
+                    last_rejected = true;
+                }
+                // A non-finite trial is treated as a large error: shrink and try again, and
+                // only report it when the step cannot shrink further.
+                Trial::NotFinite { component } => {
+                    self.stats.rejected += 1;
+                    h *= 0.1;
+                    if too_small(h, *t) {
+                        return Err(StepFailure::NotFinite { component });
+                    }
+                    last_rejected = true;
+                }
+            }
+        }
+    }
+
+    /// The dense-output state at `t` inside the last accepted step into `out`.
+    pub fn dense_all(&self, t: f64, out: &mut [f64]) {
+        self.scheme.dense(self.t_old, self.h_old, t, out);
     }
 }
 
@@ -201,7 +410,7 @@ impl Stepper {
         self.implicit.invalidate();
         if self.method == Method::Auto && self.stiff {
             self.stiff = false;
-            self.explicit.reset_stiffness();
+            self.explicit.scheme.reset_stiffness();
             // Carry the step size over: Rosenbrock's may be far longer than stability allows
             // the explicit method, which then shrinks it in a few rejected trials.
             self.explicit.h = self.implicit.h;
@@ -210,21 +419,22 @@ impl Stepper {
 
     /// One accepted step from `(t, y)` that does not pass `t_end`; lands exactly on `t_end`
     /// when the step reaches it.
-    pub fn step(
+    pub fn step<S: System>(
         &mut self,
-        sys: &mut impl System,
+        sys: &S,
+        ws: &mut S::Workspace,
         t: &mut f64,
         y: &mut [f64],
         t_end: f64,
     ) -> Result<(), StepFailure> {
         if self.stiff {
-            self.implicit.step(sys, t, y, t_end)?;
+            self.implicit.step(sys, ws, t, y, t_end)?;
             self.last_implicit = true;
             return Ok(());
         }
-        self.explicit.step(sys, t, y, t_end)?;
+        self.explicit.step(sys, ws, t, y, t_end)?;
         self.last_implicit = false;
-        if self.method == Method::Auto && self.explicit.stiffness_detected() {
+        if self.method == Method::Auto && self.explicit.scheme.stiffness_detected() {
             self.stiff = true;
             self.implicit.invalidate();
             self.implicit.h = self.explicit.last_step();

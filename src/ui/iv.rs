@@ -7,7 +7,6 @@ use egui_plot::{Corner, HLine, Legend, Line, LineStyle, MarkerShape, Plot, PlotP
 
 use super::runtime::Runtime;
 use super::theme::{neutral_color, potential_color, species_color};
-use crate::physics::{Conditions, ghk_current_ua_per_cm2, nernst_mv};
 
 /// Points per curve.
 const STEPS: usize = 360;
@@ -26,88 +25,28 @@ pub struct IvCurves {
     pub present_mv: f64,
 }
 
-/// Computes the curves at the run's present state over `[lo, hi]` mV.
+/// Computes the curves at the run's present state over `[lo, hi]` mV (the numbers come from
+/// the core, [`crate::engine::Model::iv_curves`]; this view only names and draws them).
 pub fn curves(rt: &mut Runtime, lo: f64, hi: f64) -> Option<IvCurves> {
-    let run = rt.run_mut()?;
-    let state = run.state().to_vec();
-    let model = run.model_mut();
-    let (inside, outside, factor) = model.conditions_at(&state);
-    let cond = Conditions {
-        inside_mm: &inside,
-        outside_mm: &outside,
-        p_factor: &factor,
-        inject_ua_per_cm2: 0.0,
-    };
-    let m = &model.membrane;
-    let gates = &state[1..1 + m.gate_count()];
-    let t_c = m.temperature_c;
-    let pump = m.pump_current(&cond);
-    let v_mv: Vec<f64> = (0..=STEPS)
-        .map(|k| lo + (hi - lo) * k as f64 / STEPS as f64)
+    let run = rt.run()?;
+    let model = run.model();
+    let c = model.iv_curves(run.state(), lo, hi, STEPS);
+    let species = c
+        .species
+        .into_iter()
+        .map(|sc| {
+            let name = model.species_names.get(sc.species).cloned().unwrap_or_default();
+            (name, sc.i_ua_per_cm2, sc.reversal_mv)
+        })
         .collect();
-    let mut total = vec![pump; v_mv.len()];
-    let mut species = Vec::new();
-    let mut per_species_p = Vec::new();
-    for (s, ion) in m.ions.iter().enumerate() {
-        let p = m.permeability_cm_per_s(s, gates, &cond);
-        per_species_p.push((p, ion.charge, inside[s], outside[s]));
-        let curve: Vec<f64> = v_mv
-            .iter()
-            .map(|&v| ghk_current_ua_per_cm2(p, ion.charge, inside[s], outside[s], v, t_c))
-            .collect();
-        for (t, i) in total.iter_mut().zip(&curve) {
-            *t += i;
-        }
-        let name = model.species_names.get(s).cloned().unwrap_or_default();
-        let e = if p > 0.0 {
-            nernst_mv(ion.charge, inside[s], outside[s], t_c)
-        } else {
-            None
-        };
-        species.push((name, curve, e));
-    }
-    let net = |v: f64| {
-        per_species_p
-            .iter()
-            .map(|&(p, z, ci, co)| ghk_current_ua_per_cm2(p, z, ci, co, v, t_c))
-            .sum::<f64>()
-            + pump
-    };
-    let mut zeros_mv = Vec::new();
-    for k in 0..STEPS {
-        let (a, b) = (total[k], total[k + 1]);
-        if a == 0.0 {
-            zeros_mv.push(v_mv[k]);
-        } else if a * b < 0.0 {
-            zeros_mv.push(bisect(&net, v_mv[k], v_mv[k + 1], a));
-        }
-    }
     Some(IvCurves {
-        v_mv,
+        v_mv: c.v_mv,
         species,
-        pump_ua_per_cm2: pump,
-        total,
-        zeros_mv,
-        present_mv: state[0],
+        pump_ua_per_cm2: c.pump_ua_per_cm2,
+        total: c.total_ua_per_cm2,
+        zeros_mv: c.zeros_mv,
+        present_mv: run.v_mv(),
     })
-}
-
-/// A root of `f` in `[a, b]` where `f(a) = fa` and `f(b)` has the other sign.
-fn bisect(f: &impl Fn(f64) -> f64, mut a: f64, mut b: f64, mut fa: f64) -> f64 {
-    for _ in 0..60 {
-        let m = 0.5 * (a + b);
-        let fm = f(m);
-        if fm == 0.0 {
-            return m;
-        }
-        if (fm < 0.0) == (fa < 0.0) {
-            a = m;
-            fa = fm;
-        } else {
-            b = m;
-        }
-    }
-    0.5 * (a + b)
 }
 
 /// The voltage window: −120…+60 mV widened to the reversal potentials within ±150 mV.

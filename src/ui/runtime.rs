@@ -4,8 +4,7 @@
 
 use std::time::{Duration, Instant};
 
-use crate::engine::{Budget, Progress, Run, SolverSettings, Trace};
-use crate::physics::Conditions;
+use crate::engine::{Budget, Progress, Readout, Run, SolverSettings, Trace};
 use crate::scenario::{Scenario, Valid};
 
 use super::prefs::Speed;
@@ -65,10 +64,9 @@ impl Derived {
     /// [`DERIVED_PER_FRAME`] a frame: a tiny sample interval at the fastest speed can add more
     /// samples in one frame than their currents take to compute within it.
     fn update_currents(&mut self, run: &mut Run, scratch: &mut Vec<f64>) {
-        let n_species = run.model().species_count();
         let len = run.trace().len().min(self.currents_done + DERIVED_PER_FRAME);
-        let mut out = vec![0.0; n_species];
-        let varying = concentrations_vary(run.model());
+        let mut r: Readout = run.model().readout();
+        let varying = run.model().concentrations_vary();
         let any_varying = varying.iter().any(|v| *v);
         self.varying.clone_from(&varying);
         while self.currents_done < len {
@@ -76,16 +74,17 @@ impl Derived {
             let t = run.trace().t_ms[k];
             scratch.resize(run.trace().columns.len(), 0.0);
             run.trace().state(k, scratch);
-            let model = run.model_mut();
-            let pump = model.currents_at(scratch, &mut out);
-            for (col, i) in self.currents_ua_per_cm2.iter_mut().zip(&out) {
+            let model = run.model();
+            model.read(t, scratch, &mut r);
+            let c = &r.currents;
+            for (col, i) in self.currents_ua_per_cm2.iter_mut().zip(&c.species_ua_per_cm2) {
                 col.push(*i);
             }
-            self.pump_ua_per_cm2.push(pump);
-            self.net_ua_per_cm2.push(out.iter().sum::<f64>() + pump);
-            self.inject_ua_per_cm2.push(model.inject_at(t));
+            self.pump_ua_per_cm2.push(c.pump_ua_per_cm2);
+            self.net_ua_per_cm2.push(c.net_ua_per_cm2);
+            self.inject_ua_per_cm2.push(c.inject_ua_per_cm2);
             if any_varying {
-                let (inside, outside, _) = model.conditions_at(scratch);
+                let (inside, outside) = (&r.conditions.inside_mm, &r.conditions.outside_mm);
                 let t_c = model.membrane.temperature_c;
                 for (s, col) in self.reversal_mv.iter_mut().enumerate() {
                     let e = match (varying.get(s), model.membrane.ions.get(s)) {
@@ -107,40 +106,20 @@ impl Derived {
     fn update_perms(&mut self, run: &mut Run, scratch: &mut Vec<f64>) {
         // Catching up on a long trace (the view was just switched on) is spread over frames.
         let len = run.trace().len().min(self.perms_done + DERIVED_PER_FRAME);
+        let mut cond = crate::physics::Conditions::default();
         while self.perms_done < len {
             let k = self.perms_done;
             scratch.resize(run.trace().columns.len(), 0.0);
             run.trace().state(k, scratch);
-            let model = run.model_mut();
-            let (inside, outside, factor) = model.conditions_at(scratch);
-            let cond = Conditions {
-                inside_mm: &inside,
-                outside_mm: &outside,
-                p_factor: &factor,
-                inject_ua_per_cm2: 0.0,
-            };
-            let ng = model.membrane.gate_count();
-            let gates = &scratch[1..1 + ng];
+            let model = run.model();
+            model.conditions(scratch, 0.0, &mut cond);
+            let gates = model.gates(scratch);
             for (s, col) in self.log10_p.iter_mut().enumerate() {
                 col.push(model.membrane.permeability_cm_per_s(s, gates, &cond).log10());
             }
             self.perms_done += 1;
         }
     }
-}
-
-/// Which species' concentrations change during a run: those with a bath exchange, and all of
-/// them when inside concentrations are tracked.
-pub fn concentrations_vary(model: &crate::engine::Model) -> Vec<bool> {
-    let mut v = vec![model.track_concentrations; model.species_count()];
-    for lag in &model.lags {
-        if let crate::engine::model::LagKind::Bath { species, .. } = lag.kind
-            && let Some(x) = v.get_mut(species)
-        {
-            *x = true;
-        }
-    }
-    v
 }
 
 /// Samples whose derived quantities (currents, permeabilities) are computed per frame at most.
@@ -265,13 +244,8 @@ impl Runtime {
         self.scenario = s.clone();
         let layout_before = self.layout();
         if let Some(run) = &mut self.run {
-            match run.update_scenario(s) {
-                Ok(()) => self.error = None,
-                Err(e) => {
-                    self.error = Some(e.to_string());
-                    self.running = false;
-                }
-            }
+            run.update_scenario(s);
+            self.error = None;
         }
         self.follow_layout();
         if self.layout() != layout_before {
