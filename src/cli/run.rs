@@ -44,7 +44,8 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     let mut failure: Option<anyhow::Error> = None;
     let written = crate::scenario::write_atomic_with(&a.csv, |file| {
         let mut w = BufWriter::new(file);
-        let mut model = run.model().clone();
+        let model = run.model().clone();
+        let mut rows = csv::RowWriter::new(&model);
         csv::write_header(&mut w, &model, run.trace())?;
         let mut last_note = Instant::now();
         loop {
@@ -55,7 +56,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
                     return Err(std::io::Error::other("the run failed"));
                 }
             };
-            csv::write_rows(&mut w, &mut model, run.trace())?;
+            rows.write_rows(&mut w, &model, run.trace())?;
             if keep_figure {
                 t_all.extend_from_slice(&run.trace().t_ms);
                 v_all.extend_from_slice(run.trace().v_mv());
