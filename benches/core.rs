@@ -16,7 +16,7 @@ use std::time::{Duration, Instant};
 
 use criterion::{Criterion, criterion_group};
 use permeant::analysis::rest_report;
-use permeant::engine::{Budget, Method, Progress, Run, SolverSettings};
+use permeant::engine::{Method, Progress, Run, SolverSettings};
 use permeant::report::csv;
 use permeant::scenario::{Event, Scenario, Valid, read_file};
 
@@ -104,7 +104,8 @@ fn excitable_two_seconds() -> Option<Scenario> {
     Some(s)
 }
 
-/// A run streamed to CSV in chunks, as `permeant run` does; returns the bytes written.
+/// A run streamed to CSV in chunks of 4096 samples, as `permeant run` does; returns the bytes
+/// written.
 fn run_to_csv(s: &Valid, out: &mut Vec<u8>) -> usize {
     out.clear();
     let mut r = Run::new(s, SolverSettings::default()).expect("bundled scenario starts");
@@ -112,7 +113,7 @@ fn run_to_csv(s: &Valid, out: &mut Vec<u8>) -> usize {
     let mut rows = csv::RowWriter::new(&model);
     csv::write_header(out, &model, r.trace()).expect("writes to memory");
     loop {
-        let p = r.advance(Budget::steps(20_000)).expect("bundled scenario runs");
+        let p = r.advance(r.next_chunk(4096)).expect("bundled scenario runs");
         rows.write_rows(out, &model, r.trace()).expect("writes to memory");
         r.trace_mut().discard_front();
         if p == Progress::Finished {

@@ -4,7 +4,7 @@ use std::io::{BufWriter, IsTerminal, Write};
 use std::path::PathBuf;
 use std::time::Instant;
 
-use crate::engine::{Budget, Progress, Run, SolverSettings};
+use crate::engine::{Progress, Run, SolverSettings};
 use crate::report::{csv, svg};
 
 #[derive(Debug, clap::Args)]
@@ -21,6 +21,10 @@ pub struct Args {
     #[arg(long, value_name = "X")]
     sample_ms: Option<f64>,
 }
+
+/// Samples written per chunk: the trace and the text buffer stay this small and are reused,
+/// so a long run neither grows its memory nor copies it around as vectors grow.
+const CHUNK_SAMPLES: u32 = 4096;
 
 pub fn run(a: Args) -> anyhow::Result<()> {
     let mut s = super::load(&a.file)?;
@@ -49,7 +53,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         csv::write_header(&mut w, &model, run.trace())?;
         let mut last_note = Instant::now();
         loop {
-            let progress = match run.advance(Budget::steps(20_000)) {
+            let progress = match run.advance(run.next_chunk(CHUNK_SAMPLES)) {
                 Ok(p) => p,
                 Err(e) => {
                     failure = Some(anyhow::anyhow!("{}: {e}", a.file.display()));

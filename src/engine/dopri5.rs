@@ -15,7 +15,7 @@
 //! stability: many in a row mean the cell is stiff, and `Method::Auto` hands over to the
 //! Rosenbrock stepper.
 
-use super::stepper::{Adaptive, Scheme, Settings, Stats, System, Trial};
+use super::stepper::{Adaptive, Attempt, Scheme, System, Trial};
 
 /// Largest h·|λ| a step is allowed from the stiffness estimate (the real stability boundary
 /// of DOPRI5 is near 3.3).
@@ -113,19 +113,17 @@ impl Scheme for DormandPrince {
         }
     }
 
-    fn attempt<S: System>(
-        &mut self,
-        sys: &S,
-        ws: &mut S::Workspace,
-        settings: &Settings,
-        stats: &mut Stats,
-        t: f64,
-        y: &[f64],
-        k1: &[f64],
-        h: f64,
-        last_rejected: bool,
-        err: &mut [f64],
-    ) -> Trial {
+    fn attempt<S: System>(&mut self, sys: &S, ws: &mut S::Workspace, a: Attempt<'_>) -> Trial {
+        let Attempt {
+            settings,
+            stats,
+            t,
+            y,
+            f0: k1,
+            h,
+            last_rejected,
+            err,
+        } = a;
         let n = y.len();
         let [_, k2, k3, k4, k5, k6, k7] = &mut self.k;
         let ys = &mut self.y_stage;

@@ -58,8 +58,13 @@ pub struct Lag {
     pub kind: LagKind,
 }
 
-fn in_span(t: f64, from: f64, until: Option<f64>) -> bool {
-    t >= from && until.is_none_or(|u| t < u)
+/// `on` inside `[from, until)`, `off` outside.
+fn in_span(t: f64, from: f64, until: Option<f64>, on: f64, off: f64) -> f64 {
+    if t >= from && until.is_none_or(|u| t < u) {
+        on
+    } else {
+        off
+    }
 }
 
 impl Lag {
@@ -90,13 +95,7 @@ impl Lag {
                 from_ms,
                 until_ms,
                 ..
-            } => {
-                if in_span(t_ms, *from_ms, *until_ms) {
-                    *factor
-                } else {
-                    1.0
-                }
-            }
+            } => in_span(t_ms, *from_ms, *until_ms, *factor, 1.0),
             LagKind::Bath { file_mm, changes, .. } => changes
                 .iter()
                 .rev()
@@ -107,13 +106,7 @@ impl Lag {
                 from_ms,
                 until_ms,
                 ..
-            } => {
-                if in_span(t_ms, *from_ms, *until_ms) {
-                    *dose_um
-                } else {
-                    0.0
-                }
-            }
+            } => in_span(t_ms, *from_ms, *until_ms, *dose_um, 0.0),
         }
     }
 

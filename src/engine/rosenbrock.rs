@@ -20,7 +20,7 @@
 
 use nalgebra::{DMatrix, DVectorViewMut};
 
-use super::stepper::{Adaptive, Scheme, Settings, Stats, StepFailure, System, Trial};
+use super::stepper::{Adaptive, Attempt, Scheme, Settings, Stats, StepFailure, System, Trial};
 
 const GAMMA: f64 = 0.5;
 const A21: f64 = 2.0;
@@ -196,19 +196,17 @@ impl Scheme for KapsRentrop {
         Ok(())
     }
 
-    fn attempt<S: System>(
-        &mut self,
-        sys: &S,
-        ws: &mut S::Workspace,
-        settings: &Settings,
-        stats: &mut Stats,
-        t: f64,
-        y: &[f64],
-        f0: &[f64],
-        h: f64,
-        last_rejected: bool,
-        err: &mut [f64],
-    ) -> Trial {
+    fn attempt<S: System>(&mut self, sys: &S, ws: &mut S::Workspace, a: Attempt<'_>) -> Trial {
+        let Attempt {
+            settings,
+            stats,
+            t,
+            y,
+            f0,
+            h,
+            last_rejected,
+            err,
+        } = a;
         let n = self.n;
         if !self.factor(h) {
             // Only at a step size that makes 1/(γh) an eigenvalue of J; any other will do.

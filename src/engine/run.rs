@@ -60,6 +60,10 @@ impl Budget {
     }
 }
 
+/// Accepted steps a chunk of [`Run::next_chunk`] may take at most, however few samples it
+/// passes (a stiff stretch with a coarse grid).
+const CHUNK_STEPS: u64 = 20_000;
+
 /// Where a run stands after [`Run::advance`].
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Progress {
@@ -320,6 +324,15 @@ impl Run {
             if self.t_ms >= self.seg_end {
                 self.segment_open = false;
             }
+        }
+    }
+
+    /// A budget that passes about `samples` output samples (or [`CHUNK_STEPS`] steps): a writer
+    /// that drains the trace after each chunk keeps it, and its own buffers, that small.
+    pub fn next_chunk(&self, samples: u32) -> Budget {
+        Budget {
+            until_ms: self.t_ms + f64::from(samples) * self.model.sample_ms,
+            max_steps: CHUNK_STEPS,
         }
     }
 

@@ -172,6 +172,21 @@ pub enum Trial {
     NotFinite { component: usize },
 }
 
+/// What a trial step starts from, and where it reports.
+pub struct Attempt<'a> {
+    pub settings: &'a Settings,
+    pub stats: &'a mut Stats,
+    pub t: f64,
+    pub y: &'a [f64],
+    /// f(t, y).
+    pub f0: &'a [f64],
+    pub h: f64,
+    /// The previous trial of this step was rejected (no growth straight after a rejection).
+    pub last_rejected: bool,
+    /// The scaled error of each component, written by the trial.
+    pub err: &'a mut [f64],
+}
+
 /// One step method: what differs between the explicit and the linearly implicit stepper. The
 /// [`Adaptive`] driver does everything around it.
 pub trait Scheme {
@@ -196,22 +211,8 @@ pub trait Scheme {
         Ok(())
     }
 
-    /// One trial step of size `h` from `(t, y)` with `f0 = f(t, y)`. Writes the scaled error
-    /// of each component into `err`.
-    #[allow(clippy::too_many_arguments)]
-    fn attempt<S: System>(
-        &mut self,
-        sys: &S,
-        ws: &mut S::Workspace,
-        settings: &Settings,
-        stats: &mut Stats,
-        t: f64,
-        y: &[f64],
-        f0: &[f64],
-        h: f64,
-        last_rejected: bool,
-        err: &mut [f64],
-    ) -> Trial;
+    /// One trial step of size `a.h` from `(a.t, a.y)`.
+    fn attempt<S: System>(&mut self, sys: &S, ws: &mut S::Workspace, a: Attempt<'_>) -> Trial;
 
     /// Takes the accepted trial of size `h` from `y`: `y` becomes the new state and `f0` its
     /// derivative; the scheme keeps what its dense output needs.
@@ -318,18 +319,17 @@ impl<M: Scheme> Adaptive<M> {
             if too_small(h, *t) {
                 return Err(underflow(&self.err));
             }
-            let trial = self.scheme.attempt(
-                sys,
-                ws,
-                &self.settings,
-                &mut self.stats,
-                *t,
+            let attempt = Attempt {
+                settings: &self.settings,
+                stats: &mut self.stats,
+                t: *t,
                 y,
-                &self.f0,
+                f0: &self.f0,
                 h,
                 last_rejected,
-                &mut self.err,
-            );
+                err: &mut self.err,
+            };
+            let trial = self.scheme.attempt(sys, ws, attempt);
             match trial {
                 Trial::Accept { h_new } => {
                     self.stats.accepted += 1;

@@ -169,6 +169,10 @@ impl RowWriter {
         let has_pump = model.membrane.pump.is_some();
         self.y.resize(trace.columns.len(), 0.0);
         self.text.clear();
+        // Room for every row at once, most numbers taking under 24 bytes.
+        self.text.reserve(
+            trace.len() * (trace.columns.len() + self.readout.currents.species_ua_per_cm2.len() + 2) * 24,
+        );
         for k in 0..trace.len() {
             trace.state(k, &mut self.y);
             model.read(trace.t_ms[k], &self.y, &mut self.readout);
