@@ -10,11 +10,13 @@ pub const GAS_J_PER_MOL_K: f64 = 8.314_462_618;
 pub const ZERO_CELSIUS_K: f64 = 273.15;
 
 /// Absolute temperature in kelvin.
+#[inline]
 pub fn kelvin(temperature_c: f64) -> f64 {
     temperature_c + ZERO_CELSIUS_K
 }
 
 /// RT/F in millivolts: the voltage scale of every Nernst and GHK expression.
+#[inline]
 pub fn rt_over_f_mv(temperature_c: f64) -> f64 {
     GAS_J_PER_MOL_K * kelvin(temperature_c) / FARADAY_C_PER_MOL * 1e3
 }

@@ -188,13 +188,27 @@ impl Membrane {
     /// Each species' GHK current into `species_out` (length = species count); returns the pump
     /// current. This is the single place where membrane currents are computed.
     pub fn currents(&self, v_mv: f64, gates: &[f64], cond: &Conditions, species_out: &mut [f64]) -> f64 {
-        for (s, ion) in self.ions.iter().enumerate() {
-            let p = self.permeability_cm_per_s(s, gates, cond);
-            species_out[s] = ghk_current_ua_per_cm2(
-                p,
+        // Each species' permeability first, summed in the order of `permeability_cm_per_s`
+        // (resting, then each of its channels in file order), in one pass over the channels.
+        for (p, ion) in species_out.iter_mut().zip(&self.ions) {
+            *p = ion.p_cm_per_s;
+        }
+        for (ch, &o) in self.channels.iter().zip(&self.gate_offsets) {
+            if let (Some(p), Some(x)) = (species_out.get_mut(ch.species), gates.get(o..o + ch.gates.len())) {
+                *p += ch.p_max_cm_per_s * ch.open_fraction(x);
+            }
+        }
+        let per_species = species_out
+            .iter_mut()
+            .zip(&self.ions)
+            .zip(&cond.p_factor)
+            .zip(cond.inside_mm.iter().zip(&cond.outside_mm));
+        for (((i, ion), factor), (inside, outside)) in per_species {
+            *i = ghk_current_ua_per_cm2(
+                *i * factor,
                 ion.charge,
-                cond.inside_mm[s].max(0.0),
-                cond.outside_mm[s].max(0.0),
+                inside.max(0.0),
+                outside.max(0.0),
                 v_mv,
                 self.temperature_c,
             );

@@ -30,6 +30,7 @@ pub fn nernst_mv(charge: i32, inside_mm: f64, outside_mm: f64, temperature_c: f6
 }
 
 /// `u / (1 − e^(−u))`, the GHK rectification factor, stable at and near `u = 0` and for large |u|.
+#[inline]
 pub fn ghk_factor(u: f64) -> f64 {
     if u.abs() < 1e-6 {
         1.0 + u / 2.0 + u * u / 12.0
@@ -43,6 +44,7 @@ pub fn ghk_factor(u: f64) -> f64 {
 /// `p_cm_per_s` permeability, concentrations in mM, `v_mv` inside minus outside.
 /// Two algebraically equal forms are used by the sign of `u` so that no exponential of a large
 /// positive number is ever taken: the result is finite for any finite input.
+#[inline]
 pub fn ghk_current_ua_per_cm2(
     p_cm_per_s: f64,
     charge: i32,
