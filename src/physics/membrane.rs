@@ -142,11 +142,6 @@ impl Membrane {
         self.channels.iter().map(|c| c.gates.len()).sum()
     }
 
-    /// A membrane of resting permeabilities only: no channels, no pump.
-    pub fn passive(temperature_c: f64, ions: Vec<Ion>) -> Self {
-        Self::new(temperature_c, 1.0, ions, vec![], None)
-    }
-
     /// The file's own inside and outside concentrations, a factor of 1 everywhere and no
     /// injected current.
     pub fn file_values(&self) -> Conditions {

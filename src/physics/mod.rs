@@ -92,10 +92,12 @@ pub enum Undefined {
 
 /// The passive zero-current ("GHK") potential in mV of a set of ions, any charges.
 ///
-/// The steady state of a membrane with these ions' resting permeabilities and nothing else
-/// (no channels, pump or injection): the same bracketing from ±1000 mV, widening as needed,
-/// and Brent root as every other zero-current potential ([`steady::crossings`]). Each GHK
-/// current increases with V, so the root is unique when it exists.
+/// The zero of the net current of a membrane with these ions' resting permeabilities and
+/// nothing else (no channels, pump or injection), found by the same search as every steady
+/// state ([`steady::zero_current`]: bracketing from ±1000 mV, widening as needed, Brent's
+/// root). Each GHK current increases with V, so the root is unique when it exists. The net
+/// current is summed here directly rather than through a [`Membrane`] built for the purpose:
+/// the rest report and every scan point compute this, and it is the same sum.
 pub fn ghk_potential_mv(ions: &[Ion], temperature_c: f64) -> Result<f64, Undefined> {
     if !temperature_c.is_finite()
         || ions
@@ -107,8 +109,21 @@ pub fn ghk_potential_mv(ions: &[Ion], temperature_c: f64) -> Result<f64, Undefin
     if ions.iter().all(|i| i.p_cm_per_s <= 0.0) {
         return Err(Undefined::NothingPermeant);
     }
-    let m = Membrane::passive(temperature_c, ions.to_vec());
-    match m.steady_state(&m.file_values()).resting_mv {
+    let mut net = |v: f64| -> f64 {
+        ions.iter()
+            .map(|i| {
+                ghk_current_ua_per_cm2(
+                    i.p_cm_per_s,
+                    i.charge,
+                    i.inside_mm,
+                    i.outside_mm,
+                    v,
+                    temperature_c,
+                )
+            })
+            .sum()
+    };
+    match steady::zero_current(&mut net, vec![-1000.0, 1000.0], false).resting_mv {
         // Permeant ions absent on both sides: reported as before, as nothing permeant.
         Err(Undefined::NoCurrent) => Err(Undefined::NothingPermeant),
         other => other,

@@ -122,6 +122,72 @@ pub fn crossings(f: &mut impl FnMut(f64) -> f64, xs: &[f64], fs: &[f64]) -> Vec<
     out
 }
 
+/// Every zero of the net current `f` (outward positive) and the resting potential among them
+/// (model.md): `f` on the grid `xs` (refined around near misses when `refine`), widened past
+/// the ends while the current keeps one sign there, each sign change refined by [`crossings`];
+/// the resting potential is the most negative crossing at which the current increases. This is
+/// the one zero-current search of the program: the steady state of a membrane, and through it
+/// the GHK potential of a passive one, go through it.
+pub fn zero_current(f: &mut impl FnMut(f64) -> f64, mut xs: Vec<f64>, refine: bool) -> SteadyState {
+    let mut fs: Vec<f64> = xs.iter().map(|&v| f(v)).collect();
+    if refine {
+        refine_near_misses(&mut xs, &mut fs, f);
+    }
+    // Widen past ±1000 mV while the ends keep the same sign as their neighbourhood needs.
+    // A current that has decayed to exactly 0 far out (its exponential underflowed, e.g. when
+    // the only permeant ion is absent on one side) has not changed sign: nothing lies beyond.
+    let (mut lo_done, mut hi_done) = (false, false);
+    for _ in 0..12 {
+        let (f_lo, f_hi) = (fs[0], fs[fs.len() - 1]);
+        if (lo_done || f_lo <= 0.0) && (hi_done || f_hi >= 0.0) {
+            break;
+        }
+        if !lo_done && f_lo > 0.0 {
+            let v = xs[0] * 2.0;
+            let fv = f(v);
+            if fv == 0.0 {
+                lo_done = true;
+            } else {
+                xs.insert(0, v);
+                fs.insert(0, fv);
+            }
+        }
+        if !hi_done && f_hi < 0.0 {
+            let v = xs[xs.len() - 1] * 2.0;
+            let fv = f(v);
+            if fv == 0.0 {
+                hi_done = true;
+            } else {
+                xs.push(v);
+                fs.push(fv);
+            }
+        }
+    }
+    if fs.iter().any(|x| !x.is_finite()) {
+        return SteadyState {
+            crossings: vec![],
+            resting_mv: Err(Undefined::NotFinite),
+        };
+    }
+    if fs.iter().all(|&x| x == 0.0) {
+        return SteadyState {
+            crossings: vec![],
+            resting_mv: Err(Undefined::NoCurrent),
+        };
+    }
+    let crossings = crossings(f, &xs, &fs);
+    let resting_mv = match crossings.iter().find(|c| c.increasing) {
+        Some(c) => Ok(c.v_mv),
+        None if fs.iter().all(|&x| x < 0.0) => Err(Undefined::AlwaysInward),
+        None if fs.iter().all(|&x| x > 0.0) => Err(Undefined::AlwaysOutward),
+        None => Err(Undefined::NoStableCrossing),
+    };
+    SteadyState {
+        crossings,
+        resting_mv,
+    }
+}
+
 impl Membrane {
     /// Steady-state net current at `v_mv` (gates at x∞(V)), outward positive.
     pub fn steady_net_current(
@@ -154,67 +220,10 @@ impl Membrane {
             };
         }
         let mut f = |v: f64| self.steady_net_current(v, cond, &mut gates, &mut scratch);
-        let mut xs = if self.channels.is_empty() {
-            vec![-1000.0, 1000.0]
+        if self.channels.is_empty() {
+            zero_current(&mut f, vec![-1000.0, 1000.0], false)
         } else {
-            scan_grid(self)
-        };
-        let mut fs: Vec<f64> = xs.iter().map(|&v| f(v)).collect();
-        if !self.channels.is_empty() {
-            refine_near_misses(&mut xs, &mut fs, &mut f);
-        }
-        // Widen past ±1000 mV while the ends keep the same sign as their neighbourhood needs.
-        // A current that has decayed to exactly 0 far out (its exponential underflowed, e.g. when
-        // the only permeant ion is absent on one side) has not changed sign: nothing lies beyond.
-        let (mut lo_done, mut hi_done) = (false, false);
-        for _ in 0..12 {
-            let (f_lo, f_hi) = (fs[0], fs[fs.len() - 1]);
-            if (lo_done || f_lo <= 0.0) && (hi_done || f_hi >= 0.0) {
-                break;
-            }
-            if !lo_done && f_lo > 0.0 {
-                let v = xs[0] * 2.0;
-                let fv = f(v);
-                if fv == 0.0 {
-                    lo_done = true;
-                } else {
-                    xs.insert(0, v);
-                    fs.insert(0, fv);
-                }
-            }
-            if !hi_done && f_hi < 0.0 {
-                let v = xs[xs.len() - 1] * 2.0;
-                let fv = f(v);
-                if fv == 0.0 {
-                    hi_done = true;
-                } else {
-                    xs.push(v);
-                    fs.push(fv);
-                }
-            }
-        }
-        if fs.iter().any(|x| !x.is_finite()) {
-            return SteadyState {
-                crossings: vec![],
-                resting_mv: Err(Undefined::NotFinite),
-            };
-        }
-        if fs.iter().all(|&x| x == 0.0) {
-            return SteadyState {
-                crossings: vec![],
-                resting_mv: Err(Undefined::NoCurrent),
-            };
-        }
-        let crossings = crossings(&mut f, &xs, &fs);
-        let resting_mv = match crossings.iter().find(|c| c.increasing) {
-            Some(c) => Ok(c.v_mv),
-            None if fs.iter().all(|&x| x < 0.0) => Err(Undefined::AlwaysInward),
-            None if fs.iter().all(|&x| x > 0.0) => Err(Undefined::AlwaysOutward),
-            None => Err(Undefined::NoStableCrossing),
-        };
-        SteadyState {
-            crossings,
-            resting_mv,
+            zero_current(&mut f, scan_grid(self), true)
         }
     }
 }
