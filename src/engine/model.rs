@@ -71,8 +71,8 @@ pub struct Model {
     pub duration_ms: f64,
     pub sample_ms: f64,
     pub start: Start,
-    /// Identity of every state component, in state order.
-    state_ids: Vec<StateId>,
+    /// Label of each channel, in the membrane's order.
+    channel_labels: Vec<String>,
 }
 
 // The model is shared read-only (a sweep's threads, a window frame and a run at once): keep it so.
@@ -112,39 +112,35 @@ pub struct Readout {
     pub currents: SampleCurrents,
 }
 
-/// Short gate names of one channel: m, h, n for the Hodgkin–Huxley kinds (m2, m3… for a
-/// second or third gate of one kind), `gate<j>` for a Boltzmann gate at position j.
-fn gate_ids(label: &str, kinetics: &[Kinetics]) -> Vec<(StateId, String)> {
-    let mut out: Vec<(StateId, String)> = Vec::with_capacity(kinetics.len());
-    for (j, k) in kinetics.iter().enumerate() {
-        let kind = GateKind::of(k);
-        let (nth, short) = match kind {
-            GateKind::Boltzmann => (j, format!("gate{j}")),
-            _ => {
-                let nth = kinetics[..j].iter().filter(|p| GateKind::of(p) == kind).count();
-                let letter = match kind {
-                    GateKind::M => "m",
-                    GateKind::H => "h",
-                    _ => "n",
-                };
-                let short = if nth == 0 {
-                    letter.to_string()
-                } else {
-                    format!("{letter}{}", nth + 1)
-                };
-                (nth, short)
-            }
-        };
-        out.push((
-            StateId::Gate {
-                channel: label.to_string(),
-                kind,
-                nth,
-            },
-            format!("gate:{label}:{short}"),
-        ));
+/// Identity of gate `j` of a channel with these gates: its kind, and for the
+/// Hodgkin–Huxley kinds its rank among the channel's gates of that kind (0 first), for a
+/// Boltzmann gate its position.
+fn gate_identity(gates: &[(Kinetics, u32)], j: usize) -> (GateKind, usize) {
+    let kind = gates.get(j).map_or(GateKind::Boltzmann, |g| GateKind::of(&g.0));
+    match kind {
+        GateKind::Boltzmann => (kind, j),
+        _ => (
+            kind,
+            gates[..j].iter().filter(|g| GateKind::of(&g.0) == kind).count(),
+        ),
     }
-    out
+}
+
+/// Display name of a gate: `gate:<channel>:<short>`, the short name m, h or n for the
+/// Hodgkin–Huxley kinds (m2, m3… for a second or third gate of one kind), `gate<j>` for a
+/// Boltzmann gate at position j.
+fn gate_name(label: &str, kind: GateKind, nth: usize) -> String {
+    let letter = match kind {
+        GateKind::M => "m",
+        GateKind::H => "h",
+        GateKind::N => "n",
+        GateKind::Boltzmann => return format!("gate:{label}:gate{nth}"),
+    };
+    if nth == 0 {
+        format!("gate:{label}:{letter}")
+    } else {
+        format!("gate:{label}:{letter}{}", nth + 1)
+    }
 }
 
 impl Model {
@@ -154,7 +150,7 @@ impl Model {
         let ions = s.ions();
         let mut channels = Vec::new();
         let mut gate_names = Vec::new();
-        let mut state_ids = vec![StateId::V];
+        let mut channel_labels = Vec::new();
         for c in &s.channels {
             let Some(sp) = s.species_index(&c.species) else {
                 continue;
@@ -168,11 +164,12 @@ impl Model {
                 s.temperature_c,
                 c.gates.iter().map(|g| (g.kinetics, g.power)).collect(),
             ));
-            let kinetics: Vec<Kinetics> = c.gates.iter().map(|g| g.kinetics).collect();
-            for (id, name) in gate_ids(&c.label, &kinetics) {
-                state_ids.push(id);
-                gate_names.push(name);
+            let gates = channels.last().map_or(&[][..], |ch: &GatedChannel| &ch.gates[..]);
+            for j in 0..gates.len() {
+                let (kind, nth) = gate_identity(gates, j);
+                gate_names.push(gate_name(&c.label, kind, nth));
             }
+            channel_labels.push(c.label.clone());
         }
         let pump = s.pump.as_ref().and_then(|p| {
             Some(PumpModel {
@@ -195,12 +192,6 @@ impl Model {
             pump,
         );
         let protocol = Protocol::new(s);
-        state_ids.extend(protocol.lags.iter().map(|l| StateId::Lag(l.id.clone())));
-        if s.cell.track_concentrations {
-            state_ids.extend(s.species.iter().map(|x| StateId::Inside {
-                species: x.name.clone(),
-            }));
-        }
         let d_cm = s.cell.diameter_um * 1e-4;
         Model {
             membrane,
@@ -212,7 +203,7 @@ impl Model {
             duration_ms: s.run.duration_ms,
             sample_ms: s.run.sample_ms,
             start: s.run.start,
-            state_ids,
+            channel_labels,
         }
     }
 
@@ -244,9 +235,30 @@ impl Model {
         &self.protocol.lags
     }
 
-    /// Identity of every state component, in state order.
-    pub fn state_ids(&self) -> &[StateId] {
-        &self.state_ids
+    /// Identity of every state component, in state order (made when asked: only an edit
+    /// mid-run needs them).
+    pub fn state_ids(&self) -> Vec<StateId> {
+        let mut ids = Vec::with_capacity(self.dim());
+        ids.push(StateId::V);
+        for (ch, label) in self.membrane.channels.iter().zip(&self.channel_labels) {
+            ids.extend((0..ch.gates.len()).map(|j| {
+                let (kind, nth) = gate_identity(&ch.gates, j);
+                StateId::Gate {
+                    channel: label.clone(),
+                    kind,
+                    nth,
+                }
+            }));
+        }
+        ids.extend(self.protocol.lags.iter().map(|l| StateId::Lag(l.id.clone())));
+        if self.track_concentrations {
+            ids.extend(
+                self.species_names
+                    .iter()
+                    .map(|s| StateId::Inside { species: s.clone() }),
+            );
+        }
+        ids
     }
 
     pub fn species_count(&self) -> usize {
@@ -263,27 +275,35 @@ impl Model {
     }
     /// Length of the state vector.
     pub fn dim(&self) -> usize {
-        self.state_ids.len()
+        self.conc_offset()
+            + if self.track_concentrations {
+                self.species_count()
+            } else {
+                0
+            }
     }
 
     /// Display name of state component `i`, for CSV headers and plots: `v_mv`,
     /// `gate:<channel>:<short>`, the lag's name, `inside_mm:<species>`.
     pub fn state_name(&self, i: usize) -> String {
-        match self.state_ids.get(i) {
-            Some(StateId::V) => "v_mv".to_string(),
-            Some(StateId::Gate { .. }) => self
-                .gate_names
+        if i < self.gate_offset() {
+            "v_mv".to_string()
+        } else if i < self.lag_offset() {
+            self.gate_names
                 .get(i - self.gate_offset())
                 .cloned()
-                .unwrap_or_default(),
-            Some(StateId::Lag(_)) => self
-                .protocol
+                .unwrap_or_default()
+        } else if i < self.conc_offset() {
+            self.protocol
                 .lags
                 .get(i - self.lag_offset())
                 .map(Lag::name)
-                .unwrap_or_default(),
-            Some(StateId::Inside { species }) => format!("inside_mm:{species}"),
-            None => String::new(),
+                .unwrap_or_default()
+        } else {
+            self.species_names
+                .get(i - self.conc_offset())
+                .map(|s| format!("inside_mm:{s}"))
+                .unwrap_or_default()
         }
     }
 

@@ -353,8 +353,7 @@ impl Run {
         y[0] = self.y[0];
         let ng = model.membrane.gate_count();
         model.membrane.steady_gates(y[0], &mut y[1..1 + ng]);
-        let old_ids = self.model.state_ids();
-        let new_ids = model.state_ids();
+        let (old_ids, new_ids) = (self.model.state_ids(), model.state_ids());
         let old_of = |id: &StateId| old_ids.iter().position(|o| o == id);
         for (i, id) in new_ids.iter().enumerate().skip(1) {
             if let Some(j) = old_of(id) {
