@@ -11,9 +11,9 @@ use std::path::Path;
 
 use ode_solvers::{DVector, Dop853, OutputType};
 mod common;
+use common::reference;
 use common::valid;
 use permeant::analysis::rest_report;
-use permeant::constants::{FARADAY_C_PER_MOL, rt_over_f_mv};
 use permeant::engine::{Budget, EngineError, Method, Model, Progress, Run, SolverSettings, Workspace};
 use permeant::physics::ghk_current_ua_per_cm2;
 use permeant::scenario::{Event, Scenario, Start, from_str, read_file};
@@ -31,25 +31,20 @@ const SETTLED_FACTOR: f64 = 1e-6;
 const ROUNDING: f64 = 1e-12;
 
 /// Goldman's voltage equation (Goldman 1943, J. Gen. Physiol. 27:37; Hodgkin & Katz 1949,
-/// J. Physiol. 108:37) for the scenario's monovalent species at their file values, written out
-/// here independently of the crate's root finder.
+/// J. Physiol. 108:37) for the scenario's monovalent species at their file values, as the
+/// tests' own reference writes it (independent of the crate's root finder).
 fn goldman_mv(s: &Scenario) -> f64 {
-    let (mut num, mut den) = (0.0, 0.0);
-    for x in &s.species {
-        let p = x.permeability_cm_per_s;
-        match x.charge {
-            1 => {
-                num += p * x.outside_mm;
-                den += p * x.inside_mm;
-            }
-            -1 => {
-                num += p * x.inside_mm;
-                den += p * x.outside_mm;
-            }
-            z => panic!("Goldman's equation is for monovalent ions, not z = {z}"),
-        }
-    }
-    rt_over_f_mv(s.temperature_c) * (num / den).ln()
+    let ions: Vec<reference::Ion> = s
+        .species
+        .iter()
+        .map(|x| reference::Ion {
+            charge: x.charge,
+            inside_mm: x.inside_mm,
+            outside_mm: x.outside_mm,
+            p_cm_per_s: x.permeability_cm_per_s,
+        })
+        .collect();
+    reference::ghk_voltage_mv(&ions, s.temperature_c)
 }
 
 fn scenario(text: &str) -> Scenario {
@@ -954,8 +949,7 @@ fn an_agent_rises_with_its_onset_and_falls_with_its_washout_time_constant() {
     for k in (0..t.len()).step_by(37) {
         r.trace().state(k, &mut y);
         model.conditions(&y, 0.0, &mut cond);
-        let d = dose[k].max(0.0);
-        let blocked = 0.8 * d.powf(1.5) / (d.powf(1.5) + 2.0f64.powf(1.5));
+        let blocked = reference::fraction_blocked(0.8, 2.0, 1.5, dose[k].max(0.0));
         assert!(
             (cond.p_factor[0] - (1.0 - blocked)).abs() < ROUNDING,
             "factor at {} ms",
@@ -1001,7 +995,7 @@ fn tracked_concentrations_change_by_exactly_the_charge_that_crossed() {
     for (sp, i) in s.species.iter().zip(&currents) {
         let inside = column(&r, &format!("inside_mm:{}", sp.name));
         let dc = inside[n - 1] - inside[0];
-        let lhs = dc * (d_cm / 6.0) * f64::from(sp.charge) * FARADAY_C_PER_MOL * 1e3;
+        let lhs = dc * (d_cm / 6.0) * f64::from(sp.charge) * reference::F_C_PER_MOL * 1e3;
         // The composite trapezoid rule over [a, b] errs by at most ((b − a)·h²/12)·max|I''|
         // (common practice); max|I''| of each piece is taken from its samples' second
         // differences. The solver's relative tolerance (1e-10) adds a little on top.
