@@ -8,27 +8,28 @@ use std::time::{Duration, Instant};
 use egui::util::undoer::Undoer;
 use egui::{Panel, Ui, ViewportCommand};
 
-use super::analysis::{Analysis, AnalysisCommand};
-use super::command::{Command, FilePurpose, check_edit};
-use super::dialogs::{self, Dialog, Pending};
-use super::document::{Document, Origin};
-use super::editor::{self, EditorInfo, EditorTab};
-use super::export::{ExportKind, Exporter, Shown};
-use super::files::{Chosen, FileChooser};
-use super::notes_view::{self, Side, SideTab};
-use super::plots::{PlotInput, Plots};
-use super::prefs::{self, LowerPlot, Prefs, Store};
-use super::presentation::{self, PresentInfo, Presentation};
-use super::restore::{self, Autosaver, Offer};
-use super::runtime::Runtime;
-use super::shortcuts::{self, KeyContext};
-use super::status::{self, StatusInfo};
-use super::toolbar::{self, ToolbarInfo};
-use super::widgets::Editing;
-use super::{iv, theme};
 use crate::analysis::{RestReport, rest_report};
 use crate::autosave::Autosave;
 use crate::scenario::{self, Scenario, Valid};
+use crate::ui::analysis::{Analysis, AnalysisCommand};
+use crate::ui::command::{Command, FilePurpose, check_edit};
+use crate::ui::dialogs::export::{ExportKind, Exporter, Shown};
+use crate::ui::dialogs::files::{Chosen, FileChooser};
+use crate::ui::dialogs::restore::{self, Autosaver, Offer};
+use crate::ui::dialogs::{self, Dialog, Pending};
+use crate::ui::panels::editor::{self, EditorInfo, EditorTab};
+use crate::ui::panels::iv;
+use crate::ui::panels::notes::{self, Side, SideTab};
+use crate::ui::panels::plots::{PlotInput, Plots};
+use crate::ui::panels::presentation::{self, PresentInfo, Presentation};
+use crate::ui::panels::status::{self, StatusInfo};
+use crate::ui::panels::toolbar::{self, ToolbarInfo};
+use crate::ui::shortcuts::{self, KeyContext};
+use crate::ui::state::document::{Document, Origin};
+use crate::ui::state::prefs::{self, LowerPlot, Prefs, Store};
+use crate::ui::state::runtime::Runtime;
+use crate::ui::theme;
+use crate::ui::widgets::Editing;
 
 /// Wall time the engine may use per frame, leaving the rest of a 60 Hz frame for drawing.
 const ENGINE_BUDGET: Duration = Duration::from_millis(8);
@@ -610,10 +611,10 @@ impl App {
                 .size_range(180.0..=(width * 0.3).max(180.0))
                 .resizable(true)
                 .show(ui, |ui| {
-                    notes_view::tabs(ui, side);
+                    notes::tabs(ui, side);
                     match side.tab {
                         SideTab::Iv => iv::show(ui, runtime, readouts.rest.as_ref().ok()),
-                        SideTab::Notes => notes_view::show(ui, side, scenario, &mut commands),
+                        SideTab::Notes => notes::show(ui, side, scenario, &mut commands),
                     }
                 });
         }
@@ -823,7 +824,7 @@ impl App {
             .name
             .clone();
         self.analysis.open = true;
-        self.analysis.tab = super::analysis::AnalysisTab::Compare;
+        self.analysis.tab = crate::ui::analysis::AnalysisTab::Compare;
         self.set_notice(format!("Kept \"{name}\""));
     }
 

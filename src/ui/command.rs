@@ -8,10 +8,10 @@ use std::path::PathBuf;
 use crate::physics::Kinetics;
 use crate::scenario::{Channel, Event, Gate, Pump, Scenario, Species, Start, Valid};
 
-use super::analysis::AnalysisCommand;
-use super::export::ExportKind;
-use super::fields::NumField;
-use super::prefs::{LowerPlot, Speed, ThemeChoice};
+use crate::ui::analysis::AnalysisCommand;
+use crate::ui::dialogs::export::ExportKind;
+use crate::ui::fields::NumField;
+use crate::ui::state::prefs::{LowerPlot, Speed, ThemeChoice};
 
 /// One thing a panel wants done.
 #[must_use]

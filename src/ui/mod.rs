@@ -17,29 +17,17 @@
 
 pub mod analysis;
 mod app;
-mod channels;
 pub mod command;
 pub mod dialogs;
-pub mod document;
-mod editor;
-pub mod export;
 pub mod fields;
-mod files;
-mod fit_view;
-mod iv;
-pub mod kept;
-mod notes_view;
-mod plots;
-pub mod prefs;
-pub mod presentation;
-mod protocol;
-pub mod restore;
-pub mod runtime;
+pub mod panels;
 mod shortcuts;
-mod status;
+pub mod state;
 mod theme;
-mod toolbar;
 mod widgets;
+
+pub use dialogs::export;
+pub use state::{document, prefs, runtime};
 
 use std::path::PathBuf;
 use std::time::Instant;

@@ -5,8 +5,8 @@
 
 use egui::{Context, Event, Id, Key, Modal, Modifiers, RichText, Ui};
 
-use super::analysis::AnalysisCommand;
-use super::command::Command;
+use crate::ui::analysis::AnalysisCommand;
+use crate::ui::command::Command;
 
 /// What a key does.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -4,7 +4,7 @@
 
 use egui::{Color32, FontFamily, FontId, TextStyle};
 
-use super::prefs::{Prefs, ThemeChoice};
+use crate::ui::state::prefs::{Prefs, ThemeChoice};
 
 /// Scale of the whole interface with "large text" on.
 pub const LARGE_TEXT_ZOOM: f32 = 1.5;

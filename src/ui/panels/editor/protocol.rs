@@ -3,12 +3,12 @@
 
 use egui::{Color32, Grid, Rect, RichText, Sense, Stroke, Ui, pos2, vec2};
 
-use super::command::{Edit, EventKind};
-use super::fields::{EventNum, NumField};
-use super::theme::{neutral_color, species_color};
 use crate::scenario::{Event, Scenario, Start};
+use crate::ui::command::{Edit, EventKind};
+use crate::ui::fields::{EventNum, NumField};
+use crate::ui::theme::{neutral_color, species_color};
 
-use super::widgets::Editing;
+use crate::ui::widgets::Editing;
 
 /// Largest number of pulses of one train drawn one by one; more are drawn as one band.
 pub const MAX_PULSES_DRAWN: u32 = 200;

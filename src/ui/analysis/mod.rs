@@ -3,6 +3,9 @@
 //! and fits run on a background thread (rayon inside, through `analysis::sweep`), with a
 //! progress bar and Cancel, so the window keeps drawing and the live run keeps running.
 
+pub mod fit;
+pub mod kept;
+
 use std::path::PathBuf;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
@@ -12,13 +15,13 @@ use std::time::Instant;
 use egui::{Color32, RichText, Ui};
 use egui_plot::{HoverPosition, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine};
 
-use super::command::Command;
-use super::fit_view::{self, FitForm, FitOutput};
-use super::kept::{self, Kept};
-use super::theme::{neutral_color, potential_color, species_color};
 use crate::analysis::metrics::{DoseResponse, SpikeSettings, dose_response};
 use crate::analysis::sweep::{NernstLine, SweepControl, SweepPoint, SweepRange, Vary, nernst_line, sweep};
 use crate::scenario::Scenario;
+use crate::ui::command::Command;
+use crate::ui::theme::{neutral_color, potential_color, species_color};
+use fit::{FitForm, FitOutput};
+use kept::Kept;
 
 /// What the analysis window asks for (inside [`Command::Analysis`]).
 #[derive(Debug, Clone, PartialEq)]
@@ -407,7 +410,7 @@ impl Analysis {
                     AnalysisTab::DoseResponse => self.dose_tab(ui, commands),
                     AnalysisTab::Fit => {
                         let busy = self.job.is_some();
-                        fit_view::show(ui, &mut self.fit, s, busy, commands);
+                        fit::show(ui, &mut self.fit, s, busy, commands);
                     }
                 }
             });

@@ -4,11 +4,14 @@
 
 use egui::{Grid, RichText, ScrollArea, Ui};
 
-use super::command::Edit;
-use super::fields::NumField;
-use super::theme::species_color;
-use super::widgets::{Editing, color_swatch};
+pub mod channels;
+pub mod protocol;
+
 use crate::analysis::RestReport;
+use crate::ui::command::Edit;
+use crate::ui::fields::NumField;
+use crate::ui::theme::species_color;
+use crate::ui::widgets::{Editing, color_swatch};
 
 /// Which tab of the editor is open.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -47,8 +50,8 @@ pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editin
         .auto_shrink([false, false])
         .show(ui, |ui| match tab {
             EditorTab::Cell => cell_tab(ui, info, ed),
-            EditorTab::Channels => super::channels::show(ui, ed),
-            EditorTab::Protocol => super::protocol::show(ui, info.now_ms, ed),
+            EditorTab::Channels => crate::ui::panels::editor::channels::show(ui, ed),
+            EditorTab::Protocol => crate::ui::panels::editor::protocol::show(ui, info.now_ms, ed),
         });
 }
 

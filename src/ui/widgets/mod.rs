@@ -5,9 +5,9 @@
 
 use egui::{Color32, Id, Response, Role, Sense, Stroke, StrokeKind, TextEdit, Ui, WidgetInfo, vec2};
 
-use super::command::{Command, Edit, check_edit};
-use super::fields::{Drag, NumField, format_value, parse_value};
 use crate::scenario::Scenario;
+use crate::ui::command::{Command, Edit, check_edit};
+use crate::ui::fields::{Drag, NumField, format_value, parse_value};
 
 /// What an editor panel works with: the scenario to read and the list to push commands to.
 pub struct Editing<'a> {
@@ -320,7 +320,7 @@ impl Editing<'_> {
         let color = self
             .scenario
             .species_index(current)
-            .map(super::theme::species_color);
+            .map(crate::ui::theme::species_color);
         let mut chosen = None;
         let shown = match color {
             Some(c) => egui::RichText::new(current).color(c).strong(),
@@ -331,7 +331,7 @@ impl Editing<'_> {
             .width(72.0)
             .show_ui(ui, |ui| {
                 for (i, n) in names.iter().enumerate() {
-                    let text = egui::RichText::new(n).color(super::theme::species_color(i));
+                    let text = egui::RichText::new(n).color(crate::ui::theme::species_color(i));
                     if ui.selectable_label(n == current, text).clicked() && n != current {
                         chosen = Some(n.clone());
                     }

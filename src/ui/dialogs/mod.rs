@@ -1,13 +1,17 @@
 //! Dialogs: a file that could not be opened (with the place and the reason), unsaved changes,
 //! a typed path when no file dialog can be shown, and the About window.
 
+pub mod export;
+pub mod files;
+pub mod restore;
+
 use std::path::PathBuf;
 
 use egui::{Id, Key, Modal, RichText, TextEdit, Ui};
 
-use super::command::{Command, FilePurpose};
 use crate::constants::{FARADAY_C_PER_MOL, GAS_J_PER_MOL_K};
 use crate::scenario::{Location, ScenarioError};
+use crate::ui::command::{Command, FilePurpose};
 
 /// What was asked for before "unsaved changes" interrupted it.
 #[derive(Debug, Clone, PartialEq)]
@@ -137,7 +141,7 @@ pub fn show(ui: &Ui, dialog: &mut Dialog, commands: &mut Vec<Command>) {
                             FilePurpose::Save => Command::SaveTo(path),
                             FilePurpose::Export(kind) => Command::ExportTo(*kind, path),
                             FilePurpose::FitData => {
-                                Command::Analysis(super::analysis::AnalysisCommand::LoadFitData(path))
+                                Command::Analysis(crate::ui::analysis::AnalysisCommand::LoadFitData(path))
                             }
                         });
                     }

@@ -4,11 +4,11 @@
 
 use egui::{Color32, RichText, Ui};
 
-use super::analysis::AnalysisCommand;
-use super::command::Command;
-use super::export::ExportKind;
 use crate::analysis::metrics::{METRIC_COLUMNS, SpikeSettings, TraceMetrics, first_event_ms, trace_metrics};
 use crate::scenario::Scenario;
+use crate::ui::analysis::AnalysisCommand;
+use crate::ui::command::Command;
+use crate::ui::dialogs::export::ExportKind;
 
 /// Colours of kept traces, in the order they are handed out: Okabe–Ito colours that the
 /// first species (K+ blue, Na+ vermilion, Cl− green) do not use, then the rest.

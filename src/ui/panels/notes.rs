@@ -6,9 +6,9 @@
 use egui::text::LayoutJob;
 use egui::{Align, FontSelection, RichText, ScrollArea, TextEdit, TextStyle, Ui};
 
-use super::command::{Command, Edit};
 use crate::notes::{Block, Span};
 use crate::scenario::Scenario;
+use crate::ui::command::{Command, Edit};
 
 /// Which tab of the side panel is open.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]

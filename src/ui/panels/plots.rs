@@ -8,16 +8,16 @@ use egui_plot::{
     Corner, HLine, HoverPosition, Legend, Line, LineStyle, Plot, PlotPoint, PlotUi, Span, Text, VLine,
 };
 
-use super::command::Command;
-use super::kept::KeptTrace;
-use super::prefs::LowerPlot;
-use super::protocol::{event_color, event_intervals, event_summary};
-use super::runtime::Derived;
-use super::theme::{band_fill, neutral_color, potential_color, species_color};
 use crate::analysis::RestReport;
 use crate::analysis::decimate::Decimator;
 use crate::engine::Trace;
 use crate::scenario::Scenario;
+use crate::ui::analysis::kept::KeptTrace;
+use crate::ui::command::Command;
+use crate::ui::panels::editor::protocol::{event_color, event_intervals, event_summary};
+use crate::ui::state::prefs::LowerPlot;
+use crate::ui::state::runtime::Derived;
+use crate::ui::theme::{band_fill, neutral_color, potential_color, species_color};
 use std::collections::HashMap;
 
 /// Reversal lines further than this from 0 mV are left out of the automatic range (they are

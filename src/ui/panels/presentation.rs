@@ -10,10 +10,10 @@ use std::collections::HashMap;
 
 use egui::{Button, Panel, RichText, Slider, Ui, vec2};
 
-use super::command::{Command, Edit, check_edit};
-use super::fields::{ChannelNum, Drag, EventNum, GateNum, NumField, PumpNum, Style, format_value};
-use super::prefs::Speed;
 use crate::scenario::{Scenario, paths};
+use crate::ui::command::{Command, Edit, check_edit};
+use crate::ui::fields::{ChannelNum, Drag, EventNum, GateNum, NumField, PumpNum, Style, format_value};
+use crate::ui::state::prefs::Speed;
 
 /// The presentation state of the window (not saved: a new session starts at the desk).
 #[derive(Debug, Default)]

@@ -6,7 +6,7 @@ use std::path::PathBuf;
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
 use std::time::{Duration, Instant};
 
-use super::command::FilePurpose;
+use crate::ui::command::FilePurpose;
 
 /// A dialog that answers faster than this without a file was not shown at all: nobody cancels
 /// a dialog in a quarter of a second.

@@ -7,12 +7,12 @@ use std::path::{Path, PathBuf};
 use egui::{RichText, Ui};
 use egui_plot::{Line, PlotPoints, Points};
 
-use super::analysis::{AnalysisCommand, plot_x, potential_plot, short, vary_picker};
-use super::command::Command;
-use super::theme::{potential_color, species_color};
 use crate::analysis::fit::{DataPoint, FitResult, FitSpace, fit, read_points};
 use crate::analysis::sweep::{SweepControl, SweepPoint, SweepRange, Vary, sweep};
 use crate::scenario::Scenario;
+use crate::ui::analysis::{AnalysisCommand, plot_x, potential_plot, short, vary_picker};
+use crate::ui::command::Command;
+use crate::ui::theme::{potential_color, species_color};
 
 /// Points of the fitted curve drawn through the data.
 const CURVE_POINTS: usize = 80;

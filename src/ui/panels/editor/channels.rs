@@ -3,9 +3,9 @@
 
 use egui::{Grid, RichText, Ui};
 
-use super::command::{ChannelPreset, Edit, GateKind};
-use super::fields::{ChannelNum, GateNum, NumField, PumpNum};
-use super::widgets::Editing;
+use crate::ui::command::{ChannelPreset, Edit, GateKind};
+use crate::ui::fields::{ChannelNum, GateNum, NumField, PumpNum};
+use crate::ui::widgets::Editing;
 
 pub fn show(ui: &mut Ui, ed: &mut Editing) {
     pump(ui, ed);

@@ -5,11 +5,11 @@ use std::path::PathBuf;
 
 use egui::{RichText, Ui};
 
-use super::analysis::AnalysisCommand;
-use super::command::{Command, Edit};
-use super::export::ExportKind;
-use super::prefs::{Prefs, Speed, ThemeChoice};
-use super::widgets::Editing;
+use crate::ui::analysis::AnalysisCommand;
+use crate::ui::command::{Command, Edit};
+use crate::ui::dialogs::export::ExportKind;
+use crate::ui::state::prefs::{Prefs, Speed, ThemeChoice};
+use crate::ui::widgets::Editing;
 
 /// What the toolbar shows besides the scenario.
 pub struct ToolbarInfo<'a> {
@@ -52,7 +52,7 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
             });
             if ui.button("Type a path to open…").clicked() {
                 ed.commands
-                    .push(Command::TypePath(super::command::FilePurpose::Open));
+                    .push(Command::TypePath(crate::ui::command::FilePurpose::Open));
             }
             ui.separator();
             if ui.button("Save").clicked() {

@@ -7,7 +7,7 @@ use std::time::{Duration, Instant};
 use crate::engine::{Budget, Progress, Readout, Run, SolverSettings, Trace};
 use crate::scenario::{Scenario, Valid};
 
-use super::prefs::Speed;
+use crate::ui::state::prefs::Speed;
 
 /// Quantities computed once per stored sample, in the trace's order.
 #[derive(Debug, Clone, Default)]

@@ -5,8 +5,8 @@
 use egui::{RichText, Ui};
 use egui_plot::{Corner, HLine, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoint, Points, Text, VLine};
 
-use super::runtime::Runtime;
-use super::theme::{neutral_color, potential_color, species_color};
+use crate::ui::state::runtime::Runtime;
+use crate::ui::theme::{neutral_color, potential_color, species_color};
 
 /// Points per curve.
 const STEPS: usize = 360;
@@ -104,7 +104,7 @@ pub fn show(ui: &mut Ui, rt: &mut Runtime, rest: Option<&crate::analysis::RestRe
         .y_axis_label("Current (µA/cm², outward +)")
         .y_axis_min_width(40.0)
         .legend(Legend::default().position(Corner::LeftTop).background_alpha(0.6))
-        .label_formatter(|h| super::plots::hover_label(h, "mV", "µA/cm²"))
+        .label_formatter(|h| crate::ui::panels::plots::hover_label(h, "mV", "µA/cm²"))
         .show(ui, |pui| {
             pui.hline(
                 HLine::new("", 0.0)

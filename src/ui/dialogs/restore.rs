@@ -7,10 +7,10 @@ use std::time::{Duration, Instant, SystemTime};
 
 use egui::{Id, Modal, RichText, Ui};
 
-use super::command::Command;
-use super::document::{Document, Origin};
 use crate::autosave::{Autosave, INTERVAL_S, Recovered};
 use crate::scenario::{self, Valid};
+use crate::ui::command::Command;
+use crate::ui::state::document::{Document, Origin};
 
 /// Autosaving for one session.
 pub struct Autosaver {
