@@ -7,17 +7,23 @@ use egui::Key;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 use permeant::physics::nernst_mv;
+use permeant::scenario::Address;
 use permeant::scenario::Scenario;
 use permeant::ui::dialogs::Dialog;
 use permeant::ui::document::Origin;
 use permeant::ui::prefs::Speed;
-use permeant::ui::{App, AppOptions, Command, Edit, NumField};
+use permeant::ui::{App, AppOptions, Command, Edit};
 
 /// The real app at a common laptop size, keeping nothing on disk.
 fn harness() -> Harness<'static, App> {
     Harness::builder()
         .with_size(egui::vec2(1280.0, 800.0))
         .build_eframe(|cc| App::new(cc, AppOptions::default()))
+}
+
+/// The number at field path `path` (indices left out) and list indices `ix`.
+fn at(path: &str, ix: &[usize]) -> Address {
+    Address::of(path, ix).unwrap_or_else(|| panic!("no number at {path}"))
 }
 
 fn v_trace(h: &Harness<'_, App>) -> Vec<f64> {
@@ -133,7 +139,7 @@ fn a_broken_file_shows_where_and_why_and_leaves_the_scenario_alone() {
         .expect("written");
     let mut h = harness();
     h.state_mut()
-        .queue(Command::Edit(Edit::Number(NumField::TemperatureC, 30.0)));
+        .queue(Command::Edit(Edit::Number(at("temperature_c", &[]), 30.0)));
     h.run_steps(2);
     let before: Scenario = h.state().scenario().clone();
     h.state_mut().queue(Command::OpenPath(path.clone()));
@@ -165,8 +171,10 @@ fn a_broken_file_shows_where_and_why_and_leaves_the_scenario_alone() {
 fn undo_restores_the_previous_value_and_redo_reapplies_it() {
     let mut h = harness();
     h.run_steps(2);
-    h.state_mut()
-        .queue(Command::Edit(Edit::Number(NumField::OutsideMm(0), 20.0)));
+    h.state_mut().queue(Command::Edit(Edit::Number(
+        at("species[].outside_mm", &[0]),
+        20.0,
+    )));
     h.run_steps(2);
     assert_eq!(h.state().scenario().species[0].outside_mm, 20.0);
     h.get_by_label("↶ Undo").click();
@@ -260,8 +268,10 @@ fn an_edit_while_running_continues_the_trace_and_restart_goes_back_to_zero() {
     let t_edit = h.state().runtime().shown_ms();
     assert!(t_edit > 10.0);
     let n_edit = h.state().runtime().trace().map_or(0, |t| t.len());
-    h.state_mut()
-        .queue(Command::Edit(Edit::Number(NumField::OutsideMm(0), 25.0)));
+    h.state_mut().queue(Command::Edit(Edit::Number(
+        at("species[].outside_mm", &[0]),
+        25.0,
+    )));
     h.run_steps(6);
     let rt = h.state().runtime();
     assert!(
@@ -329,7 +339,7 @@ fn saving_writes_a_file_that_reopens_to_the_same_scenario() {
     let path = dir.path().join("pipette");
     let mut h = harness();
     h.state_mut()
-        .queue(Command::Edit(Edit::Number(NumField::InsideMm(1), 20.0)));
+        .queue(Command::Edit(Edit::Number(at("species[].inside_mm", &[1]), 20.0)));
     h.run_steps(2);
     assert!(h.state().document().window_title().starts_with('*'));
     h.state_mut().queue(Command::SaveTo(path.clone()));

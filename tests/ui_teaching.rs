@@ -45,7 +45,8 @@ fn presentation_hides_the_editor_and_shows_the_pinned_slider() {
     h.run_steps(2);
     h.get_by_label("Big slider in presentation").click();
     h.run_steps(2);
-    assert_eq!(h.state().prefs().pins, ["species[0].outside_mm"]);
+    let pins: Vec<String> = h.state().prefs().pins.iter().map(ToString::to_string).collect();
+    assert_eq!(pins, ["species[0].outside_mm"]);
 
     h.key_press(Key::F11);
     h.run_steps(3);

@@ -4,10 +4,11 @@
 
 use plotters::prelude::*;
 
+use crate::analysis::decimate::decimate_min_max;
 use crate::analysis::rest_report;
 use crate::engine::EngineError;
 use crate::palette::{potential_rgb, species_rgb};
-use crate::scenario::{Event, Scenario, Valid};
+use crate::scenario::{Event, Scenario, Valid, Wording};
 
 /// Everything the figure shows.
 #[derive(Debug, Clone)]
@@ -15,13 +16,42 @@ pub struct Figure<'a> {
     pub title: String,
     pub t_ms: &'a [f64],
     pub v_mv: &'a [f64],
-    /// Species name, its palette index and its reversal potential (None if undefined).
-    pub reversals: Vec<(String, usize, Option<f64>)>,
+    pub reversals: Vec<Reversal>,
     pub ghk_mv: Option<f64>,
-    /// Label, start and end of each event, ms.
-    pub events: Vec<(String, f64, f64)>,
+    pub events: Vec<EventBand>,
     pub duration_ms: f64,
 }
+
+/// A species' reversal potential line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Reversal {
+    pub name: String,
+    /// Its colour's index in the palette (the species' index in the scenario).
+    pub palette: usize,
+    /// `None` where it is undefined (a concentration of 0).
+    pub e_mv: Option<f64>,
+}
+
+/// An event as a labelled time span.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EventBand {
+    pub label: String,
+    pub from_ms: f64,
+    pub until_ms: f64,
+}
+
+/// Why the figure could not be made.
+#[derive(Debug, thiserror::Error)]
+pub enum FigureError {
+    #[error("could not draw the figure: {0}")]
+    Draw(String),
+    #[error("could not write the figure: {0}")]
+    Write(String),
+}
+
+/// Columns the trace is thinned to: at most about 6000 points, a fine line at the figure's
+/// 1000 pixels.
+const TRACE_COLUMNS: usize = 3000;
 
 /// The figure of a run of `s`: its title, the trace `t_ms`/`v_mv`, each species' reversal
 /// potential and the GHK potential at the scenario's starting conditions, and its events. The
@@ -36,7 +66,11 @@ pub fn figure_for<'a>(s: &Valid, t_ms: &'a [f64], v_mv: &'a [f64]) -> Result<Fig
             .species
             .iter()
             .enumerate()
-            .map(|(i, r)| (r.name.clone(), i, r.reversal_mv))
+            .map(|(i, r)| Reversal {
+                name: r.name.clone(),
+                palette: i,
+                e_mv: r.reversal_mv,
+            })
             .collect(),
         ghk_mv: report.ghk_mv.ok(),
         events: event_spans(s),
@@ -44,68 +78,25 @@ pub fn figure_for<'a>(s: &Valid, t_ms: &'a [f64], v_mv: &'a [f64]) -> Result<Fig
     })
 }
 
-/// Events of a scenario as labelled time spans (an instantaneous bath change gets a thin band).
-pub fn event_spans(s: &Scenario) -> Vec<(String, f64, f64)> {
+/// Events of a scenario as labelled time spans, clipped to the run (a bath change marks only
+/// its moment: the figure gives it a thin band).
+pub fn event_spans(s: &Scenario) -> Vec<EventBand> {
     s.protocol
         .iter()
         .map(|e| {
-            let (from, until) = e.span_ms();
+            let (from_ms, until) = e.span_ms();
             let end = until.unwrap_or(s.run.duration_ms).min(s.run.duration_ms);
-            let label = match e {
-                Event::PermeabilityScale { species, factor, .. } => format!("P({species}) ×{factor}"),
-                Event::BathChange {
-                    species, outside_mm, ..
-                } => format!("bath {species} → {outside_mm} mM"),
-                Event::Agent { label, dose_um, .. } => format!("{label} {dose_um} µM"),
-                Event::Inject {
-                    amplitude_ua_per_cm2, ..
-                } => format!("inject {amplitude_ua_per_cm2} µA/cm²"),
-                Event::InjectTrain {
-                    amplitude_ua_per_cm2,
-                    count,
-                    ..
-                } => {
-                    format!("{count} × {amplitude_ua_per_cm2} µA/cm²")
-                }
-            };
-            (
-                label,
-                from,
-                if matches!(e, Event::BathChange { .. }) {
-                    from
+            EventBand {
+                label: e.summary(Wording::Standalone),
+                from_ms,
+                until_ms: if matches!(e, Event::BathChange { .. }) {
+                    from_ms
                 } else {
                     end
                 },
-            )
+            }
         })
         .collect()
-}
-
-/// At most about `2·buckets` points that keep each bucket's minimum and maximum, so that a
-/// long trace draws the same envelope with a small file.
-fn thin(t: &[f64], v: &[f64], buckets: usize) -> Vec<(f64, f64)> {
-    if t.len() <= 2 * buckets {
-        return t.iter().copied().zip(v.iter().copied()).collect();
-    }
-    let per = t.len().div_ceil(buckets);
-    let mut out = Vec::with_capacity(2 * buckets + 1);
-    for (tc, vc) in t.chunks(per).zip(v.chunks(per)) {
-        let (mut lo, mut hi) = (0, 0);
-        for (i, x) in vc.iter().enumerate() {
-            if *x < vc[lo] {
-                lo = i;
-            }
-            if *x > vc[hi] {
-                hi = i;
-            }
-        }
-        let (a, b) = if lo <= hi { (lo, hi) } else { (hi, lo) };
-        out.push((tc[a], vc[a]));
-        if b != a {
-            out.push((tc[b], vc[b]));
-        }
-    }
-    out
 }
 
 fn rgb((r, g, b): (u8, u8, u8)) -> RGBColor {
@@ -113,15 +104,26 @@ fn rgb((r, g, b): (u8, u8, u8)) -> RGBColor {
 }
 
 /// Renders the figure as SVG text.
-pub fn render(fig: &Figure) -> Result<String, String> {
+pub fn render(fig: &Figure) -> Result<String, FigureError> {
     let mut out = String::new();
     {
         let root = SVGBackend::with_string(&mut out, (1000, 620)).into_drawing_area();
-        draw(&root, fig).map_err(|e| format!("could not draw the figure: {e}"))?;
-        root.present()
-            .map_err(|e| format!("could not write the figure: {e}"))?;
+        draw(&root, fig).map_err(|e| FigureError::Draw(e.to_string()))?;
+        root.present().map_err(|e| FigureError::Write(e.to_string()))?;
     }
     Ok(out)
+}
+
+/// A labelled horizontal line: a reversal potential or the GHK potential.
+struct Level {
+    /// Where the line is drawn (clamped into the axis) and where its label goes (moved clear
+    /// of its neighbours).
+    y: f64,
+    label_y: f64,
+    note: String,
+    color: RGBColor,
+    /// Long dashes for a species, short ones for the GHK potential.
+    long_dashes: bool,
 }
 
 fn draw<DB: DrawingBackend>(
@@ -136,7 +138,7 @@ fn draw<DB: DrawingBackend>(
     let mut lo = fig.v_mv.iter().copied().fold(f64::INFINITY, f64::min);
     let mut hi = fig.v_mv.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     // Reversal lines within a plausible window widen the axis; far-off ones are labelled at the edge.
-    for v in fig.reversals.iter().filter_map(|r| r.2).chain(fig.ghk_mv) {
+    for v in fig.reversals.iter().filter_map(|r| r.e_mv).chain(fig.ghk_mv) {
         if v.abs() <= 200.0 {
             lo = lo.min(v);
             hi = hi.max(v);
@@ -163,63 +165,85 @@ fn draw<DB: DrawingBackend>(
         .light_line_style(RGBColor(235, 235, 235))
         .draw()?;
     // Events: shaded bands from their start to their end, with the label above.
-    for (i, (label, from, until)) in fig.events.iter().enumerate() {
-        let until = if until > from {
-            *until
+    for (i, band) in fig.events.iter().enumerate() {
+        let from = band.from_ms;
+        let until = if band.until_ms > from {
+            band.until_ms
         } else {
             from + t_end * 0.003
         };
         let shade = RGBColor(120, 120, 120).mix(0.12);
         chart.draw_series(std::iter::once(Rectangle::new(
-            [(*from, lo), (until, hi)],
+            [(from, lo), (until, hi)],
             shade.filled(),
         )))?;
         let y = hi - (hi - lo) * (0.04 + 0.05 * (i % 4) as f64);
         chart.draw_series(std::iter::once(Text::new(
-            label.clone(),
-            (*from, y),
+            band.label.clone(),
+            (from, y),
             ("sans-serif", 14).into_font(),
         )))?;
     }
     // Horizontal reference lines, labelled at the right end; labels closer than a line of text
     // are pushed apart so that none hides another.
-    let mut lines: Vec<(f64, f64, String, RGBColor, bool)> = Vec::new();
-    for (name, idx, e) in &fig.reversals {
-        let Some(e) = *e else { continue };
+    let mut lines: Vec<Level> = Vec::new();
+    for r in &fig.reversals {
+        let Some(e) = r.e_mv else { continue };
         let shown = e.clamp(lo, hi);
+        let name = &r.name;
         let note = if (shown - e).abs() > 1e-9 {
             format!("E {name} {e:.1} mV (off scale)")
         } else {
             format!("E {name} {e:.1} mV")
         };
-        lines.push((shown, shown, note, rgb(species_rgb(*idx)), true));
+        lines.push(Level {
+            y: shown,
+            label_y: shown,
+            note,
+            color: rgb(species_rgb(r.palette)),
+            long_dashes: true,
+        });
     }
     if let Some(g) = fig.ghk_mv.filter(|g| *g > lo && *g < hi) {
-        lines.push((g, g, format!("GHK {g:.1} mV"), RGBColor(110, 110, 110), false));
+        lines.push(Level {
+            y: g,
+            label_y: g,
+            note: format!("GHK {g:.1} mV"),
+            color: RGBColor(110, 110, 110),
+            long_dashes: false,
+        });
     }
-    lines.sort_by(|a, b| a.0.total_cmp(&b.0));
+    lines.sort_by(|a, b| a.y.total_cmp(&b.y));
     let gap = (hi - lo) * 0.04;
     for i in 1..lines.len() {
-        if lines[i].1 - lines[i - 1].1 < gap {
-            lines[i].1 = lines[i - 1].1 + gap;
+        if lines[i].label_y - lines[i - 1].label_y < gap {
+            lines[i].label_y = lines[i - 1].label_y + gap;
         }
     }
-    for (y, label_y, note, c, dashed_long) in &lines {
-        let (dash, space, width) = if *dashed_long { (8, 5, 2) } else { (3, 4, 1) };
+    for line in &lines {
+        let (dash, space, width) = if line.long_dashes { (8, 5, 2) } else { (3, 4, 1) };
         chart.draw_series(DashedLineSeries::new(
-            [(0.0, *y), (t_end, *y)],
+            [(0.0, line.y), (t_end, line.y)],
             dash,
             space,
-            c.stroke_width(width),
+            line.color.stroke_width(width),
         ))?;
-        let pos = (t_end + t_end * 0.01, *label_y + (hi - lo) * 0.012);
+        let pos = (t_end + t_end * 0.01, line.label_y + (hi - lo) * 0.012);
         chart.draw_series(std::iter::once(Text::new(
-            note.clone(),
+            line.note.clone(),
             pos,
-            ("sans-serif", 14).into_font().color(c),
+            ("sans-serif", 14).into_font().color(&line.color),
         )))?;
     }
-    let pts = thin(fig.t_ms, fig.v_mv, 3000);
+    // The smallest and largest sample per column, so that a long trace draws the same
+    // envelope with a small file.
+    let span = (
+        fig.t_ms.first().copied().unwrap_or(0.0),
+        fig.t_ms.last().copied().unwrap_or(0.0),
+    );
+    let pts = decimate_min_max(fig.t_ms, fig.v_mv, span, TRACE_COLUMNS)
+        .into_iter()
+        .map(|[t, v]| (t, v));
     chart.draw_series(LineSeries::new(pts, rgb(potential_rgb()).stroke_width(2)))?;
     Ok(())
 }

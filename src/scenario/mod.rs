@@ -1,9 +1,12 @@
-//! Scenario files, format 1: the serde types, reading with validation, and atomic saving.
+//! Scenario files, format 1: the serde types, reading with validation, and atomic saving; the
+//! table of every number a scenario holds (`fields`), and what a user can change (`edit`).
 //!
 //! The types mirror scenario-format.md field for field and in the same order, because the
 //! saved file's field order is the struct order. Field names carry their units.
 
-pub mod paths;
+mod edit;
+mod events;
+pub mod fields;
 mod read;
 mod save;
 mod valid;
@@ -12,6 +15,12 @@ mod validate;
 use serde::{Deserialize, Serialize};
 
 pub use crate::physics::Kinetics;
+pub use edit::{
+    ChannelPreset, Edit, EventKind, GateKind, check_edit, default_pump, held_start, new_channel, new_event,
+    rename_references,
+};
+pub use events::{Interval, Wording};
+pub use fields::{Address, AddressError, Drag, Span, Style};
 pub use read::{Location, Problem, ScenarioError, from_str, read_file};
 pub use save::{save_atomic, to_ron, to_ron_string, write_atomic, write_atomic_with};
 pub use valid::{Invalid, Valid, validate};
@@ -175,55 +184,6 @@ pub enum Event {
 
 fn one() -> f64 {
     1.0
-}
-
-impl Event {
-    /// The kind's name as written in the file.
-    pub fn kind(&self) -> &'static str {
-        match self {
-            Event::PermeabilityScale { .. } => "PermeabilityScale",
-            Event::BathChange { .. } => "BathChange",
-            Event::Agent { .. } => "Agent",
-            Event::Inject { .. } => "Inject",
-            Event::InjectTrain { .. } => "InjectTrain",
-        }
-    }
-
-    /// The species the event acts on, if any.
-    pub fn species(&self) -> Option<&str> {
-        match self {
-            Event::PermeabilityScale { species, .. }
-            | Event::BathChange { species, .. }
-            | Event::Agent { species, .. } => Some(species),
-            Event::Inject { .. } | Event::InjectTrain { .. } => None,
-        }
-    }
-
-    /// When the event is in force, `[start, end)` in ms; `end` is `None` for "to the end".
-    pub fn span_ms(&self) -> (f64, Option<f64>) {
-        match *self {
-            Event::PermeabilityScale {
-                from_ms, until_ms, ..
-            }
-            | Event::Agent {
-                from_ms, until_ms, ..
-            } => (from_ms, until_ms),
-            Event::BathChange { at_ms, .. } => (at_ms, None),
-            Event::Inject {
-                from_ms, until_ms, ..
-            } => (from_ms, Some(until_ms)),
-            Event::InjectTrain {
-                from_ms,
-                width_ms,
-                period_ms,
-                count,
-                ..
-            } => {
-                let last = f64::from(count.saturating_sub(1));
-                (from_ms, Some(from_ms + last * period_ms + width_ms))
-            }
-        }
-    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]

@@ -29,6 +29,14 @@ impl Invalid {
     pub fn first(&self) -> Option<&Problem> {
         self.0.first()
     }
+
+    /// The first problem, taken out (an `Invalid` made by [`validate`] always has one).
+    pub fn into_first(self) -> Problem {
+        self.0.into_iter().next().unwrap_or_else(|| Problem {
+            path: String::new(),
+            message: "the scenario is not valid".into(),
+        })
+    }
 }
 
 /// Checks every rule of scenario-format.md and, when none is broken, vouches for `s`.

@@ -16,10 +16,9 @@
 //! dose–response and `fit_view`), computed off the drawing thread.
 
 pub mod analysis;
-mod app;
+pub mod app;
 pub mod command;
 pub mod dialogs;
-pub mod fields;
 pub mod panels;
 mod shortcuts;
 pub mod state;
@@ -32,9 +31,9 @@ pub use state::{document, prefs, runtime};
 use std::path::PathBuf;
 use std::time::Instant;
 
+pub use crate::scenario::{Address, Edit};
 pub use app::{App, AppOptions};
-pub use command::{Command, Edit};
-pub use fields::NumField;
+pub use command::Command;
 
 /// Opens the window, on `initial` when given, and returns when it is closed.
 ///

@@ -184,9 +184,28 @@ enum Outcome {
     Fit(Result<FitOutput, String>),
 }
 
+/// What a background computation computes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum JobKind {
+    Sweep,
+    Dose,
+    Fit,
+}
+
+impl JobKind {
+    /// Its name in the progress bar and messages.
+    fn name(self) -> &'static str {
+        match self {
+            JobKind::Sweep => "sweep",
+            JobKind::Dose => "dose–response",
+            JobKind::Fit => "fit",
+        }
+    }
+}
+
 /// A computation under way.
 struct Job {
-    what: &'static str,
+    what: JobKind,
     /// Points to compute, for the progress bar (0: unknown).
     total: usize,
     progress: Arc<AtomicUsize>,
@@ -271,7 +290,7 @@ impl Analysis {
 
     fn spawn(
         &mut self,
-        what: &'static str,
+        what: JobKind,
         total: usize,
         ctx: &egui::Context,
         work: impl FnOnce(SweepControl) -> Outcome + Send + 'static,
@@ -288,7 +307,7 @@ impl Analysis {
         let (tx, rx) = channel();
         let ctx = ctx.clone();
         let spawned = std::thread::Builder::new()
-            .name(format!("permeant {what}"))
+            .name(format!("permeant {}", what.name()))
             .spawn(move || {
                 let _ = tx.send(work(control));
                 ctx.request_repaint();
@@ -309,7 +328,7 @@ impl Analysis {
             return;
         };
         let s = s.clone();
-        self.spawn("sweep", form.range.points, ctx, move |control| {
+        self.spawn(JobKind::Sweep, form.range.points, ctx, move |control| {
             let started = Instant::now();
             let out = sweep(&s, &form.vary, &form.range, &control).map(|points| {
                 let values: Vec<f64> = points.iter().map(|p| p.value).collect();
@@ -331,7 +350,7 @@ impl Analysis {
         };
         let s = s.clone();
         let total = form.points * if form.count_spikes { 2 } else { 1 };
-        self.spawn("dose–response", total, ctx, move |control| {
+        self.spawn(JobKind::Dose, total, ctx, move |control| {
             let spikes = form.count_spikes.then(SpikeSettings::default);
             let out = dose_response(
                 &s,
@@ -351,7 +370,9 @@ impl Analysis {
             return;
         };
         self.fit.result = None;
-        self.spawn("fit", 0, ctx, move |control| Outcome::Fit(task.run(&control)));
+        self.spawn(JobKind::Fit, 0, ctx, move |control| {
+            Outcome::Fit(task.run(&control))
+        });
     }
 
     /// Takes in a finished computation. Call once per frame.
@@ -366,11 +387,11 @@ impl Analysis {
             Err(TryRecvError::Disconnected) => {
                 let what = job.what;
                 self.job = None;
-                let lost = format!("the {what} stopped without a result");
+                let lost = format!("the {} stopped without a result", what.name());
                 match what {
-                    "sweep" => self.sweep = Some(Err(lost)),
-                    "fit" => self.fit.result = Some(Err(lost)),
-                    _ => self.dose = Some(Err(lost)),
+                    JobKind::Sweep => self.sweep = Some(Err(lost)),
+                    JobKind::Fit => self.fit.result = Some(Err(lost)),
+                    JobKind::Dose => self.dose = Some(Err(lost)),
                 }
                 return;
             }
@@ -425,14 +446,14 @@ impl Analysis {
             let done = job.progress.load(Ordering::Relaxed);
             if job.total > 0 {
                 let f = (done as f32 / job.total as f32).clamp(0.0, 1.0);
-                ui.add(
-                    egui::ProgressBar::new(f)
-                        .desired_width(260.0)
-                        .text(format!("{}: {done} of {} points", job.what, job.total)),
-                );
+                ui.add(egui::ProgressBar::new(f).desired_width(260.0).text(format!(
+                    "{}: {done} of {} points",
+                    job.what.name(),
+                    job.total
+                )));
             } else {
                 ui.spinner();
-                ui.label(format!("{} under way…", job.what));
+                ui.label(format!("{} under way…", job.what.name()));
             }
             if ui.button("Cancel").clicked() {
                 commands.push(Command::Analysis(AnalysisCommand::Cancel));

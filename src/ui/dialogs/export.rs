@@ -109,7 +109,7 @@ pub fn svg_text(shown: &Shown) -> Result<String, String> {
     if fig.title.trim().is_empty() {
         fig.title = "untitled".into();
     }
-    svg::render(&fig)
+    svg::render(&fig).map_err(|e| e.to_string())
 }
 
 /// The CSV of the shown trace, written at `when`.

@@ -1,6 +1,7 @@
-//! Native file dialogs (rfd through the xdg desktop portal) run on their own thread, so the
-//! window keeps drawing and the simulation keeps running while one is open. When no dialog can
-//! be shown — no portal, no session bus — the window falls back to a typed path.
+//! Native file dialogs (rfd: the platform's own on Windows and macOS, the xdg desktop portal on
+//! Linux) run on their own thread, so the window keeps drawing and the simulation keeps running
+//! while one is open. A dialog is tried on every platform; when none can be shown (rfd fails,
+//! or no portal answers) the window falls back to a typed path from then on.
 
 use std::path::PathBuf;
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
@@ -21,9 +22,16 @@ pub enum Chosen {
     Unavailable(FilePurpose),
 }
 
+/// A dialog on screen, waiting for its answer.
+struct Waiting {
+    purpose: FilePurpose,
+    since: Instant,
+    answer: Receiver<Option<PathBuf>>,
+}
+
 #[derive(Default)]
 pub struct FileChooser {
-    pending: Option<(FilePurpose, Instant, Receiver<Option<PathBuf>>)>,
+    pending: Option<Waiting>,
     /// Set once a dialog failed; from then on the typed path is used directly.
     unavailable: bool,
 }
@@ -43,8 +51,7 @@ impl FileChooser {
         if self.pending.is_some() {
             return None;
         }
-        if self.unavailable || std::env::var_os("DBUS_SESSION_BUS_ADDRESS").is_none() {
-            self.unavailable = true;
+        if self.unavailable {
             return Some(Chosen::Unavailable(purpose));
         }
         let (tx, rx) = channel();
@@ -82,7 +89,11 @@ impl FileChooser {
             });
         match spawned {
             Ok(_) => {
-                self.pending = Some((purpose, Instant::now(), rx));
+                self.pending = Some(Waiting {
+                    purpose,
+                    since: Instant::now(),
+                    answer: rx,
+                });
                 None
             }
             Err(_) => {
@@ -94,18 +105,19 @@ impl FileChooser {
 
     /// The dialog's answer, once there is one.
     pub fn poll(&mut self) -> Option<Chosen> {
-        let (purpose, started, rx) = self.pending.as_ref()?;
-        let answer = match rx.try_recv() {
-            Ok(Some(path)) => Chosen::File(*purpose, path),
-            Ok(None) if started.elapsed() < TOO_FAST_TO_BE_A_PERSON => {
+        let w = self.pending.as_ref()?;
+        let purpose = w.purpose;
+        let answer = match w.answer.try_recv() {
+            Ok(Some(path)) => Chosen::File(purpose, path),
+            Ok(None) if w.since.elapsed() < TOO_FAST_TO_BE_A_PERSON => {
                 self.unavailable = true;
-                Chosen::Unavailable(*purpose)
+                Chosen::Unavailable(purpose)
             }
             Ok(None) => Chosen::Cancelled,
             Err(TryRecvError::Empty) => return None,
             Err(TryRecvError::Disconnected) => {
                 self.unavailable = true;
-                Chosen::Unavailable(*purpose)
+                Chosen::Unavailable(purpose)
             }
         };
         self.pending = None;

@@ -10,13 +10,14 @@ use egui::{Id, Modal, RichText, Ui};
 use crate::autosave::{Autosave, INTERVAL_S, Recovered};
 use crate::scenario::{self, Valid};
 use crate::ui::command::Command;
-use crate::ui::state::document::{Document, Origin};
+use crate::ui::state::document::{Document, Origin, Revision};
 
 /// Autosaving for one session.
 pub struct Autosaver {
     store: Autosave,
-    /// What was last written, so an unchanged scenario is not written again.
-    last_saved: Option<Valid>,
+    /// The revision last written, so an unchanged scenario is not written again.
+    last_saved: Option<Revision>,
+    /// When the last write was due or done: the next is due an interval after it.
     last_time: Instant,
     interval: Duration,
 }
@@ -50,33 +51,40 @@ impl Autosaver {
         Ok((saver, offer))
     }
 
-    /// Writes `doc` when the interval has passed and it changed since the last write. Returns
-    /// how long until the next write is due when something is waiting to be written (so the
-    /// window can wake up for it), and the error of a failed write.
-    pub fn tick(&mut self, doc: &Document) -> (Option<Duration>, Result<(), String>) {
-        let changed = self.last_saved.as_ref() != Some(&doc.scenario);
+    /// Writes `doc` when the interval has passed at `now` and it changed since the last write.
+    /// Returns how long until the next write is due when something is waiting to be written
+    /// (so the window can wake up for it), and the error of a failed write. The time is passed
+    /// in, so that what is due depends on the clock the caller reads, not on how long this
+    /// takes.
+    pub fn tick(&mut self, doc: &Document, now: Instant) -> (Option<Duration>, Result<(), String>) {
+        let changed = self.last_saved != Some(doc.revision());
         if !changed {
-            self.last_time = Instant::now();
+            self.last_time = now;
             return (None, Ok(()));
         }
-        let since = self.last_time.elapsed();
+        let since = now.saturating_duration_since(self.last_time);
         if since < self.interval {
             return (Some(self.interval - since), Ok(()));
         }
-        (Some(self.interval), self.save_now(doc))
+        (Some(self.interval), self.save_at(doc, now))
     }
 
     /// Writes `doc` now.
     pub fn save_now(&mut self, doc: &Document) -> Result<(), String> {
-        self.last_time = Instant::now();
+        self.save_at(doc, Instant::now())
+    }
+
+    /// Writes `doc`, the write counting as done at `now`.
+    fn save_at(&mut self, doc: &Document, now: Instant) -> Result<(), String> {
+        self.last_time = now;
         // The next start may run in another folder: keep where the file is, not how it was named.
         let source = doc
             .path()
             .map(|p| std::fs::canonicalize(p).unwrap_or_else(|_| p.to_path_buf()));
         self.store
-            .save(&doc.scenario, source.as_deref())
+            .save(doc.scenario(), source.as_deref())
             .map_err(|e| format!("Autosave failed in {}: {e}", self.store.dir().display()))?;
-        self.last_saved = Some(doc.scenario.clone());
+        self.last_saved = Some(doc.revision());
         Ok(())
     }
 
@@ -102,7 +110,7 @@ impl Offer {
             Some((s, p)) => Document::new(s, Origin::File(p)),
             None => Document::fresh(),
         };
-        doc.scenario = restored;
+        doc.change(restored);
         Some(doc)
     }
 }
@@ -170,23 +178,31 @@ mod tests {
         let dir = tempfile::tempdir().expect("temporary directory");
         let (mut saver, offer) = Autosaver::begin(Autosave::at(dir.path().to_path_buf())).expect("begun");
         assert!(offer.is_none());
-        saver.interval = Duration::from_millis(30);
+        let start = saver.last_time;
+        let at = |s: u64| start + Duration::from_secs(s);
+        let interval = Duration::from_secs(INTERVAL_S);
         let mut doc = Document::fresh();
         let file = dir.path().join("autosave.ron");
-        // Changed (nothing written yet) but not due.
-        let (wait, r) = saver.tick(&doc);
-        assert!(wait.is_some() && r.is_ok() && !file.exists());
-        std::thread::sleep(Duration::from_millis(40));
-        assert!(saver.tick(&doc).1.is_ok());
+        // Changed (nothing written yet) but not due: the wait is what is left of the interval.
+        let (wait, r) = saver.tick(&doc, at(1));
+        assert_eq!(wait, Some(interval - Duration::from_secs(1)));
+        assert!(r.is_ok() && !file.exists());
+        // Due: written.
+        assert!(saver.tick(&doc, at(INTERVAL_S)).1.is_ok());
         assert!(file.exists());
-        // Unchanged: nothing is waiting, even after the interval.
-        std::thread::sleep(Duration::from_millis(40));
-        assert_eq!(saver.tick(&doc).0, None);
-        let mut changed = doc.scenario.clone().into_inner();
+        // Unchanged: nothing is waiting, however long after.
+        assert_eq!(saver.tick(&doc, at(10 * INTERVAL_S)).0, None);
+        let mut changed = doc.scenario().clone().into_inner();
         changed.title = "changed".into();
-        doc.scenario = scenario::validate(changed).expect("valid");
-        std::thread::sleep(Duration::from_millis(40));
-        assert!(saver.tick(&doc).1.is_ok());
+        doc.change(scenario::validate(changed).expect("valid"));
+        // The interval counts from the last unchanged look, so a change is not written at once.
+        let (wait, _) = saver.tick(&doc, at(10 * INTERVAL_S + 1));
+        assert_eq!(wait, Some(interval - Duration::from_secs(1)));
+        assert_eq!(
+            scenario::read_file(&file).expect("readable").title,
+            "Untitled cell"
+        );
+        assert!(saver.tick(&doc, at(11 * INTERVAL_S)).1.is_ok());
         let kept = scenario::read_file(&file).expect("readable");
         assert_eq!(kept.title, "changed");
         saver.end(&doc).expect("ended");
@@ -210,7 +226,7 @@ mod tests {
         }
         .into_document()
         .expect("a document");
-        assert_eq!(doc.scenario, edited);
+        assert_eq!(doc.scenario(), &edited);
         assert_eq!(doc.path(), Some(path.as_path()));
         assert!(doc.is_dirty());
         // The file is gone: the scenario comes back as new work.

@@ -7,8 +7,9 @@ use egui::text::LayoutJob;
 use egui::{Align, FontSelection, RichText, ScrollArea, TextEdit, TextStyle, Ui};
 
 use crate::notes::{Block, Span};
+use crate::scenario::Edit;
 use crate::scenario::Scenario;
-use crate::ui::command::{Command, Edit};
+use crate::ui::command::Command;
 
 /// Which tab of the side panel is open.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]

@@ -11,10 +11,10 @@ use egui_plot::{
 use crate::analysis::RestReport;
 use crate::analysis::decimate::Decimator;
 use crate::engine::Trace;
-use crate::scenario::Scenario;
+use crate::scenario::{Event, Interval, Scenario, Wording};
 use crate::ui::analysis::kept::KeptTrace;
 use crate::ui::command::Command;
-use crate::ui::panels::editor::protocol::{event_color, event_intervals, event_summary};
+use crate::ui::panels::editor::protocol::{MAX_PULSES_DRAWN, event_color};
 use crate::ui::state::prefs::LowerPlot;
 use crate::ui::state::runtime::Derived;
 use crate::ui::theme::{band_fill, neutral_color, potential_color, species_color};
@@ -236,15 +236,13 @@ fn visible_t(pui: &PlotUi) -> (f64, f64) {
     (b.min()[0], b.max()[0])
 }
 
-/// A decimated line of `y` against the shown part of the trace's time.
+/// A decimated line of `y` against the shown part of the trace's time, to be coloured.
 fn series<'a>(
     lines: &mut HashMap<String, Decimator>,
     pui: &PlotUi,
     input: &PlotInput,
     y: &[f64],
     name: String,
-    color: Color32,
-    width: f32,
 ) -> Option<Line<'a>> {
     let trace = input.trace?;
     let n = input.shown_len.min(trace.len()).min(y.len());
@@ -257,7 +255,7 @@ fn series<'a>(
         visible_t(pui),
         columns(pui),
     );
-    Some(Line::new(name, points).color(color).width(width))
+    Some(Line::new(name, points))
 }
 
 /// One shaded band of the protocol and its label ("" for no label).
@@ -279,15 +277,16 @@ fn bands(s: &Scenario) -> Vec<Band> {
     let mut out: Vec<Band> = Vec::new();
     for (k, e) in s.protocol.iter().enumerate() {
         let intervals = match e {
-            crate::scenario::Event::BathChange { at_ms, lag_ms, .. } => {
-                vec![(at_ms.min(d), (at_ms + (3.0 * lag_ms).max(d / 200.0)).min(d))]
-            }
-            _ => event_intervals(e, d),
+            Event::BathChange { at_ms, lag_ms, .. } => vec![Interval {
+                from_ms: at_ms.min(d),
+                until_ms: (at_ms + (3.0 * lag_ms).max(d / 200.0)).min(d),
+            }],
+            _ => e.intervals(d, MAX_PULSES_DRAWN),
         };
-        for (j, (a, b)) in intervals.into_iter().enumerate() {
+        for (j, span) in intervals.into_iter().enumerate() {
             out.push(Band {
-                from_ms: a,
-                until_ms: b.max(a),
+                from_ms: span.from_ms,
+                until_ms: span.until_ms.max(span.from_ms),
                 event: k,
                 first: j == 0,
                 label: String::new(),
@@ -311,7 +310,7 @@ fn bands(s: &Scenario) -> Vec<Band> {
         }
         out[i].label = if group.len() == 1 {
             let e = &s.protocol[out[i].event];
-            format!("{}. {}", out[i].event + 1, event_summary(e))
+            format!("{}. {}", out[i].event + 1, e.summary(Wording::Brief))
         } else {
             group
                 .iter()
@@ -355,7 +354,8 @@ fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, inp
                 .filter(|_| input.derived.varying.get(i) == Some(&true));
             let (e_label, line_at) = match along {
                 Some(col) => {
-                    let points = series(lines, pui, input, col, format!("E {}", row.name), c, 1.5);
+                    let points = series(lines, pui, input, col, format!("E {}", row.name))
+                        .map(|l| l.color(c).width(1.5));
                     let last = col[..input.shown_len.min(col.len())]
                         .iter()
                         .rev()
@@ -408,15 +408,8 @@ fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, inp
     }
     kept_lines(lines, pui, input.kept);
     if let Some(trace) = input.trace
-        && let Some(line) = series(
-            lines,
-            pui,
-            input,
-            trace.v_mv(),
-            "V".into(),
-            potential_color(dark),
-            2.0,
-        )
+        && let Some(line) = series(lines, pui, input, trace.v_mv(), "V".into())
+            .map(|l| l.color(potential_color(dark)).width(2.0))
     {
         pui.line(line);
     }
@@ -443,45 +436,27 @@ fn current_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input
     let dark = pui.ctx().global_style().visuals.dark_mode;
     let d = input.derived;
     for (i, (name, col)) in d.species.iter().zip(&d.currents_ua_per_cm2).enumerate() {
-        if let Some(line) = series(lines, pui, input, col, format!("I {name}"), species_color(i), 1.6) {
+        if let Some(line) =
+            series(lines, pui, input, col, format!("I {name}")).map(|l| l.color(species_color(i)).width(1.6))
+        {
             pui.line(line);
         }
     }
     if input.scenario.pump.is_some()
-        && let Some(line) = series(
-            lines,
-            pui,
-            input,
-            &d.pump_ua_per_cm2,
-            "I pump".into(),
-            neutral_color(dark),
-            1.4,
-        )
+        && let Some(line) = series(lines, pui, input, &d.pump_ua_per_cm2, "I pump".into())
+            .map(|l| l.color(neutral_color(dark)).width(1.4))
     {
         pui.line(line.style(LineStyle::dashed_dense()));
     }
     if input.scenario.protocol.iter().any(|e| e.species().is_none())
-        && let Some(line) = series(
-            lines,
-            pui,
-            input,
-            &d.inject_ua_per_cm2,
-            "injected".into(),
-            neutral_color(dark),
-            1.4,
-        )
+        && let Some(line) = series(lines, pui, input, &d.inject_ua_per_cm2, "injected".into())
+            .map(|l| l.color(neutral_color(dark)).width(1.4))
     {
         pui.line(line.style(LineStyle::dotted_dense()));
     }
-    if let Some(line) = series(
-        lines,
-        pui,
-        input,
-        &d.net_ua_per_cm2,
-        "I net".into(),
-        potential_color(dark),
-        2.0,
-    ) {
+    if let Some(line) = series(lines, pui, input, &d.net_ua_per_cm2, "I net".into())
+        .map(|l| l.color(potential_color(dark)).width(2.0))
+    {
         pui.line(line);
     }
     pui.hline(
@@ -494,7 +469,9 @@ fn current_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input
 fn permeability_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
     let d = input.derived;
     for (i, (name, col)) in d.species.iter().zip(&d.log10_p).enumerate() {
-        if let Some(line) = series(lines, pui, input, col, format!("P {name}"), species_color(i), 1.6) {
+        if let Some(line) =
+            series(lines, pui, input, col, format!("P {name}")).map(|l| l.color(species_color(i)).width(1.6))
+        {
             pui.line(line);
         }
     }
@@ -530,7 +507,9 @@ fn gate_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &
             let Some(col) = trace.columns.get(1 + k) else {
                 return;
             };
-            if let Some(line) = series(lines, pui, input, col, name.clone(), color, 1.6) {
+            if let Some(line) =
+                series(lines, pui, input, col, name.clone()).map(|l| l.color(color).width(1.6))
+            {
                 pui.line(line.style(styles[j % styles.len()]));
             }
             k += 1;
@@ -544,7 +523,6 @@ mod tests {
 
     #[test]
     fn simultaneous_events_share_one_label_and_bath_exchanges_stay_short() {
-        use crate::scenario::Event;
         let mut s = Scenario::new_default();
         s.run.duration_ms = 400.0;
         s.protocol = vec![

@@ -2,18 +2,17 @@
 //! and, along the bottom, big sliders for the inputs the user pinned (right-click any number in
 //! the editor); text and lines are drawn larger for a projector.
 //!
-//! Pins are kept as field paths of the scenario file (`species[0].outside_mm`), read through
-//! [`crate::scenario::paths`], and matched to the editor's [`NumField`] for the label, the unit
-//! and the check of each new value.
+//! Pins are [`Address`]es of the field table (kept as field paths like
+//! `species[0].outside_mm`), which give each slider its label, unit and span.
 
 use std::collections::HashMap;
 
 use egui::{Button, Panel, RichText, Slider, Ui, vec2};
 
-use crate::scenario::{Scenario, paths};
-use crate::ui::command::{Command, Edit, check_edit};
-use crate::ui::fields::{ChannelNum, Drag, EventNum, GateNum, NumField, PumpNum, Style, format_value};
+use crate::scenario::{Address, Drag, Edit, Scenario, Span, Style};
+use crate::ui::command::Command;
 use crate::ui::state::prefs::Speed;
+use crate::ui::widgets::Editing;
 
 /// The presentation state of the window (not saved: a new session starts at the desk).
 #[derive(Debug, Default)]
@@ -21,7 +20,7 @@ pub struct Presentation {
     pub on: bool,
     /// The range of each pinned slider, fixed when it is first shown so that it does not move
     /// under the pointer while the value changes.
-    ranges: HashMap<String, SliderRange>,
+    ranges: HashMap<Address, SliderRange>,
 }
 
 impl Presentation {
@@ -57,96 +56,16 @@ pub struct SliderRange {
     pub log: bool,
 }
 
-/// Every number field of `s`, in the editor's order.
-pub fn fields_of(s: &Scenario) -> Vec<NumField> {
-    let mut out = vec![
-        NumField::TemperatureC,
-        NumField::DiameterUm,
-        NumField::CapacitanceUfPerCm2,
-        NumField::DurationMs,
-        NumField::SampleMs,
-        NumField::StartMv,
-    ];
-    for i in 0..s.species.len() {
-        out.extend([
-            NumField::Charge(i),
-            NumField::InsideMm(i),
-            NumField::OutsideMm(i),
-            NumField::PermeabilityCmPerS(i),
-        ]);
-    }
-    out.extend(
-        [
-            PumpNum::ExportedPerCycle,
-            PumpNum::ImportedPerCycle,
-            PumpNum::MaxCurrent,
-            PumpNum::HalfInside,
-            PumpNum::HillInside,
-            PumpNum::HalfOutside,
-            PumpNum::HillOutside,
-        ]
-        .map(NumField::Pump),
-    );
-    for (c, ch) in s.channels.iter().enumerate() {
-        out.extend(
-            [
-                ChannelNum::MaxPermeability,
-                ChannelNum::Shift,
-                ChannelNum::Q10,
-                ChannelNum::ReferenceTemperature,
-            ]
-            .map(|w| NumField::Channel(c, w)),
-        );
-        for g in 0..ch.gates.len() {
-            out.extend(
-                [GateNum::Power, GateNum::VHalf, GateNum::Slope, GateNum::Tau].map(|what| NumField::Gate {
-                    channel: c,
-                    gate: g,
-                    what,
-                }),
-            );
-        }
-    }
-    use EventNum as E;
-    let event_nums = [
-        E::Factor,
-        E::From,
-        E::Until,
-        E::Lag,
-        E::OutsideMm,
-        E::At,
-        E::MaxBlock,
-        E::Ic50,
-        E::Hill,
-        E::Dose,
-        E::Onset,
-        E::Washout,
-        E::Amplitude,
-        E::Width,
-        E::Period,
-        E::Count,
-    ];
-    for i in 0..s.protocol.len() {
-        out.extend(event_nums.map(|w| NumField::Event(i, w)));
-    }
-    out.retain(|f| f.get(s).is_some());
-    out
-}
-
-/// The editor's field at `path` in `s`, if `s` has it.
-pub fn field_at(s: &Scenario, path: &str) -> Option<NumField> {
-    fields_of(s).into_iter().find(|f| f.path() == path)
-}
-
 /// The range a big slider for `field` covers, around the present `value`. Quantities that span
-/// decades get four decades centred on the value; the others a span that suits their kind.
-pub fn slider_range(field: NumField, value: f64, s: &Scenario) -> SliderRange {
+/// decades get four decades centred on the value; the others the span their row names.
+pub fn slider_range(field: Address, value: f64, s: &Scenario) -> SliderRange {
+    let row = field.field();
     let linear = |lo: f64, hi: f64| SliderRange {
         lo: lo.min(value),
         hi: hi.max(value),
         log: false,
     };
-    if let Drag::Log { floor, .. } = field.drag() {
+    if let Drag::Log { floor } = row.drag {
         let centre = if value > 0.0 { value } else { floor * 100.0 };
         return SliderRange {
             lo: centre / 100.0,
@@ -154,32 +73,21 @@ pub fn slider_range(field: NumField, value: f64, s: &Scenario) -> SliderRange {
             log: true,
         };
     }
-    let duration = s.run.duration_ms;
     let spread = |v: f64| (v.abs() * 4.0).max(10.0);
-    match field {
-        NumField::TemperatureC | NumField::Channel(_, ChannelNum::ReferenceTemperature) => linear(0.0, 45.0),
-        NumField::StartMv
-        | NumField::Channel(_, ChannelNum::Shift)
-        | NumField::Gate {
-            what: GateNum::VHalf, ..
-        } => linear(-150.0, 100.0),
-        NumField::Charge(_) => linear(-3.0, 3.0),
-        NumField::Event(_, EventNum::MaxBlock) => linear(0.0, 1.0),
-        NumField::Event(_, EventNum::From | EventNum::Until | EventNum::At) => linear(0.0, duration),
-        NumField::Event(_, EventNum::Amplitude) => linear(-spread(value), spread(value)),
-        NumField::Pump(PumpNum::HillInside | PumpNum::HillOutside)
-        | NumField::Event(_, EventNum::Hill)
-        | NumField::Channel(_, ChannelNum::Q10) => linear(0.5, 5.0),
-        _ if field.style() == Style::Whole => linear(0.0, (value * 2.0).max(6.0)),
-        _ if value < 0.0 => linear(value * 4.0, 0.0),
-        _ => linear(0.0, spread(value)),
+    match row.span {
+        Span::Fixed { lo, hi } => linear(lo, hi),
+        Span::RunTime => linear(0.0, s.run.duration_ms),
+        Span::Symmetric => linear(-spread(value), spread(value)),
+        Span::Auto if row.style == Style::Whole => linear(0.0, (value * 2.0).max(6.0)),
+        Span::Auto if value < 0.0 => linear(value * 4.0, 0.0),
+        Span::Auto => linear(0.0, spread(value)),
     }
 }
 
 /// Rounds a slider value to what a person would type: whole numbers where the field wants them,
 /// three significant digits on a log scale, and about a thousandth of the span otherwise.
-pub fn round_for(field: NumField, v: f64, range: SliderRange) -> f64 {
-    if field.style() == Style::Whole {
+pub fn round_for(field: Address, v: f64, range: SliderRange) -> f64 {
+    if field.field().style == Style::Whole {
         return v.round();
     }
     if range.log {
@@ -193,10 +101,8 @@ pub fn round_for(field: NumField, v: f64, range: SliderRange) -> f64 {
     (v / step).round() * step
 }
 
-/// What the presentation panels show besides the scenario.
+/// What the presentation panels show besides the scenario and its pinned numbers.
 pub struct PresentInfo<'a> {
-    pub scenario: &'a Scenario,
-    pub pins: &'a [String],
     pub running: bool,
     pub can_run: bool,
     pub speed: Speed,
@@ -206,12 +112,12 @@ pub struct PresentInfo<'a> {
 }
 
 /// The bar across the top and the big sliders along the bottom.
-pub fn panels(ui: &mut Ui, state: &mut Presentation, info: &PresentInfo, commands: &mut Vec<Command>) {
-    Panel::top("presentation bar").show(ui, |ui| bar(ui, info, commands));
-    Panel::bottom("presentation sliders").show(ui, |ui| sliders(ui, state, info, commands));
+pub fn panels(ui: &mut Ui, state: &mut Presentation, info: &PresentInfo, ed: &mut Editing) {
+    Panel::top("presentation bar").show(ui, |ui| bar(ui, info, ed.scenario, ed.commands));
+    Panel::bottom("presentation sliders").show(ui, |ui| sliders(ui, state, ed));
 }
 
-fn bar(ui: &mut Ui, info: &PresentInfo, commands: &mut Vec<Command>) {
+fn bar(ui: &mut Ui, info: &PresentInfo, s: &Scenario, commands: &mut Vec<Command>) {
     ui.add_space(4.0);
     ui.horizontal(|ui| {
         let big = |t: &str| RichText::new(t).size(20.0).strong();
@@ -270,7 +176,7 @@ fn bar(ui: &mut Ui, info: &PresentInfo, commands: &mut Vec<Command>) {
             if let Some(n) = info.notice {
                 ui.add(egui::Label::new(RichText::new(n).color(ui.visuals().warn_fg_color)).truncate());
             } else {
-                let title = info.scenario.title.trim();
+                let title = s.title.trim();
                 ui.add(egui::Label::new(RichText::new(title).size(18.0).strong()).truncate());
             }
         });
@@ -278,10 +184,10 @@ fn bar(ui: &mut Ui, info: &PresentInfo, commands: &mut Vec<Command>) {
     ui.add_space(4.0);
 }
 
-fn sliders(ui: &mut Ui, state: &mut Presentation, info: &PresentInfo, commands: &mut Vec<Command>) {
+fn sliders(ui: &mut Ui, state: &mut Presentation, ed: &mut Editing) {
     ui.add_space(6.0);
-    let s = info.scenario;
-    if info.pins.is_empty() {
+    let s = ed.scenario;
+    if ed.pinned.is_empty() {
         ui.label(
             RichText::new(
                 "No big sliders yet: leave presentation, right-click a number in the editor and choose \
@@ -294,30 +200,30 @@ fn sliders(ui: &mut Ui, state: &mut Presentation, info: &PresentInfo, commands: 
     }
     let label_w = 190.0;
     let value_w = 130.0;
-    for path in info.pins {
+    for &field in ed.pinned {
         ui.horizontal(|ui| {
             let unpin = |ui: &mut Ui, commands: &mut Vec<Command>| {
                 if ui.small_button("×").on_hover_text("Remove this slider").clicked() {
                     commands.push(Command::Pin {
-                        path: path.clone(),
+                        address: field,
                         pinned: false,
                     });
                 }
             };
-            let (Some(field), Ok(value)) = (field_at(s, path), paths::number_at(s, path)) else {
-                ui.label(RichText::new(format!("{path}: not in this scenario")).weak());
-                unpin(ui, commands);
+            let Some(value) = field.get(s) else {
+                ui.label(RichText::new(format!("{field}: not in this scenario")).weak());
+                unpin(ui, ed.commands);
                 return;
             };
-            let name = field.describe(s);
+            let name = field.label(s);
             ui.spacing_mut().interact_size.y = 30.0;
             fixed_width(ui, label_w, egui::Align::Min, |ui| {
                 ui.add(egui::Label::new(RichText::new(&name).size(18.0).strong()).truncate())
-                    .on_hover_text(path.as_str());
+                    .on_hover_text(field.to_string());
             });
             let range = *state
                 .ranges
-                .entry(path.clone())
+                .entry(field)
                 .or_insert_with(|| slider_range(field, value, s));
             let slider_w = (ui.available_width() - value_w - 40.0).max(120.0);
             ui.spacing_mut().slider_width = slider_w;
@@ -331,20 +237,20 @@ fn sliders(ui: &mut Ui, state: &mut Presentation, info: &PresentInfo, commands: 
                 slider = slider.smallest_positive(range.lo);
             }
             let response = ui.add(slider);
-            let unit = field.unit();
+            let unit = field.field().unit;
             ui.ctx()
                 .accesskit_node_builder(response.id, |n| n.set_label(format!("{name}, big slider")));
             if response.changed() {
                 let v = round_for(field, v, range);
-                if v != value && check_edit(s, &Edit::Number(field, v)).is_ok() {
-                    commands.push(Command::Edit(Edit::Number(field, v)));
+                if v != value {
+                    ed.push_checked(Edit::Number(field, v));
                 }
             }
-            let shown = format!("{} {unit}", format_value(value, field.style()));
+            let shown = format!("{} {unit}", field.field().style.format(value));
             fixed_width(ui, value_w, egui::Align::Max, |ui| {
                 ui.label(RichText::new(shown).size(18.0).monospace());
             });
-            unpin(ui, commands);
+            unpin(ui, ed.commands);
         });
     }
     ui.add_space(6.0);
@@ -365,33 +271,11 @@ fn fixed_width(ui: &mut Ui, width: f32, align: egui::Align, add: impl FnOnce(&mu
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::scenario::fields::addresses;
     use crate::scenario::{Event, Kinetics};
 
-    fn example(name: &str) -> Scenario {
-        let text = crate::examples::example_text(name).unwrap_or_else(|| panic!("no example {name}"));
-        crate::scenario::from_str(text, name)
-            .unwrap_or_else(|e| panic!("{e}"))
-            .into_inner()
-    }
-
-    /// The editor's addresses and the file paths agree on every field of every bundled example,
-    /// so a pin made from the editor reads back the value the editor shows.
-    #[test]
-    fn every_editor_field_is_the_number_at_its_path() {
-        for (file, _) in crate::examples::EXAMPLES {
-            let s = example(file);
-            let fields = fields_of(&s);
-            for f in &fields {
-                assert_eq!(paths::number_at(&s, &f.path()).ok(), f.get(&s), "{file}: {f:?}");
-                assert_eq!(field_at(&s, &f.path()), Some(*f), "{file}: {f:?}");
-            }
-            // Every number of the file is reachable from the editor (and nothing twice).
-            let mut from_fields: Vec<String> = fields.iter().map(NumField::path).collect();
-            from_fields.sort();
-            let mut from_paths = paths::number_paths(&s);
-            from_paths.sort();
-            assert_eq!(from_fields, from_paths, "{file}");
-        }
+    fn at(path: &str, ix: &[usize]) -> Address {
+        Address::of(path, ix).unwrap_or_else(|| panic!("no row {path}"))
     }
 
     #[test]
@@ -425,17 +309,17 @@ mod tests {
                 power: 1,
             }],
         });
-        for f in fields_of(&s) {
+        for f in addresses(&s) {
             let v = f.get(&s).unwrap_or(f64::NAN);
             let r = slider_range(f, v, &s);
             assert!(r.lo < r.hi && r.lo <= v && v <= r.hi, "{f:?}: {v} in {r:?}");
             assert!(!r.log || r.lo > 0.0, "{f:?}");
         }
         // Bath potassium: four decades around 5 mM, on a log scale.
-        let r = slider_range(NumField::OutsideMm(0), 5.0, &s);
+        let r = slider_range(at("species[].outside_mm", &[0]), 5.0, &s);
         assert!(r.log && (r.lo - 0.05).abs() < 1e-12 && (r.hi - 500.0).abs() < 1e-9);
         assert_eq!(
-            slider_range(NumField::TemperatureC, 37.0, &s),
+            slider_range(at("temperature_c", &[]), 37.0, &s),
             SliderRange {
                 lo: 0.0,
                 hi: 45.0,
@@ -460,13 +344,13 @@ mod tests {
             hi: 500.0,
             log: true,
         };
-        assert_eq!(round_for(NumField::OutsideMm(0), 12.3456, log), 12.3);
+        assert_eq!(round_for(at("species[].outside_mm", &[0]), 12.3456, log), 12.3);
         let lin = SliderRange {
             lo: 0.0,
             hi: 45.0,
             log: false,
         };
-        assert!((round_for(NumField::TemperatureC, 21.23456, lin) - 21.23).abs() < 1e-9);
-        assert_eq!(round_for(NumField::Charge(0), 1.6, lin), 2.0);
+        assert!((round_for(at("temperature_c", &[]), 21.23456, lin) - 21.23).abs() < 1e-9);
+        assert_eq!(round_for(at("species[].charge", &[0]), 1.6, lin), 2.0);
     }
 }

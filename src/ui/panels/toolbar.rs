@@ -5,8 +5,10 @@ use std::path::PathBuf;
 
 use egui::{RichText, Ui};
 
+use crate::scenario::Edit;
 use crate::ui::analysis::AnalysisCommand;
-use crate::ui::command::{Command, Edit};
+use crate::ui::app::Example;
+use crate::ui::command::Command;
 use crate::ui::dialogs::export::ExportKind;
 use crate::ui::state::prefs::{Prefs, Speed, ThemeChoice};
 use crate::ui::widgets::Editing;
@@ -20,8 +22,7 @@ pub struct ToolbarInfo<'a> {
     pub dirty: bool,
     pub prefs: &'a Prefs,
     pub recent: &'a [PathBuf],
-    /// Bundled examples: file name and title.
-    pub examples: &'a [(String, String)],
+    pub examples: &'a [Example],
     /// A run has samples to keep.
     pub can_keep: bool,
     pub analysis_open: bool,
@@ -74,7 +75,7 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
             }
         });
         ui.menu_button("Examples", |ui| {
-            for (file, title) in info.examples {
+            for Example { file, title } in info.examples {
                 let label = if title.is_empty() {
                     file.clone()
                 } else {

@@ -1,9 +1,40 @@
 //! The document: the scenario being edited, where it came from, and whether it differs from
 //! what was last opened or saved. Only this is ever written to disk.
+//!
+//! Each accepted change gives the scenario a new [`Revision`], so the readouts, the live run,
+//! autosave and undo notice a change by comparing two numbers rather than two scenarios each
+//! frame.
 
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
 
 use crate::scenario::Valid;
+
+/// Which version of a scenario a document holds. A new number for every accepted change, in
+/// any document of the session; undo brings a version back with its own number.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct Revision(u64);
+
+impl Revision {
+    fn next() -> Revision {
+        static LAST: AtomicU64 = AtomicU64::new(0);
+        Revision(LAST.fetch_add(1, Ordering::Relaxed) + 1)
+    }
+}
+
+/// A scenario with its revision: what undo keeps. Two versions are equal when their revision
+/// is, which is cheap to ask every frame and implies equal scenarios.
+#[derive(Debug, Clone)]
+pub struct Version {
+    revision: Revision,
+    scenario: Valid,
+}
+
+impl PartialEq for Version {
+    fn eq(&self, other: &Self) -> bool {
+        self.revision == other.revision
+    }
+}
 
 /// Where the scenario came from.
 #[derive(Debug, Clone, PartialEq)]
@@ -18,19 +49,25 @@ pub enum Origin {
 
 #[derive(Debug, Clone)]
 pub struct Document {
-    pub scenario: Valid,
+    current: Version,
     pub origin: Origin,
     /// The scenario as last opened or saved: the document is "dirty" when it differs, so
     /// undoing back to it clears the mark.
     saved: Valid,
+    /// Whether `current` differs from `saved`, decided once per change.
+    dirty: bool,
 }
 
 impl Document {
     pub fn new(scenario: Valid, origin: Origin) -> Self {
         Self {
             saved: scenario.clone(),
-            scenario,
+            current: Version {
+                revision: Revision::next(),
+                scenario,
+            },
             origin,
+            dirty: false,
         }
     }
 
@@ -38,8 +75,39 @@ impl Document {
         Self::new(Valid::new_default(), Origin::Fresh)
     }
 
+    /// The scenario being edited.
+    pub fn scenario(&self) -> &Valid {
+        &self.current.scenario
+    }
+
+    /// The scenario's present revision.
+    pub fn revision(&self) -> Revision {
+        self.current.revision
+    }
+
+    /// The scenario with its revision, as undo keeps it.
+    pub fn version(&self) -> &Version {
+        &self.current
+    }
+
+    /// Takes `next` as a new revision (unless it is the same scenario, which changes nothing).
+    pub fn change(&mut self, next: Valid) {
+        if next != self.current.scenario {
+            self.restore(Version {
+                revision: Revision::next(),
+                scenario: next,
+            });
+        }
+    }
+
+    /// Goes back (or forward) to a version kept by undo.
+    pub fn restore(&mut self, version: Version) {
+        self.dirty = version.scenario != self.saved;
+        self.current = version;
+    }
+
     pub fn is_dirty(&self) -> bool {
-        self.scenario != self.saved
+        self.dirty
     }
 
     pub fn path(&self) -> Option<&Path> {
@@ -51,16 +119,18 @@ impl Document {
 
     /// Records a successful save to `path`.
     pub fn saved_to(&mut self, path: PathBuf) {
-        self.saved = self.scenario.clone();
+        self.saved = self.current.scenario.clone();
+        self.dirty = false;
         self.origin = Origin::File(path);
     }
 
     /// The window title: scenario title, where it is from, and `*` for unsaved changes.
     pub fn window_title(&self) -> String {
-        let name = if self.scenario.title.trim().is_empty() {
+        let title = &self.scenario().title;
+        let name = if title.trim().is_empty() {
             "untitled"
         } else {
-            self.scenario.title.trim()
+            title.trim()
         };
         let from = match &self.origin {
             Origin::Fresh => String::new(),
@@ -82,16 +152,17 @@ impl Document {
 mod tests {
     use super::*;
 
+    fn change(d: &mut Document, f: &dyn Fn(&mut crate::scenario::Scenario)) {
+        let mut s = d.scenario().clone().into_inner();
+        f(&mut s);
+        d.change(crate::scenario::validate(s).expect("a valid change"));
+    }
+
     #[test]
     fn dirty_mark_follows_the_content_not_the_history() {
         let mut d = Document::fresh();
         assert!(!d.is_dirty());
         assert!(!d.window_title().starts_with('*'));
-        let change = |d: &mut Document, f: &dyn Fn(&mut crate::scenario::Scenario)| {
-            let mut s = d.scenario.clone().into_inner();
-            f(&mut s);
-            d.scenario = crate::scenario::validate(s).expect("a valid change");
-        };
         change(&mut d, &|s| s.temperature_c = 20.0);
         assert!(d.is_dirty());
         assert!(d.window_title().starts_with('*'));
@@ -102,5 +173,23 @@ mod tests {
         assert!(!d.is_dirty());
         assert_eq!(d.window_title(), "Squid axon — axon.ron · permeant");
         assert_eq!(d.path(), Some(Path::new("/tmp/x/axon.ron")));
+    }
+
+    #[test]
+    fn each_change_is_a_new_revision_and_undo_brings_one_back() {
+        let mut d = Document::fresh();
+        let first = d.version().clone();
+        change(&mut d, &|s| s.temperature_c = 20.0);
+        let second = d.revision();
+        assert_ne!(second, first.revision);
+        // The same scenario again is no change.
+        change(&mut d, &|s| s.temperature_c = 20.0);
+        assert_eq!(d.revision(), second);
+        d.restore(first.clone());
+        assert_eq!(d.version(), &first);
+        assert_eq!(d.scenario().temperature_c, 37.0);
+        assert!(!d.is_dirty());
+        // Another document never shares a revision with this one.
+        assert_ne!(Document::fresh().revision(), d.revision());
     }
 }

@@ -4,7 +4,9 @@
 
 use std::path::{Path, PathBuf};
 
-use serde::{Deserialize, Serialize};
+use serde::{Deserialize, Deserializer, Serialize};
+
+use crate::scenario::Address;
 
 /// Light, dark, or whatever the desktop uses.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
@@ -80,9 +82,11 @@ pub struct Prefs {
     pub speed: Speed,
     pub lower_plot: LowerPlot,
     pub show_iv: bool,
-    /// Inputs shown as big sliders in presentation, as field paths of the scenario file
-    /// (`species[0].outside_mm`); kept between sessions so a class can be prepared ahead.
-    pub pins: Vec<String>,
+    /// Inputs shown as big sliders in presentation, kept between sessions so a class can be
+    /// prepared ahead. Saved as field paths of the scenario file (`species[0].outside_mm`); a
+    /// path this version does not know is left out rather than losing every preference.
+    #[serde(deserialize_with = "known_addresses")]
+    pub pins: Vec<Address>,
 }
 
 impl Default for Prefs {
@@ -96,6 +100,12 @@ impl Default for Prefs {
             pins: Vec::new(),
         }
     }
+}
+
+/// The addresses among saved field paths, in order.
+fn known_addresses<'de, D: Deserializer<'de>>(d: D) -> Result<Vec<Address>, D::Error> {
+    let paths = Vec::<String>::deserialize(d)?;
+    Ok(paths.iter().filter_map(|p| p.parse().ok()).collect())
 }
 
 /// How many recent files are kept.
@@ -190,6 +200,19 @@ mod tests {
         store.save_recent(&[PathBuf::from("/a/b.ron")]).expect("saved");
         assert_eq!(store.load_prefs(), p);
         assert_eq!(store.load_recent(), vec![PathBuf::from("/a/b.ron")]);
+        // Pins are kept as the field paths of the file; one this version does not know is
+        // dropped, the others and every other preference kept.
+        std::fs::write(
+            dir.path().join("nested/prefs.ron"),
+            "(large_text: true, pins: [\"species[0].outside_mm\", \"species[0].colour\", \"protocol[2].dose_um\"])",
+        )
+        .expect("written");
+        let read = store.load_prefs();
+        assert!(read.large_text);
+        let pins: Vec<String> = read.pins.iter().map(ToString::to_string).collect();
+        assert_eq!(pins, ["species[0].outside_mm", "protocol[2].dose_um"]);
+        store.save_prefs(&read).expect("saved");
+        assert_eq!(store.load_prefs(), read);
         // A damaged file falls back to the defaults instead of failing.
         std::fs::write(dir.path().join("nested/prefs.ron"), "(theme: Purple").expect("written");
         assert_eq!(store.load_prefs(), Prefs::default());

@@ -7,6 +7,7 @@ use std::time::{Duration, Instant};
 use crate::engine::{Budget, Progress, Readout, Run, SolverSettings, Trace};
 use crate::scenario::{Scenario, Valid};
 
+use crate::ui::state::document::Revision;
 use crate::ui::state::prefs::Speed;
 
 /// Quantities computed once per stored sample, in the trace's order.
@@ -155,8 +156,10 @@ impl StepMeter {
 /// The run in progress and how it is shown.
 pub struct Runtime {
     run: Option<Run>,
-    /// The scenario the run is running (to notice edits).
+    /// The scenario the run is running (to start it over after the end).
     scenario: Valid,
+    /// The document revision `scenario` is (to notice edits).
+    revision: Option<Revision>,
     /// Why the run could not start or stopped early.
     pub error: Option<String>,
     pub running: bool,
@@ -185,6 +188,7 @@ impl Runtime {
         let mut r = Runtime {
             run: None,
             scenario: s.clone(),
+            revision: None,
             error: None,
             running: false,
             shown_ms: 0.0,
@@ -230,12 +234,31 @@ impl Runtime {
         self.follow_layout();
     }
 
+    /// A run of revision `revision` of a document's scenario `s` at t = 0, paused.
+    pub fn for_revision(revision: Revision, s: &Valid) -> Self {
+        let mut r = Runtime::new(s);
+        r.revision = Some(revision);
+        r
+    }
+
+    /// Takes the document's scenario when it is a revision this run has not taken yet.
+    pub fn follow(&mut self, revision: Revision, s: &Valid) {
+        if self.revision != Some(revision) {
+            self.revision = Some(revision);
+            self.scenario_changed(s);
+        }
+    }
+
+    /// Starts a newly opened document's run at t = 0, paused.
+    pub fn open(&mut self, revision: Revision, s: &Valid) {
+        self.running = false;
+        self.restart(s);
+        self.revision = Some(revision);
+    }
+
     /// Takes an edited scenario: a run that has not moved yet starts over (so "start at rest"
     /// uses the new resting state); one under way continues from its present state.
     pub fn scenario_changed(&mut self, s: &Valid) {
-        if *s == self.scenario {
-            return;
-        }
         let moved = self.run.as_ref().is_some_and(|r| r.t_ms() > 0.0);
         if !moved {
             self.restart(s);

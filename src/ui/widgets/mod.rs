@@ -5,16 +5,23 @@
 
 use egui::{Color32, Id, Response, Role, Sense, Stroke, StrokeKind, TextEdit, Ui, WidgetInfo, vec2};
 
-use crate::scenario::Scenario;
-use crate::ui::command::{Command, Edit, check_edit};
-use crate::ui::fields::{Drag, NumField, format_value, parse_value};
+use crate::scenario::{Address, Drag, Edit, Problem, Scenario};
+use crate::ui::command::Command;
+use crate::ui::state::checks::Checked;
+use crate::ui::state::document::Document;
 
-/// What an editor panel works with: the scenario to read and the list to push commands to.
+/// Points of pointer movement that multiply a log-dragged value by ten.
+const POINTS_PER_DECADE: f64 = 150.0;
+
+/// What an editor panel works with: the document to read, the edits already checked against
+/// it, and the list to push commands to.
 pub struct Editing<'a> {
     pub scenario: &'a Scenario,
+    doc: &'a Document,
+    checked: &'a mut Checked,
     pub commands: &'a mut Vec<Command>,
-    /// Field paths shown as big sliders in presentation (offered in each number's menu).
-    pub pinned: &'a [String],
+    /// Numbers shown as big sliders in presentation (offered in each number's menu).
+    pub pinned: &'a [Address],
 }
 
 /// Text being typed into a field, and why it is not accepted (if it is not).
@@ -63,7 +70,7 @@ fn select_all(ui: &Ui, id: Id, text: &str) {
 }
 
 /// Rounds a dragged value to three significant digits (log drags) or to the drag step.
-fn round_dragged(v: f64, drag: Drag) -> f64 {
+pub fn round_dragged(v: f64, drag: Drag) -> f64 {
     match drag {
         Drag::Log { .. } => {
             if v == 0.0 {
@@ -79,29 +86,69 @@ fn round_dragged(v: f64, drag: Drag) -> f64 {
     }
 }
 
+impl<'a> Editing<'a> {
+    pub fn new(
+        doc: &'a Document,
+        checked: &'a mut Checked,
+        commands: &'a mut Vec<Command>,
+        pinned: &'a [Address],
+    ) -> Self {
+        Editing {
+            scenario: doc.scenario(),
+            doc,
+            checked,
+            commands,
+            pinned,
+        }
+    }
+}
+
 impl Editing<'_> {
     pub fn push(&mut self, edit: Edit) {
         self.commands.push(Command::Edit(edit));
     }
 
+    /// Whether `edit` would leave the scenario valid, or the first reason it would not.
+    pub fn check(&mut self, edit: &Edit) -> Result<(), Problem> {
+        self.checked.check(self.doc, edit)
+    }
+
+    /// Pushes `edit` when it would leave the scenario valid.
+    pub fn push_checked(&mut self, edit: Edit) {
+        if self.check(&edit).is_ok() {
+            self.push(edit);
+        }
+    }
+
     /// The accessible and tooltip name of a number field, with its unit.
-    pub fn field_name(&self, field: NumField) -> String {
-        let unit = field.unit();
+    pub fn field_name(&self, field: Address) -> String {
+        let unit = field.field().unit;
         if unit.is_empty() {
-            field.describe(self.scenario)
+            field.label(self.scenario)
         } else {
-            format!("{} ({unit})", field.describe(self.scenario))
+            format!("{} ({unit})", field.label(self.scenario))
+        }
+    }
+
+    /// The number field of the table row at `path` (e.g. `species[].outside_mm`) and list
+    /// indices `at`, at least `width` points wide. Shows "—" when the scenario lacks it.
+    pub fn number(&mut self, ui: &mut Ui, path: &str, at: &[usize], width: f32) -> Response {
+        let address = Address::of(path, at);
+        debug_assert!(address.is_some(), "no row of the field table is at {path}");
+        match address {
+            Some(a) => self.number_at(ui, a, width),
+            None => ui.label("—"),
         }
     }
 
     /// A number field of at least `width` points. Shows "—" when the scenario lacks the field.
-    pub fn number(&mut self, ui: &mut Ui, field: NumField, width: f32) -> Response {
+    pub fn number_at(&mut self, ui: &mut Ui, field: Address, width: f32) -> Response {
         let Some(value) = field.get(self.scenario) else {
             return ui.label("—");
         };
         let name = self.field_name(field);
-        let style = field.style();
-        let unit = field.unit();
+        let style = field.field().style;
+        let unit = field.field().unit;
         let id = ui.scope_id().with(("number", field));
         ui.memory_mut(|m| m.interested_in_focus(id, ui.layer_id()));
         let typing_now = ui.memory(|m| m.has_focus(id));
@@ -111,7 +158,7 @@ impl Editing<'_> {
             // The first frame of typing selects the whole value, so typing replaces it.
             let fresh = stored.is_none();
             let mut typing = stored.unwrap_or_else(|| Typing {
-                text: format_value(value, style),
+                text: style.format(value),
                 error: None,
             });
             let edit = TextEdit::singleline(&mut typing.text)
@@ -124,8 +171,14 @@ impl Editing<'_> {
                 select_all(ui, id, &typing.text);
             }
             if response.changed() {
-                let checked = parse_value(&typing.text, style)
-                    .and_then(|v| check_edit(self.scenario, &Edit::Number(field, v)).map(|_| v));
+                let checked = style
+                    .parse(&typing.text)
+                    .map_err(|e| e.to_string())
+                    .and_then(|v| {
+                        self.check(&Edit::Number(field, v))
+                            .map(|()| v)
+                            .map_err(|p| p.message)
+                    });
                 match checked {
                     Ok(v) => {
                         typing.error = None;
@@ -147,9 +200,9 @@ impl Editing<'_> {
         } else {
             ui.data_mut(|d| d.remove_temp::<Typing>(id));
             let shown = if unit.is_empty() {
-                format_value(value, style)
+                style.format(value)
             } else {
-                format!("{} {unit}", format_value(value, style))
+                format!("{} {unit}", style.format(value))
             };
             let font = egui::TextStyle::Button.resolve(ui.style());
             let galley = ui
@@ -178,13 +231,10 @@ impl Editing<'_> {
                 if points != 0.0 {
                     let precise_id = id.with("precise");
                     let precise: f64 = ui.data_mut(|m| m.get_temp(precise_id)).unwrap_or(value);
-                    let drag = field.drag();
+                    let drag = field.field().drag;
                     let next = match drag {
                         Drag::Linear { per_point } => precise + points * per_point,
-                        Drag::Log {
-                            points_per_decade,
-                            floor,
-                        } => {
+                        Drag::Log { floor } => {
                             let base = if precise > 0.0 {
                                 precise
                             } else if points > 0.0 {
@@ -192,13 +242,13 @@ impl Editing<'_> {
                             } else {
                                 0.0
                             };
-                            base * 10f64.powf(points / points_per_decade)
+                            base * 10f64.powf(points / POINTS_PER_DECADE)
                         }
                     };
                     ui.data_mut(|m| m.insert_temp(precise_id, next));
                     let rounded = round_dragged(next, drag);
-                    if rounded != value && check_edit(self.scenario, &Edit::Number(field, rounded)).is_ok() {
-                        self.push(Edit::Number(field, rounded));
+                    if rounded != value {
+                        self.push_checked(Edit::Number(field, rounded));
                     }
                 }
             }
@@ -219,9 +269,8 @@ impl Editing<'_> {
     }
 
     /// A number's right-click menu: show it as a big slider in presentation, or stop.
-    fn pin_menu(&mut self, response: &Response, field: NumField) {
-        let path = field.path();
-        let pinned = self.pinned.contains(&path);
+    fn pin_menu(&mut self, response: &Response, address: Address) {
+        let pinned = self.pinned.contains(&address);
         response.context_menu(|ui| {
             let label = if pinned {
                 "Remove its big slider from presentation"
@@ -230,7 +279,7 @@ impl Editing<'_> {
             };
             if ui.button(label).clicked() {
                 self.commands.push(Command::Pin {
-                    path: path.clone(),
+                    address,
                     pinned: !pinned,
                 });
                 ui.close();
@@ -264,14 +313,14 @@ impl Editing<'_> {
         let response = ui.add(TextEdit::singleline(&mut typing.text).id(id).desired_width(width));
         if response.changed() {
             let edit = make(typing.text.clone());
-            match check_edit(self.scenario, &edit) {
-                Ok(_) => {
+            match self.check(&edit) {
+                Ok(()) => {
                     typing.error = None;
                     if typing.text != current {
                         self.push(edit);
                     }
                 }
-                Err(reason) => typing.error = Some(reason),
+                Err(reason) => typing.error = Some(reason.message),
             }
         }
         let error = typing.error.clone();
@@ -293,8 +342,8 @@ impl Editing<'_> {
         hover: &str,
         edit: Edit,
     ) -> Response {
-        match check_edit(self.scenario, &edit) {
-            Ok(_) => {
+        match self.check(&edit) {
+            Ok(()) => {
                 let r = ui.button(label).on_hover_text(hover.to_string());
                 if r.clicked() {
                     self.push(edit);
@@ -303,7 +352,7 @@ impl Editing<'_> {
             }
             Err(reason) => ui
                 .add_enabled(false, egui::Button::new(label))
-                .on_disabled_hover_text(format!("{hover}: not possible, because {reason}")),
+                .on_disabled_hover_text(format!("{hover}: not possible, because {}", reason.message)),
         }
     }
 
@@ -339,11 +388,12 @@ impl Editing<'_> {
             });
         if let Some(n) = chosen {
             let edit = make(n);
-            match check_edit(self.scenario, &edit) {
-                Ok(_) => self.push(edit),
-                Err(reason) => self
-                    .commands
-                    .push(Command::Notice(format!("{name}: not changed, because {reason}"))),
+            match self.check(&edit) {
+                Ok(()) => self.push(edit),
+                Err(reason) => self.commands.push(Command::Notice(format!(
+                    "{name}: not changed, because {}",
+                    reason.message
+                ))),
             }
         }
         let response = r.response;

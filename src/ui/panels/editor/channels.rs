@@ -3,8 +3,7 @@
 
 use egui::{Grid, RichText, Ui};
 
-use crate::ui::command::{ChannelPreset, Edit, GateKind};
-use crate::ui::fields::{ChannelNum, GateNum, NumField, PumpNum};
+use crate::scenario::{ChannelPreset, Edit, GateKind};
 use crate::ui::widgets::Editing;
 
 pub fn show(ui: &mut Ui, ed: &mut Editing) {
@@ -31,7 +30,7 @@ fn pump(ui: &mut Ui, ed: &mut Editing) {
         .show(ui, |ui| {
             ui.label("Moves out");
             ui.horizontal(|ui| {
-                ed.number(ui, NumField::Pump(PumpNum::ExportedPerCycle), 28.0);
+                ed.number(ui, "pump.exported_per_cycle", &[], 28.0);
                 ed.species_choice(
                     ui,
                     "pump exports",
@@ -43,7 +42,7 @@ fn pump(ui: &mut Ui, ed: &mut Editing) {
             ui.end_row();
             ui.label("Moves in");
             ui.horizontal(|ui| {
-                ed.number(ui, NumField::Pump(PumpNum::ImportedPerCycle), 28.0);
+                ed.number(ui, "pump.imported_per_cycle", &[], 28.0);
                 ed.species_choice(
                     ui,
                     "pump imports",
@@ -53,15 +52,15 @@ fn pump(ui: &mut Ui, ed: &mut Editing) {
                 );
             });
             ui.end_row();
-            for (label, field) in [
-                ("Largest current", PumpNum::MaxCurrent),
-                ("Half-activation inside", PumpNum::HalfInside),
-                ("Hill coefficient inside", PumpNum::HillInside),
-                ("Half-activation outside", PumpNum::HalfOutside),
-                ("Hill coefficient outside", PumpNum::HillOutside),
+            for (label, path) in [
+                ("Largest current", "pump.max_current_ua_per_cm2"),
+                ("Half-activation inside", "pump.half_saturation_inside_mm"),
+                ("Hill coefficient inside", "pump.hill_inside"),
+                ("Half-activation outside", "pump.half_saturation_outside_mm"),
+                ("Hill coefficient outside", "pump.hill_outside"),
             ] {
                 ui.label(label);
-                ed.number(ui, NumField::Pump(field), 80.0);
+                ed.number(ui, path, &[], 80.0);
                 ui.end_row();
             }
         });
@@ -110,14 +109,14 @@ fn channels(ui: &mut Ui, ed: &mut Editing) {
                 .spacing([10.0, 6.0])
                 .show(ui, |ui| {
                     ui.label("Largest permeability");
-                    ed.number(ui, NumField::Channel(i, ChannelNum::MaxPermeability), 80.0);
+                    ed.number(ui, "channels[].max_permeability_cm_per_s", &[i], 80.0);
                     ui.label("Shift");
-                    ed.number(ui, NumField::Channel(i, ChannelNum::Shift), 60.0);
+                    ed.number(ui, "channels[].shift_mv", &[i], 60.0);
                     ui.end_row();
                     ui.label("q10");
-                    ed.number(ui, NumField::Channel(i, ChannelNum::Q10), 60.0);
+                    ed.number(ui, "channels[].q10", &[i], 60.0);
                     ui.label("at");
-                    ed.number(ui, NumField::Channel(i, ChannelNum::ReferenceTemperature), 60.0);
+                    ed.number(ui, "channels[].reference_temperature_c", &[i], 60.0);
                     ui.end_row();
                 });
             ui.label(RichText::new("Gates (open fraction = product of gate^power)").small());
@@ -145,15 +144,7 @@ fn channels(ui: &mut Ui, ed: &mut Editing) {
                         });
                     }
                     ui.label("power");
-                    ed.number(
-                        ui,
-                        NumField::Gate {
-                            channel: i,
-                            gate: g,
-                            what: GateNum::Power,
-                        },
-                        26.0,
-                    );
+                    ed.number(ui, "channels[].gates[].power", &[i, g], 26.0);
                     ed.button(
                         ui,
                         "×",
@@ -165,35 +156,11 @@ fn channels(ui: &mut Ui, ed: &mut Editing) {
                     ui.horizontal(|ui| {
                         ui.add_space(16.0);
                         ui.label("V½");
-                        ed.number(
-                            ui,
-                            NumField::Gate {
-                                channel: i,
-                                gate: g,
-                                what: GateNum::VHalf,
-                            },
-                            60.0,
-                        );
+                        ed.number(ui, "channels[].gates[].kinetics.v_half_mv", &[i, g], 60.0);
                         ui.label("slope");
-                        ed.number(
-                            ui,
-                            NumField::Gate {
-                                channel: i,
-                                gate: g,
-                                what: GateNum::Slope,
-                            },
-                            56.0,
-                        );
+                        ed.number(ui, "channels[].gates[].kinetics.slope_mv", &[i, g], 56.0);
                         ui.label("τ");
-                        ed.number(
-                            ui,
-                            NumField::Gate {
-                                channel: i,
-                                gate: g,
-                                what: GateNum::Tau,
-                            },
-                            56.0,
-                        );
+                        ed.number(ui, "channels[].gates[].kinetics.tau_ms", &[i, g], 56.0);
                     });
                 }
             }

@@ -8,8 +8,7 @@ pub mod channels;
 pub mod protocol;
 
 use crate::analysis::RestReport;
-use crate::ui::command::Edit;
-use crate::ui::fields::NumField;
+use crate::scenario::Edit;
 use crate::ui::theme::species_color;
 use crate::ui::widgets::{Editing, color_swatch};
 
@@ -50,8 +49,8 @@ pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editin
         .auto_shrink([false, false])
         .show(ui, |ui| match tab {
             EditorTab::Cell => cell_tab(ui, info, ed),
-            EditorTab::Channels => crate::ui::panels::editor::channels::show(ui, ed),
-            EditorTab::Protocol => crate::ui::panels::editor::protocol::show(ui, info.now_ms, ed),
+            EditorTab::Channels => channels::show(ui, ed),
+            EditorTab::Protocol => protocol::show(ui, info, ed),
         });
 }
 
@@ -69,13 +68,13 @@ fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
         .num_columns(2)
         .spacing([12.0, 6.0])
         .show(ui, |ui| {
-            for (label, field) in [
-                ("Temperature", NumField::TemperatureC),
-                ("Diameter", NumField::DiameterUm),
-                ("Membrane capacitance", NumField::CapacitanceUfPerCm2),
+            for (label, path) in [
+                ("Temperature", "temperature_c"),
+                ("Diameter", "cell.diameter_um"),
+                ("Membrane capacitance", "cell.capacitance_uf_per_cm2"),
             ] {
                 ui.label(label);
-                ed.number(ui, field, 80.0);
+                ed.number(ui, path, &[], 80.0);
                 ui.end_row();
             }
         });
@@ -125,10 +124,10 @@ fn species_table(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
                     44.0,
                     move |name| Edit::SpeciesName { index: i, name },
                 );
-                ed.number(ui, NumField::Charge(i), 22.0);
-                ed.number(ui, NumField::InsideMm(i), 56.0);
-                ed.number(ui, NumField::OutsideMm(i), 56.0);
-                ed.number(ui, NumField::PermeabilityCmPerS(i), 70.0);
+                ed.number(ui, "species[].charge", &[i], 22.0);
+                ed.number(ui, "species[].inside_mm", &[i], 56.0);
+                ed.number(ui, "species[].outside_mm", &[i], 56.0);
+                ed.number(ui, "species[].permeability_cm_per_s", &[i], 70.0);
                 let row = report.and_then(|r| r.species.get(i));
                 let rel = row.and_then(|r| r.relative_permeability);
                 ui.label(rel.map_or_else(|| "—".into(), relative_text))

@@ -3,11 +3,9 @@
 
 use egui::{Color32, Grid, Rect, RichText, Sense, Stroke, Ui, pos2, vec2};
 
-use crate::scenario::{Event, Scenario, Start};
-use crate::ui::command::{Edit, EventKind};
-use crate::ui::fields::{EventNum, NumField};
+use super::EditorInfo;
+use crate::scenario::{Edit, Event, EventKind, Scenario, Start, Wording, held_start};
 use crate::ui::theme::{neutral_color, species_color};
-
 use crate::ui::widgets::Editing;
 
 /// Largest number of pulses of one train drawn one by one; more are drawn as one band.
@@ -20,67 +18,17 @@ pub fn event_color(s: &Scenario, e: &Event, dark: bool) -> Color32 {
         .map_or_else(|| neutral_color(dark), species_color)
 }
 
-/// The time intervals `[from, until)` in which an event is in force, clipped to the run.
-/// Trains longer than [`MAX_PULSES_DRAWN`] pulses give one interval.
-pub fn event_intervals(e: &Event, duration_ms: f64) -> Vec<(f64, f64)> {
-    let clip = |a: f64, b: f64| (a.min(duration_ms), b.min(duration_ms));
-    match *e {
-        Event::InjectTrain {
-            from_ms,
-            width_ms,
-            period_ms,
-            count,
-            ..
-        } if count <= MAX_PULSES_DRAWN => (0..count)
-            .map(|k| {
-                let s = from_ms + f64::from(k) * period_ms;
-                clip(s, s + width_ms)
-            })
-            .filter(|(a, b)| b > a)
-            .collect(),
-        _ => {
-            let (from, until) = e.span_ms();
-            let (a, b) = clip(from, until.unwrap_or(duration_ms));
-            if b > a { vec![(a, b)] } else { vec![(a, a)] }
-        }
-    }
-}
-
-/// A one-line description of an event, for band labels and the strip's tooltips.
-pub fn event_summary(e: &Event) -> String {
-    match e {
-        Event::PermeabilityScale { species, factor, .. } => format!("P({species}) ×{factor}"),
-        Event::BathChange {
-            species, outside_mm, ..
-        } => format!("{species} out → {outside_mm} mM"),
-        Event::Agent {
-            label,
-            species,
-            dose_um,
-            ..
-        } => format!("{label} {dose_um} µM on {species}"),
-        Event::Inject {
-            amplitude_ua_per_cm2, ..
-        } => format!("{amplitude_ua_per_cm2} µA/cm²"),
-        Event::InjectTrain {
-            amplitude_ua_per_cm2,
-            count,
-            ..
-        } => format!("{count} × {amplitude_ua_per_cm2} µA/cm²"),
-    }
-}
-
-pub fn show(ui: &mut Ui, now_ms: f64, ed: &mut Editing) {
+pub fn show(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
     ui.heading("Run");
     Grid::new("run grid")
         .num_columns(2)
         .spacing([12.0, 6.0])
         .show(ui, |ui| {
             ui.label("Duration");
-            ed.number(ui, NumField::DurationMs, 80.0);
+            ed.number(ui, "run.duration_ms", &[], 80.0);
             ui.end_row();
             ui.label("Sample every");
-            ed.number(ui, NumField::SampleMs, 80.0);
+            ed.number(ui, "run.sample_ms", &[], 80.0);
             ui.end_row();
             ui.label("Start");
             ui.horizontal(|ui| {
@@ -91,7 +39,7 @@ pub fn show(ui: &mut Ui, now_ms: f64, ed: &mut Editing) {
                     .clicked()
                     && !at_rest
                 {
-                    ed.push(Edit::StartAtRest(true));
+                    ed.push(Edit::Start(Start::Rest));
                 }
                 if ui
                     .radio(!at_rest, "held at")
@@ -99,17 +47,18 @@ pub fn show(ui: &mut Ui, now_ms: f64, ed: &mut Editing) {
                     .clicked()
                     && at_rest
                 {
-                    ed.push(Edit::StartAtRest(false));
+                    let resting_mv = info.rest.as_ref().ok().and_then(|r| r.resting_mv());
+                    ed.push(Edit::Start(held_start(resting_mv)));
                 }
                 if !at_rest {
-                    ed.number(ui, NumField::StartMv, 64.0);
+                    ed.number(ui, "run.start", &[], 64.0);
                 }
             });
             ui.end_row();
         });
     ui.add_space(8.0);
     ui.heading("Protocol");
-    time_strip(ui, ed.scenario, now_ms);
+    time_strip(ui, ed.scenario, info.now_ms);
     ui.add_space(4.0);
     if ed.scenario.protocol.is_empty() {
         ui.label("No events: the cell is left alone.");
@@ -169,60 +118,59 @@ fn event_card(ui: &mut Ui, i: usize, e: &Event, ed: &mut Editing) {
                     }
                 });
             });
-            let num = |what| NumField::Event(i, what);
             Grid::new(("event grid", i))
                 .num_columns(4)
                 .spacing([8.0, 6.0])
                 .show(ui, |ui| {
-                    let pair = |ui: &mut Ui, ed: &mut Editing, label: &str, what: EventNum| {
+                    let pair = |ui: &mut Ui, ed: &mut Editing, label: &str, field: &str| {
                         ui.label(label);
-                        ed.number(ui, num(what), 70.0);
+                        ed.number(ui, &format!("protocol[].{field}"), &[i], 70.0);
                     };
                     match e {
                         Event::PermeabilityScale { until_ms, .. } => {
-                            pair(ui, ed, "Factor", EventNum::Factor);
-                            pair(ui, ed, "Lag τ", EventNum::Lag);
+                            pair(ui, ed, "Factor", "factor");
+                            pair(ui, ed, "Lag τ", "lag_ms");
                             ui.end_row();
-                            pair(ui, ed, "From", EventNum::From);
+                            pair(ui, ed, "From", "from_ms");
                             until(ui, ed, i, until_ms.is_some());
                             ui.end_row();
                         }
                         Event::BathChange { .. } => {
-                            pair(ui, ed, "New outside", EventNum::OutsideMm);
-                            pair(ui, ed, "At", EventNum::At);
+                            pair(ui, ed, "New outside", "outside_mm");
+                            pair(ui, ed, "At", "at_ms");
                             ui.end_row();
-                            pair(ui, ed, "Exchange τ", EventNum::Lag);
+                            pair(ui, ed, "Exchange τ", "lag_ms");
                             ui.end_row();
                         }
                         Event::Agent { until_ms, .. } => {
-                            pair(ui, ed, "Dose", EventNum::Dose);
-                            pair(ui, ed, "IC50", EventNum::Ic50);
+                            pair(ui, ed, "Dose", "dose_um");
+                            pair(ui, ed, "IC50", "ic50_um");
                             ui.end_row();
-                            pair(ui, ed, "Hill", EventNum::Hill);
-                            pair(ui, ed, "Largest block", EventNum::MaxBlock);
+                            pair(ui, ed, "Hill", "hill");
+                            pair(ui, ed, "Largest block", "max_block");
                             ui.end_row();
-                            pair(ui, ed, "From", EventNum::From);
+                            pair(ui, ed, "From", "from_ms");
                             until(ui, ed, i, until_ms.is_some());
                             ui.end_row();
-                            pair(ui, ed, "Onset τ", EventNum::Onset);
-                            pair(ui, ed, "Washout τ", EventNum::Washout);
+                            pair(ui, ed, "Onset τ", "onset_ms");
+                            pair(ui, ed, "Washout τ", "washout_ms");
                             ui.end_row();
                         }
                         Event::Inject { .. } => {
-                            pair(ui, ed, "Amplitude", EventNum::Amplitude);
+                            pair(ui, ed, "Amplitude", "amplitude_ua_per_cm2");
                             ui.end_row();
-                            pair(ui, ed, "From", EventNum::From);
-                            pair(ui, ed, "Until", EventNum::Until);
+                            pair(ui, ed, "From", "from_ms");
+                            pair(ui, ed, "Until", "until_ms");
                             ui.end_row();
                         }
                         Event::InjectTrain { .. } => {
-                            pair(ui, ed, "Amplitude", EventNum::Amplitude);
-                            pair(ui, ed, "Pulses", EventNum::Count);
+                            pair(ui, ed, "Amplitude", "amplitude_ua_per_cm2");
+                            pair(ui, ed, "Pulses", "count");
                             ui.end_row();
-                            pair(ui, ed, "Width", EventNum::Width);
-                            pair(ui, ed, "Period", EventNum::Period);
+                            pair(ui, ed, "Width", "width_ms");
+                            pair(ui, ed, "Period", "period_ms");
                             ui.end_row();
-                            pair(ui, ed, "First at", EventNum::From);
+                            pair(ui, ed, "First at", "from_ms");
                             ui.end_row();
                         }
                     }
@@ -235,7 +183,7 @@ fn until(ui: &mut Ui, ed: &mut Editing, i: usize, has_end: bool) {
     ui.label("Until");
     ui.horizontal(|ui| {
         if has_end {
-            ed.number(ui, NumField::Event(i, EventNum::Until), 70.0);
+            ed.number(ui, "protocol[].until_ms", &[i], 70.0);
         }
         let mut to_end = !has_end;
         if ui
@@ -267,9 +215,9 @@ fn time_strip(ui: &mut Ui, s: &Scenario, now_ms: f64) {
     for (k, e) in s.protocol.iter().enumerate() {
         let y0 = plot.min.y + k as f32 * row_h + 1.5;
         let color = event_color(s, e, dark);
-        for (a, b) in event_intervals(e, d) {
-            let x0 = x_of(a);
-            let x1 = x_of(b).max(x0 + 2.0);
+        for span in e.intervals(d, MAX_PULSES_DRAWN) {
+            let x0 = x_of(span.from_ms);
+            let x1 = x_of(span.until_ms).max(x0 + 2.0);
             painter.rect_filled(
                 Rect::from_min_max(pos2(x0, y0), pos2(x1, y0 + row_h - 3.0)),
                 1.0,
@@ -307,7 +255,7 @@ fn time_strip(ui: &mut Ui, s: &Scenario, now_ms: f64) {
                     "{}. {}: {}",
                     k as usize + 1,
                     EventKind::of(e).label(),
-                    event_summary(e)
+                    e.summary(Wording::Brief)
                 )
             })
         } else {
@@ -317,47 +265,5 @@ fn time_strip(ui: &mut Ui, s: &Scenario, now_ms: f64) {
             "t = {t:.1} ms{}",
             text.map(|x| format!("\n{x}")).unwrap_or_default()
         ));
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn intervals_follow_the_event_kinds() {
-        let train = Event::InjectTrain {
-            amplitude_ua_per_cm2: 1.0,
-            width_ms: 1.0,
-            period_ms: 10.0,
-            count: 3,
-            from_ms: 5.0,
-        };
-        assert_eq!(
-            event_intervals(&train, 100.0),
-            vec![(5.0, 6.0), (15.0, 16.0), (25.0, 26.0)]
-        );
-        let long = Event::InjectTrain {
-            amplitude_ua_per_cm2: 1.0,
-            width_ms: 1.0,
-            period_ms: 2.0,
-            count: 1000,
-            from_ms: 0.0,
-        };
-        // Too many pulses to draw: one band, clipped to the run.
-        assert_eq!(event_intervals(&long, 100.0), vec![(0.0, 100.0)]);
-        let bath = Event::BathChange {
-            species: "K+".into(),
-            outside_mm: 20.0,
-            at_ms: 40.0,
-            lag_ms: 0.0,
-        };
-        assert_eq!(event_intervals(&bath, 100.0), vec![(40.0, 100.0)]);
-        let late = Event::Inject {
-            amplitude_ua_per_cm2: 1.0,
-            from_ms: 150.0,
-            until_ms: 160.0,
-        };
-        assert_eq!(event_intervals(&late, 100.0), vec![(100.0, 100.0)]);
     }
 }
