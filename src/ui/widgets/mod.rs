@@ -5,6 +5,7 @@
 
 use egui::{Color32, Id, Response, Role, Sense, Stroke, StrokeKind, TextEdit, Ui, WidgetInfo, vec2};
 
+use crate::scenario::fields::{Part, numbers_of};
 use crate::scenario::{Address, Drag, Edit, Problem, Scenario};
 use crate::ui::command::Command;
 use crate::ui::state::checks::Checked;
@@ -22,6 +23,8 @@ pub struct Editing<'a> {
     pub commands: &'a mut Vec<Command>,
     /// Numbers shown as big sliders in presentation (offered in each number's menu).
     pub pinned: &'a [Address],
+    /// The numbers drawn so far, so that [`Editing::others`] draws the rest.
+    drawn: Vec<Address>,
 }
 
 /// Text being typed into a field, and why it is not accepted (if it is not).
@@ -99,6 +102,7 @@ impl<'a> Editing<'a> {
             checked,
             commands,
             pinned,
+            drawn: Vec::new(),
         }
     }
 }
@@ -141,8 +145,37 @@ impl Editing<'_> {
         }
     }
 
+    /// The numbers of `part` at list indices `at` that no hand-made layout has drawn yet, each
+    /// under its table label: a number added to the field table is editable at once, in the
+    /// card or grid of what holds it.
+    pub fn others(
+        &mut self,
+        ui: &mut Ui,
+        id_salt: impl std::hash::Hash + std::fmt::Debug,
+        part: Part,
+        at: &[usize],
+    ) {
+        let rest: Vec<Address> = numbers_of(self.scenario, part, at)
+            .filter(|a| !self.drawn.contains(a))
+            .collect();
+        if rest.is_empty() {
+            return;
+        }
+        egui::Grid::new(("other numbers", id_salt))
+            .num_columns(2)
+            .spacing([12.0, 6.0])
+            .show(ui, |ui| {
+                for a in rest {
+                    ui.label(capitalized(a.field().label));
+                    self.number_at(ui, a, 80.0);
+                    ui.end_row();
+                }
+            });
+    }
+
     /// A number field of at least `width` points. Shows "—" when the scenario lacks the field.
     pub fn number_at(&mut self, ui: &mut Ui, field: Address, width: f32) -> Response {
+        self.drawn.push(field);
         let Some(value) = field.get(self.scenario) else {
             return ui.label("—");
         };
@@ -399,6 +432,15 @@ impl Editing<'_> {
         let response = r.response;
         set_accessible_name(ui, response.id, name);
         response.on_hover_text(name.to_string())
+    }
+}
+
+/// `text` with its first letter in upper case, as a row label.
+fn capitalized(text: &str) -> String {
+    let mut chars = text.chars();
+    match chars.next() {
+        Some(first) => first.to_uppercase().chain(chars).collect(),
+        None => String::new(),
     }
 }
 

@@ -3,6 +3,7 @@
 
 use egui::{Grid, RichText, Ui};
 
+use crate::scenario::fields::Part;
 use crate::scenario::{ChannelPreset, Edit, GateKind};
 use crate::ui::widgets::Editing;
 
@@ -64,6 +65,7 @@ fn pump(ui: &mut Ui, ed: &mut Editing) {
                 ui.end_row();
             }
         });
+    ed.others(ui, "pump", Part::Pump, &[]);
     ed.button(ui, "Remove the pump", "Remove the pump", Edit::Pump(false));
 }
 
@@ -119,6 +121,7 @@ fn channels(ui: &mut Ui, ed: &mut Editing) {
                     ed.number(ui, "channels[].reference_temperature_c", &[i], 60.0);
                     ui.end_row();
                 });
+            ed.others(ui, ("channel", i), Part::Channel, &[i]);
             ui.label(RichText::new("Gates (open fraction = product of gate^power)").small());
             for (g, gate) in ch.gates.iter().enumerate() {
                 let current = GateKind::of(&gate.kinetics);
@@ -163,6 +166,7 @@ fn channels(ui: &mut Ui, ed: &mut Editing) {
                         ed.number(ui, "channels[].gates[].kinetics.tau_ms", &[i, g], 56.0);
                     });
                 }
+                ed.others(ui, ("gate", i, g), Part::Gate, &[i, g]);
             }
             ui.menu_button("+ Add gate", |ui| {
                 for k in GateKind::ALL {

@@ -9,6 +9,7 @@ pub mod protocol;
 
 use crate::analysis::RestReport;
 use crate::scenario::Edit;
+use crate::scenario::fields::Part;
 use crate::ui::theme::species_color;
 use crate::ui::widgets::{Editing, color_swatch};
 
@@ -78,6 +79,8 @@ fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
                 ui.end_row();
             }
         });
+    ed.others(ui, "cell", Part::Scenario, &[]);
+    ed.others(ui, "cell", Part::Cell, &[]);
     let mut track = ed.scenario.cell.track_concentrations;
     if ui
         .checkbox(&mut track, "Inside concentrations change with the currents")
@@ -89,6 +92,13 @@ fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
 }
 
 fn species_table(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
+    species_grid(ui, info, ed);
+    for i in 0..ed.scenario.species.len() {
+        ed.others(ui, ("species", i), Part::Species, &[i]);
+    }
+}
+
+fn species_grid(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
     let rows = ed.scenario.species.len();
     let report = info.rest.as_ref().ok();
     Grid::new("species table")

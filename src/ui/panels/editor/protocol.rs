@@ -4,6 +4,7 @@
 use egui::{Color32, Grid, Rect, RichText, Sense, Stroke, Ui, pos2, vec2};
 
 use super::EditorInfo;
+use crate::scenario::fields::Part;
 use crate::scenario::{Edit, Event, EventKind, Scenario, Start, Wording, held_start};
 use crate::ui::theme::{neutral_color, species_color};
 use crate::ui::widgets::Editing;
@@ -56,6 +57,7 @@ pub fn show(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
             });
             ui.end_row();
         });
+    ed.others(ui, "run", Part::Run, &[]);
     ui.add_space(8.0);
     ui.heading("Protocol");
     time_strip(ui, ed.scenario, info.now_ms);
@@ -175,6 +177,7 @@ fn event_card(ui: &mut Ui, i: usize, e: &Event, ed: &mut Editing) {
                         }
                     }
                 });
+            ed.others(ui, ("event", i), Part::Event, &[i]);
         });
 }
 
