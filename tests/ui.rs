@@ -227,44 +227,12 @@ fn the_examples_menu_opens_every_bundled_example() {
     assert!(h.state().scenario().pump.is_some());
 }
 
-/// A scenario with a number of every kind the format has: a pump, Hodgkin–Huxley and Boltzmann
-/// gates, every kind of event (a step with an end), and a held start. Invented for this test.
-const EVERY_NUMBER: &str = r#"(
-    format: 1,
-    title: "Every number",
-    temperature_c: 22.0,
-    cell: (diameter_um: 18.0, capacitance_uf_per_cm2: 1.0, track_concentrations: false),
-    species: [
-        (name: "K+", charge: 1, inside_mm: 140.0, outside_mm: 5.0, permeability_cm_per_s: 5.0e-7),
-        (name: "Na+", charge: 1, inside_mm: 12.0, outside_mm: 145.0, permeability_cm_per_s: 2.0e-8),
-    ],
-    pump: Some((exports: "Na+", imports: "K+", exported_per_cycle: 3, imported_per_cycle: 2,
-        max_current_ua_per_cm2: 0.5, half_saturation_inside_mm: 10.0, hill_inside: 1.0,
-        half_saturation_outside_mm: 1.5, hill_outside: 1.0)),
-    channels: [
-        (label: "slow", species: "K+", max_permeability_cm_per_s: 1.0e-7, q10: 1.0,
-         reference_temperature_c: 22.0,
-         gates: [(kinetics: HhPotassiumActivation, power: 4),
-                 (kinetics: Boltzmann(v_half_mv: -30.0, slope_mv: 8.0, tau_ms: 50.0), power: 1)]),
-    ],
-    protocol: [
-        PermeabilityScale(species: "Na+", factor: 3.0, from_ms: 10.0, until_ms: Some(20.0), lag_ms: 1.0),
-        BathChange(species: "K+", outside_mm: 15.0, at_ms: 30.0, lag_ms: 2.0),
-        Agent(label: "blocker", species: "K+", ic50_um: 2.0, dose_um: 4.0, from_ms: 40.0,
-              until_ms: Some(60.0), onset_ms: 3.0, washout_ms: 6.0),
-        Inject(amplitude_ua_per_cm2: 2.0, from_ms: 5.0, until_ms: 6.0),
-        InjectTrain(amplitude_ua_per_cm2: 2.0, width_ms: 1.0, period_ms: 10.0, count: 3, from_ms: 70.0),
-    ],
-    run: (duration_ms: 100.0, sample_ms: 0.1, start: Voltage(-70.0)),
-)"#;
-
 /// Every number the field table lists for a scenario has a field in one of the editor's tabs,
 /// found by the name a screen reader gives it.
 #[test]
 fn every_number_of_a_scenario_can_be_edited_in_the_editor() {
-    let dir = tempfile::tempdir().expect("temporary directory");
-    let path = dir.path().join("every-number.ron");
-    std::fs::write(&path, EVERY_NUMBER).expect("written");
+    // A pump, both kinds of gate, every kind of event and a held start (invented).
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/every-number.ron");
     let mut h = harness();
     h.state_mut().queue(Command::OpenPath(path));
     h.run_steps(2);

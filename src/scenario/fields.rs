@@ -1144,37 +1144,9 @@ mod tests {
     use super::*;
     use serde_json::Value;
 
-    /// A scenario with a number of every row: a pump, HH and Boltzmann gates, every event kind
-    /// (a scale with an end, an agent without one) and a held start.
+    /// A scenario with a number of every row (the window's tests open the same file).
     fn rich() -> Scenario {
-        let text = r#"(
-            format: 1,
-            temperature_c: 30.0,
-            cell: (diameter_um: 15.0, capacitance_uf_per_cm2: 1.1, track_concentrations: false),
-            species: [
-                (name: "K+", charge: 1, inside_mm: 130.0, outside_mm: 4.0, permeability_cm_per_s: 4.0e-7),
-                (name: "Na+", charge: 1, inside_mm: 15.0, outside_mm: 140.0, permeability_cm_per_s: 3.0e-8),
-                (name: "Cl-", charge: -1, inside_mm: 8.0, outside_mm: 110.0, permeability_cm_per_s: 1.0e-7),
-            ],
-            pump: Some((exports: "Na+", imports: "K+", exported_per_cycle: 3, imported_per_cycle: 2,
-                max_current_ua_per_cm2: 0.8, half_saturation_inside_mm: 12.0, hill_inside: 1.5,
-                half_saturation_outside_mm: 1.2, hill_outside: 1.25)),
-            channels: [
-                (label: "slow", species: "K+", max_permeability_cm_per_s: 5.0e-8, shift_mv: -5.0,
-                 q10: 2.0, reference_temperature_c: 22.0,
-                 gates: [(kinetics: HhPotassiumActivation, power: 4),
-                         (kinetics: Boltzmann(v_half_mv: -35.0, slope_mv: 7.0, tau_ms: 40.0), power: 2)]),
-            ],
-            protocol: [
-                PermeabilityScale(species: "Na+", factor: 10.0, from_ms: 40.0, until_ms: Some(45.0), lag_ms: 0.5),
-                BathChange(species: "K+", outside_mm: 20.0, at_ms: 80.0, lag_ms: 5.0),
-                Agent(label: "drug X", species: "K+", max_block: 0.8, ic50_um: 3.0, hill: 1.2,
-                      dose_um: 6.0, from_ms: 120.0, until_ms: None, onset_ms: 20.0, washout_ms: 40.0),
-                Inject(amplitude_ua_per_cm2: 8.0, from_ms: 10.0, until_ms: 11.0),
-                InjectTrain(amplitude_ua_per_cm2: -8.0, width_ms: 1.0, period_ms: 25.0, count: 4, from_ms: 150.0),
-            ],
-            run: (duration_ms: 250.0, sample_ms: 0.1, start: Voltage(-75.0)),
-        )"#;
+        let text = include_str!("../../tests/data/every-number.ron");
         crate::scenario::from_str(text, "rich.ron")
             .unwrap_or_else(|e| panic!("{e}"))
             .into_inner()

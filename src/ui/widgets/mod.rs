@@ -11,6 +11,9 @@ use crate::ui::command::Command;
 use crate::ui::state::checks::Checked;
 use crate::ui::state::document::Document;
 
+/// Width of a number in a grid row, points.
+const ROW_WIDTH: f32 = 80.0;
+
 /// Points of pointer movement that multiply a log-dragged value by ten.
 const POINTS_PER_DECADE: f64 = 150.0;
 
@@ -145,6 +148,16 @@ impl Editing<'_> {
         }
     }
 
+    /// Rows of a two-column grid: each label beside the number of the table row at its path
+    /// (list indices left out; these are numbers of the scenario's top level, cell, pump or run).
+    pub fn rows(&mut self, ui: &mut Ui, rows: &[(&str, &str)]) {
+        for (label, path) in rows {
+            ui.label(*label);
+            self.number(ui, path, &[], ROW_WIDTH);
+            ui.end_row();
+        }
+    }
+
     /// The numbers of `part` at list indices `at` that no hand-made layout has drawn yet, each
     /// under its table label: a number added to the field table is editable at once, in the
     /// card or grid of what holds it.
@@ -167,7 +180,7 @@ impl Editing<'_> {
             .show(ui, |ui| {
                 for a in rest {
                     ui.label(capitalized(a.field().label));
-                    self.number_at(ui, a, 80.0);
+                    self.number_at(ui, a, ROW_WIDTH);
                     ui.end_row();
                 }
             });

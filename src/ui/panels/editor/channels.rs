@@ -53,17 +53,16 @@ fn pump(ui: &mut Ui, ed: &mut Editing) {
                 );
             });
             ui.end_row();
-            for (label, path) in [
-                ("Largest current", "pump.max_current_ua_per_cm2"),
-                ("Half-activation inside", "pump.half_saturation_inside_mm"),
-                ("Hill coefficient inside", "pump.hill_inside"),
-                ("Half-activation outside", "pump.half_saturation_outside_mm"),
-                ("Hill coefficient outside", "pump.hill_outside"),
-            ] {
-                ui.label(label);
-                ed.number(ui, path, &[], 80.0);
-                ui.end_row();
-            }
+            ed.rows(
+                ui,
+                &[
+                    ("Largest current", "pump.max_current_ua_per_cm2"),
+                    ("Half-activation inside", "pump.half_saturation_inside_mm"),
+                    ("Hill coefficient inside", "pump.hill_inside"),
+                    ("Half-activation outside", "pump.half_saturation_outside_mm"),
+                    ("Hill coefficient outside", "pump.hill_outside"),
+                ],
+            );
         });
     ed.others(ui, "pump", Part::Pump, &[]);
     ed.button(ui, "Remove the pump", "Remove the pump", Edit::Pump(false));

@@ -69,15 +69,14 @@ fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
         .num_columns(2)
         .spacing([12.0, 6.0])
         .show(ui, |ui| {
-            for (label, path) in [
-                ("Temperature", "temperature_c"),
-                ("Diameter", "cell.diameter_um"),
-                ("Membrane capacitance", "cell.capacitance_uf_per_cm2"),
-            ] {
-                ui.label(label);
-                ed.number(ui, path, &[], 80.0);
-                ui.end_row();
-            }
+            ed.rows(
+                ui,
+                &[
+                    ("Temperature", "temperature_c"),
+                    ("Diameter", "cell.diameter_um"),
+                    ("Membrane capacitance", "cell.capacitance_uf_per_cm2"),
+                ],
+            );
         });
     ed.others(ui, "cell", Part::Scenario, &[]);
     ed.others(ui, "cell", Part::Cell, &[]);

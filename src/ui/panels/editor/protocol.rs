@@ -25,12 +25,10 @@ pub fn show(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
         .num_columns(2)
         .spacing([12.0, 6.0])
         .show(ui, |ui| {
-            ui.label("Duration");
-            ed.number(ui, "run.duration_ms", &[], 80.0);
-            ui.end_row();
-            ui.label("Sample every");
-            ed.number(ui, "run.sample_ms", &[], 80.0);
-            ui.end_row();
+            ed.rows(
+                ui,
+                &[("Duration", "run.duration_ms"), ("Sample every", "run.sample_ms")],
+            );
             ui.label("Start");
             ui.horizontal(|ui| {
                 let at_rest = ed.scenario.run.start == Start::Rest;
