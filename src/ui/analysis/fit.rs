@@ -23,10 +23,17 @@ pub struct FitForm {
     pub vary: Option<Vary>,
     /// Names of the species whose permeability ratio is free.
     pub free: Vec<String>,
-    pub data_path: Option<PathBuf>,
-    /// The loaded points, or why the file could not be used.
-    pub points: Option<Result<Vec<DataPoint>, String>>,
+    /// The file of measured points last loaded, if any.
+    pub data: Option<Loaded>,
     pub result: Option<Result<FitOutput, String>>,
+}
+
+/// A file of measured points and what came of reading it.
+#[derive(Debug)]
+pub struct Loaded {
+    pub path: PathBuf,
+    /// The points, or why the file could not be used.
+    pub points: Result<Vec<DataPoint>, String>,
 }
 
 /// A finished fit and the fitted curve over the data's range.
@@ -104,14 +111,16 @@ impl FitForm {
     }
 
     pub fn load(&mut self, path: &Path) {
-        self.data_path = Some(path.to_path_buf());
-        self.points = Some(read_points(path).map_err(|e| e.to_string()));
+        self.data = Some(Loaded {
+            path: path.to_path_buf(),
+            points: read_points(path).map_err(|e| e.to_string()),
+        });
         self.result = None;
     }
 
     /// The fit to run, when points are loaded and an input is chosen.
     pub fn task(&self, s: &Scenario) -> Option<FitTask> {
-        let Some(Ok(data)) = &self.points else {
+        let Some(Loaded { points: Ok(data), .. }) = &self.data else {
             return None;
         };
         Some(FitTask {
@@ -133,19 +142,22 @@ pub fn show(ui: &mut Ui, form: &mut FitForm, s: &Scenario, busy: bool, commands:
         {
             commands.push(cmd(AnalysisCommand::ChooseFitData));
         }
-        match (&form.data_path, &form.points) {
-            (Some(p), Some(Ok(points))) => {
-                ui.label(format!("{} points from {}", points.len(), p.display()));
+        match &form.data {
+            Some(Loaded {
+                path,
+                points: Ok(points),
+            }) => {
+                ui.label(format!("{} points from {}", points.len(), path.display()));
             }
-            (Some(p), _) => {
-                ui.label(p.display().to_string());
+            Some(Loaded { path, .. }) => {
+                ui.label(path.display().to_string());
             }
-            _ => {
+            None => {
                 ui.label(RichText::new("No points loaded").weak());
             }
         }
     });
-    if let Some(Err(e)) = &form.points {
+    if let Some(Loaded { points: Err(e), .. }) = &form.data {
         ui.label(RichText::new(format!("Cannot use the file: {e}")).color(ui.visuals().error_fg_color));
     }
     ui.horizontal(|ui| {
@@ -169,7 +181,7 @@ pub fn show(ui: &mut Ui, form: &mut FitForm, s: &Scenario, busy: bool, commands:
             }
         }
     });
-    let ready = matches!(form.points, Some(Ok(_))) && !busy;
+    let ready = matches!(form.data, Some(Loaded { points: Ok(_), .. })) && !busy;
     if ui.add_enabled(ready, egui::Button::new("Fit ratios")).clicked() {
         commands.push(cmd(AnalysisCommand::StartFit));
     }
