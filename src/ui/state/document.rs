@@ -2,8 +2,8 @@
 //! what was last opened or saved. Only this is ever written to disk.
 //!
 //! Each accepted change gives the scenario a new [`Revision`], so the readouts, the live run,
-//! autosave and undo notice a change by comparing two numbers rather than two scenarios each
-//! frame.
+//! autosave, the dirty mark and undo notice a change by comparing two numbers rather than two
+//! scenarios each frame (undo compares scenarios only just after an edit: see [`Version`]).
 
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
@@ -22,8 +22,10 @@ impl Revision {
     }
 }
 
-/// A scenario with its revision: what undo keeps. Two versions are equal when their revision
-/// is, which is cheap to ask every frame and implies equal scenarios.
+/// A scenario with its revision: what undo keeps, and feeds every frame. Two versions are
+/// equal when their scenarios are; one revision is one scenario, so the question ends at the
+/// revision numbers unless they differ, which they do only in the moments after an edit, before
+/// undo has taken it in (an edit may have brought back an earlier scenario, typed again by hand).
 #[derive(Debug, Clone)]
 pub struct Version {
     revision: Revision,
@@ -32,7 +34,7 @@ pub struct Version {
 
 impl PartialEq for Version {
     fn eq(&self, other: &Self) -> bool {
-        self.revision == other.revision
+        self.revision == other.revision || self.scenario == other.scenario
     }
 }
 
@@ -185,8 +187,12 @@ mod tests {
         // The same scenario again is no change.
         change(&mut d, &|s| s.temperature_c = 20.0);
         assert_eq!(d.revision(), second);
-        d.restore(first.clone());
+        // Changed back by hand: a new revision, the same scenario as the first version.
+        change(&mut d, &|s| s.temperature_c = 37.0);
+        assert_ne!(d.revision(), first.revision);
         assert_eq!(d.version(), &first);
+        d.restore(first.clone());
+        assert_eq!(d.revision(), first.revision);
         assert_eq!(d.scenario().temperature_c, 37.0);
         assert!(!d.is_dirty());
         // Another document never shares a revision with this one.
