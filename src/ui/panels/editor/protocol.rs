@@ -122,55 +122,55 @@ fn event_card(ui: &mut Ui, i: usize, e: &Event, ed: &mut Editing) {
                 .num_columns(4)
                 .spacing([8.0, 6.0])
                 .show(ui, |ui| {
-                    let pair = |ui: &mut Ui, ed: &mut Editing, label: &str, field: &str| {
+                    let pair = |ui: &mut Ui, ed: &mut Editing, label: &str, path: &str| {
                         ui.label(label);
-                        ed.number(ui, &format!("protocol[].{field}"), &[i], 70.0);
+                        ed.number(ui, path, &[i], 70.0);
                     };
                     match e {
                         Event::PermeabilityScale { until_ms, .. } => {
-                            pair(ui, ed, "Factor", "factor");
-                            pair(ui, ed, "Lag τ", "lag_ms");
+                            pair(ui, ed, "Factor", "protocol[].factor");
+                            pair(ui, ed, "Lag τ", "protocol[].lag_ms");
                             ui.end_row();
-                            pair(ui, ed, "From", "from_ms");
+                            pair(ui, ed, "From", "protocol[].from_ms");
                             until(ui, ed, i, until_ms.is_some());
                             ui.end_row();
                         }
                         Event::BathChange { .. } => {
-                            pair(ui, ed, "New outside", "outside_mm");
-                            pair(ui, ed, "At", "at_ms");
+                            pair(ui, ed, "New outside", "protocol[].outside_mm");
+                            pair(ui, ed, "At", "protocol[].at_ms");
                             ui.end_row();
-                            pair(ui, ed, "Exchange τ", "lag_ms");
+                            pair(ui, ed, "Exchange τ", "protocol[].lag_ms");
                             ui.end_row();
                         }
                         Event::Agent { until_ms, .. } => {
-                            pair(ui, ed, "Dose", "dose_um");
-                            pair(ui, ed, "IC50", "ic50_um");
+                            pair(ui, ed, "Dose", "protocol[].dose_um");
+                            pair(ui, ed, "IC50", "protocol[].ic50_um");
                             ui.end_row();
-                            pair(ui, ed, "Hill", "hill");
-                            pair(ui, ed, "Largest block", "max_block");
+                            pair(ui, ed, "Hill", "protocol[].hill");
+                            pair(ui, ed, "Largest block", "protocol[].max_block");
                             ui.end_row();
-                            pair(ui, ed, "From", "from_ms");
+                            pair(ui, ed, "From", "protocol[].from_ms");
                             until(ui, ed, i, until_ms.is_some());
                             ui.end_row();
-                            pair(ui, ed, "Onset τ", "onset_ms");
-                            pair(ui, ed, "Washout τ", "washout_ms");
+                            pair(ui, ed, "Onset τ", "protocol[].onset_ms");
+                            pair(ui, ed, "Washout τ", "protocol[].washout_ms");
                             ui.end_row();
                         }
                         Event::Inject { .. } => {
-                            pair(ui, ed, "Amplitude", "amplitude_ua_per_cm2");
+                            pair(ui, ed, "Amplitude", "protocol[].amplitude_ua_per_cm2");
                             ui.end_row();
-                            pair(ui, ed, "From", "from_ms");
-                            pair(ui, ed, "Until", "until_ms");
+                            pair(ui, ed, "From", "protocol[].from_ms");
+                            pair(ui, ed, "Until", "protocol[].until_ms");
                             ui.end_row();
                         }
                         Event::InjectTrain { .. } => {
-                            pair(ui, ed, "Amplitude", "amplitude_ua_per_cm2");
-                            pair(ui, ed, "Pulses", "count");
+                            pair(ui, ed, "Amplitude", "protocol[].amplitude_ua_per_cm2");
+                            pair(ui, ed, "Pulses", "protocol[].count");
                             ui.end_row();
-                            pair(ui, ed, "Width", "width_ms");
-                            pair(ui, ed, "Period", "period_ms");
+                            pair(ui, ed, "Width", "protocol[].width_ms");
+                            pair(ui, ed, "Period", "protocol[].period_ms");
                             ui.end_row();
-                            pair(ui, ed, "First at", "from_ms");
+                            pair(ui, ed, "First at", "protocol[].from_ms");
                             ui.end_row();
                         }
                     }
