@@ -1233,6 +1233,22 @@ mod tests {
     }
 
     #[test]
+    fn every_row_has_a_unique_path_its_address_can_hold() {
+        for (k, f) in FIELDS.iter().enumerate() {
+            assert!(
+                f.depth() <= DEPTH,
+                "{} has more list indices than an address holds",
+                f.path
+            );
+            assert!(
+                FIELDS.iter().skip(k + 1).all(|g| g.path != f.path),
+                "{} is in the table twice",
+                f.path
+            );
+        }
+    }
+
+    #[test]
     fn writing_through_an_address_changes_that_number_and_nothing_else() {
         let s = rich();
         let before = serde_numbers(&s);
