@@ -6,6 +6,8 @@ use std::time::{Duration, Instant};
 
 use egui_kittest::Harness;
 use egui_kittest::kittest::{NodeT, Queryable};
+mod common;
+use common::reference::{Ion, ghk_voltage_mv, nernst_slope_mv_per_decade};
 use permeant::analysis::fit::FitSpace;
 use permeant::analysis::sweep::{SweepControl, SweepRange, Vary, sweep};
 use permeant::scenario::Scenario;
@@ -15,24 +17,6 @@ use permeant::ui::{App, AppOptions, Command};
 
 /// The accuracy model.md asks of potentials, mV.
 const ACCURACY_MV: f64 = 0.01;
-/// Molar gas constant and Faraday constant, CODATA 2018 (exact in the 2019 SI: N_A·k and N_A·e).
-const R_J_PER_MOL_K: f64 = 8.314_462_618_153_24;
-const F_C_PER_MOL: f64 = 96_485.332_123_310_02;
-
-/// RT/F in mV at `t_c` °C.
-fn rt_over_f_mv(t_c: f64) -> f64 {
-    1000.0 * R_J_PER_MOL_K * (t_c + 273.15) / F_C_PER_MOL
-}
-
-/// The GHK voltage equation for K+, Na+ and Cl- (Goldman 1943; Hodgkin & Katz 1949), mV:
-/// `(RT/F) ln((P_K K_o + P_Na Na_o + P_Cl Cl_i) / (P_K K_i + P_Na Na_i + P_Cl Cl_o))`, with
-/// each species given as (P, inside mM, outside mM).
-fn ghk_voltage_mv(k: (f64, f64, f64), na: (f64, f64, f64), cl: (f64, f64, f64), t_c: f64) -> f64 {
-    let num = k.0 * k.2 + na.0 * na.2 + cl.0 * cl.1;
-    let den = k.0 * k.1 + na.0 * na.1 + cl.0 * cl.2;
-    rt_over_f_mv(t_c) * (num / den).ln()
-}
-
 fn harness() -> Harness<'static, App> {
     Harness::builder()
         .with_size(egui::vec2(1280.0, 800.0))
@@ -130,7 +114,7 @@ fn a_bath_potassium_sweep_in_the_window_equals_the_library_sweep() {
     // 61.54 mV at 37 °C (CODATA 2018 constants).
     let nernst = out.nernst.expect("a Nernst line for outside K+");
     assert_eq!(nernst.species, "K+");
-    let slope = std::f64::consts::LN_10 * rt_over_f_mv(s.temperature_c);
+    let slope = nernst_slope_mv_per_decade(1, s.temperature_c);
     assert!(
         (nernst.slope_mv_per_decade - slope).abs() < 1e-9,
         "{}",
@@ -139,13 +123,19 @@ fn a_bath_potassium_sweep_in_the_window_equals_the_library_sweep() {
     h.get_by_label_contains("Nernst K+");
     // The default cell has no pump or channel, so each steady state is the GHK voltage
     // equation's potential at that bath potassium.
-    let species = |i: usize| {
-        let x = &s.species[i];
-        (x.permeability_cm_per_s, x.inside_mm, x.outside_mm)
-    };
+    let mut ions: Vec<Ion> = s
+        .species
+        .iter()
+        .map(|x| Ion {
+            charge: x.charge,
+            inside_mm: x.inside_mm,
+            outside_mm: x.outside_mm,
+            p_cm_per_s: x.permeability_cm_per_s,
+        })
+        .collect();
     for p in &out.points {
-        let k = (species(0).0, species(0).1, p.value);
-        let expected = ghk_voltage_mv(k, species(1), species(2), s.temperature_c);
+        ions[0].outside_mm = p.value;
+        let expected = ghk_voltage_mv(&ions, s.temperature_c);
         let v = p.resting_mv.expect("a steady state");
         assert!(
             (v - expected).abs() < ACCURACY_MV,
@@ -166,19 +156,24 @@ const RATIO_TOLERANCE: f64 = 1e-4;
 fn a_fit_of_points_made_from_known_ratios_reports_them() {
     let dir = tempfile::tempdir().expect("temporary directory");
     let cell = Scenario::new_default();
-    let ion = |i: usize| (cell.species[i].inside_mm, cell.species[i].outside_mm);
-    let ((k_in, _), (na_in, na_out), (cl_in, cl_out)) = (ion(0), ion(1), ion(2));
+    let mut ions: Vec<Ion> = cell
+        .species
+        .iter()
+        .zip([1.0, 0.05, 0.3])
+        .map(|(x, ratio)| Ion {
+            charge: x.charge,
+            inside_mm: x.inside_mm,
+            outside_mm: x.outside_mm,
+            p_cm_per_s: ratio,
+        })
+        .collect();
     let vary = Vary::OutsideMm("K+".into());
     let mut csv = String::from("outside_k_mm,v_mv\n");
     for j in 0..8 {
         // 2 to 100 mM, evenly on a log scale.
         let k_out = 2.0 * 50f64.powf(f64::from(j) / 7.0);
-        let v = ghk_voltage_mv(
-            (1.0, k_in, k_out),
-            (0.05, na_in, na_out),
-            (0.3, cl_in, cl_out),
-            cell.temperature_c,
-        );
+        ions[0].outside_mm = k_out;
+        let v = ghk_voltage_mv(&ions, cell.temperature_c);
         csv += &format!("{k_out},{v}\n");
     }
     let path = dir.path().join("bath-series.csv");
