@@ -171,15 +171,16 @@ fn notes_show_formatted_beside_the_plots_and_can_be_edited() {
     assert!(h.state().document().is_dirty());
 }
 
-/// Leaves what a killed session leaves: an autosave and a session marker naming a process that
-/// no longer runs (pid 2³²−1 is above any Linux pid limit).
+/// Leaves what a killed session leaves: an autosave and a session marker that no running
+/// session holds locked (the operating system releases the lock of a process that is gone).
+/// The marker has the name earlier versions used, which is read the same way.
 fn crashed_session(data: &Path, title: &str) -> Scenario {
     let mut s = Scenario::new_default();
     s.title = title.into();
     s.species[0].outside_mm = 40.0;
     let a = Autosave::at(data.to_path_buf());
     a.save(&s, None).expect("autosaved");
-    std::fs::write(data.join("session.lock"), "4294967295").expect("marker written");
+    std::fs::write(data.join("session.lock"), "").expect("marker written");
     s
 }
 
