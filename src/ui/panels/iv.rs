@@ -5,46 +5,38 @@
 use egui::{RichText, Ui};
 use egui_plot::{Corner, HLine, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoint, Points, Text, VLine};
 
+use crate::physics::iv::{IvCurves, SpeciesCurve};
 use crate::ui::state::runtime::Runtime;
 use crate::ui::theme::{neutral_color, potential_color, species_color};
 
 /// Points per curve.
 const STEPS: usize = 360;
 
-/// The curves of one present state.
+/// The core's curves at the run's present state, with what the view adds to them.
 #[derive(Debug, Clone, PartialEq)]
-pub struct IvCurves {
-    pub v_mv: Vec<f64>,
-    /// Per species: name, its curve, and its reversal potential when it carries current.
-    pub species: Vec<(String, Vec<f64>, Option<f64>)>,
-    pub pump_ua_per_cm2: f64,
-    pub total: Vec<f64>,
-    /// Potentials where the total current crosses zero, most negative first.
-    pub zeros_mv: Vec<f64>,
+pub struct Present {
+    pub curves: IvCurves,
+    /// The name of each species, by its index in the membrane.
+    pub names: Vec<String>,
     /// The present membrane potential.
     pub present_mv: f64,
 }
 
-/// Computes the curves at the run's present state over `[lo, hi]` mV (the numbers come from
-/// the core, [`crate::engine::Model::iv_curves`]; this view only names and draws them).
-pub fn curves(rt: &mut Runtime, lo: f64, hi: f64) -> Option<IvCurves> {
+impl Present {
+    /// The name of the species of `curve`.
+    fn name(&self, curve: &SpeciesCurve) -> &str {
+        self.names.get(curve.species).map_or("", String::as_str)
+    }
+}
+
+/// The curves at the run's present state over `[lo, hi]` mV (the numbers come from the core,
+/// [`crate::engine::Model::iv_curves`]; this view only names and draws them).
+pub fn curves(rt: &Runtime, lo: f64, hi: f64) -> Option<Present> {
     let run = rt.run()?;
     let model = run.model();
-    let c = model.iv_curves(run.state(), lo, hi, STEPS);
-    let species = c
-        .species
-        .into_iter()
-        .map(|sc| {
-            let name = model.species_names.get(sc.species).cloned().unwrap_or_default();
-            (name, sc.i_ua_per_cm2, sc.reversal_mv)
-        })
-        .collect();
-    Some(IvCurves {
-        v_mv: c.v_mv,
-        species,
-        pump_ua_per_cm2: c.pump_ua_per_cm2,
-        total: c.total_ua_per_cm2,
-        zeros_mv: c.zeros_mv,
+    Some(Present {
+        curves: model.iv_curves(run.state(), lo, hi, STEPS),
+        names: model.species_names.clone(),
         present_mv: run.v_mv(),
     })
 }
@@ -74,16 +66,17 @@ fn window(rt: &Runtime, rest: Option<&crate::analysis::RestReport>) -> (f64, f64
     (lo, hi)
 }
 
-pub fn show(ui: &mut Ui, rt: &mut Runtime, rest: Option<&crate::analysis::RestReport>) {
+pub fn show(ui: &mut Ui, rt: &Runtime, rest: Option<&crate::analysis::RestReport>) {
     ui.label(RichText::new("Current–voltage now").strong())
         .on_hover_text(
             "GHK currents against voltage with gates, concentrations and agents frozen at the present state",
         );
     let (lo, hi) = window(rt, rest);
-    let Some(c) = curves(rt, lo, hi) else {
+    let Some(present) = curves(rt, lo, hi) else {
         ui.label(rt.error.clone().unwrap_or_else(|| "No present state.".into()));
         return;
     };
+    let c = &present.curves;
     let dark = ui.visuals().dark_mode;
     let zeros_text = if c.zeros_mv.is_empty() {
         "Total current: no zero crossing here".to_string()
@@ -112,18 +105,24 @@ pub fn show(ui: &mut Ui, rt: &mut Runtime, rest: Option<&crate::analysis::RestRe
                     .width(0.8),
             );
             pui.vline(
-                VLine::new("present V", c.present_mv)
+                VLine::new("present V", present.present_mv)
                     .color(neutral_color(dark))
                     .style(LineStyle::dashed_dense()),
             );
-            for (i, (name, curve, e)) in c.species.iter().enumerate() {
-                let pts: Vec<[f64; 2]> = c.v_mv.iter().zip(curve).map(|(v, y)| [*v, *y]).collect();
+            for sc in &c.species {
+                let (i, name) = (sc.species, present.name(sc));
+                let pts: Vec<[f64; 2]> = c
+                    .v_mv
+                    .iter()
+                    .zip(&sc.i_ua_per_cm2)
+                    .map(|(v, y)| [*v, *y])
+                    .collect();
                 pui.line(
                     Line::new(format!("I {name}"), pts)
                         .color(species_color(i))
                         .width(1.6),
                 );
-                if let Some(e) = e.filter(|e| *e >= lo && *e <= hi) {
+                if let Some(e) = sc.reversal_mv.filter(|e| *e >= lo && *e <= hi) {
                     pui.points(
                         Points::new(format!("I {name}"), vec![[e, 0.0]])
                             .color(species_color(i))
@@ -132,7 +131,12 @@ pub fn show(ui: &mut Ui, rt: &mut Runtime, rest: Option<&crate::analysis::RestRe
                     );
                 }
             }
-            let pts: Vec<[f64; 2]> = c.v_mv.iter().zip(&c.total).map(|(v, y)| [*v, *y]).collect();
+            let pts: Vec<[f64; 2]> = c
+                .v_mv
+                .iter()
+                .zip(&c.total_ua_per_cm2)
+                .map(|(v, y)| [*v, *y])
+                .collect();
             let total_color = potential_color(dark);
             pui.line(Line::new("I total", pts).color(total_color).width(2.4));
             if !c.zeros_mv.is_empty() {
@@ -165,19 +169,21 @@ mod tests {
     #[test]
     fn at_rest_the_total_current_is_zero_at_the_resting_potential() {
         let s = crate::scenario::Valid::new_default();
-        let mut rt = Runtime::new(&s);
+        let rt = Runtime::new(&s);
         let rest = crate::analysis::rest_report(&s).ok().and_then(|r| r.resting_mv());
-        let c = curves(&mut rt, -120.0, 100.0).expect("a present state");
+        let present = curves(&rt, -120.0, 100.0).expect("a present state");
+        let c = &present.curves;
         assert_eq!(c.zeros_mv.len(), 1);
         let (zero, rest) = (c.zeros_mv[0], rest.expect("a resting potential"));
         // Without pump or channels the instantaneous and steady curves coincide.
         assert!((zero - rest).abs() < 1e-6, "{zero} vs {rest}");
-        assert!((c.present_mv - rest).abs() < 1e-6);
+        assert!((present.present_mv - rest).abs() < 1e-6);
         // Each species' curve crosses zero at its Nernst potential (model.md, GHK current).
-        for (k, (_, curve, e)) in c.species.iter().enumerate() {
-            let e = e.expect("every default species is permeant");
+        for sc in &c.species {
+            let e = sc.reversal_mv.expect("every default species is permeant");
             let i = c.v_mv.iter().position(|v| *v > e).expect("inside the window");
-            assert!(curve[i - 1] <= 0.0 && curve[i] >= 0.0, "species {k}");
+            let curve = &sc.i_ua_per_cm2;
+            assert!(curve[i - 1] <= 0.0 && curve[i] >= 0.0, "{}", present.name(sc));
         }
     }
 }
