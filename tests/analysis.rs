@@ -11,9 +11,9 @@ use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 mod common;
 use common::cells::{hh_channels, species};
 use common::reference::{
-    self, Ion, ghk_voltage_mv, potential_carrying_mv, slope_conductance_ms_per_cm2, zero_current_mv,
+    self, ghk_voltage_mv, potential_carrying_mv, slope_conductance_ms_per_cm2, zero_current_mv,
 };
-use common::valid;
+use common::{reference_ions as ions, valid};
 
 /// A potential the program solves for against a closed form or the tests' own bisection: the
 /// root finder stops far inside [`ACCURACY_MV`].
@@ -118,19 +118,6 @@ fn excitable() -> Scenario {
     ];
     s.run.duration_ms = 110.0;
     s
-}
-
-/// A scenario's species as the reference's ions (its inputs, read as given).
-fn ions(s: &Scenario) -> Vec<Ion> {
-    s.species
-        .iter()
-        .map(|x| Ion {
-            charge: x.charge,
-            inside_mm: x.inside_mm,
-            outside_mm: x.outside_mm,
-            p_cm_per_s: x.permeability_cm_per_s,
-        })
-        .collect()
 }
 
 /// `s` with the bath's K+ (the first species) at `k_out_mm`, set here rather than through the

@@ -7,7 +7,7 @@ use std::time::{Duration, Instant};
 use egui_kittest::Harness;
 use egui_kittest::kittest::{NodeT, Queryable};
 mod common;
-use common::reference::{Ion, ghk_voltage_mv, nernst_slope_mv_per_decade};
+use common::reference::{ghk_voltage_mv, nernst_slope_mv_per_decade};
 use permeant::analysis::fit::FitSpace;
 use permeant::analysis::sweep::{SweepControl, SweepRange, Vary, sweep};
 use permeant::scenario::Scenario;
@@ -123,16 +123,7 @@ fn a_bath_potassium_sweep_in_the_window_equals_the_library_sweep() {
     h.get_by_label_contains("Nernst K+");
     // The default cell has no pump or channel, so each steady state is the GHK voltage
     // equation's potential at that bath potassium.
-    let mut ions: Vec<Ion> = s
-        .species
-        .iter()
-        .map(|x| Ion {
-            charge: x.charge,
-            inside_mm: x.inside_mm,
-            outside_mm: x.outside_mm,
-            p_cm_per_s: x.permeability_cm_per_s,
-        })
-        .collect();
+    let mut ions = common::reference_ions(&s);
     for p in &out.points {
         ions[0].outside_mm = p.value;
         let expected = ghk_voltage_mv(&ions, s.temperature_c);
@@ -156,17 +147,10 @@ const RATIO_TOLERANCE: f64 = 1e-4;
 fn a_fit_of_points_made_from_known_ratios_reports_them() {
     let dir = tempfile::tempdir().expect("temporary directory");
     let cell = Scenario::new_default();
-    let mut ions: Vec<Ion> = cell
-        .species
-        .iter()
-        .zip([1.0, 0.05, 0.3])
-        .map(|(x, ratio)| Ion {
-            charge: x.charge,
-            inside_mm: x.inside_mm,
-            outside_mm: x.outside_mm,
-            p_cm_per_s: ratio,
-        })
-        .collect();
+    let mut ions = common::reference_ions(&cell);
+    for (ion, ratio) in ions.iter_mut().zip([1.0, 0.05, 0.3]) {
+        ion.p_cm_per_s = ratio;
+    }
     let vary = Vary::OutsideMm("K+".into());
     let mut csv = String::from("outside_k_mm,v_mv\n");
     for j in 0..8 {

@@ -7,9 +7,23 @@ pub mod cli;
 pub mod reference;
 
 use permeant::scenario::{Scenario, Valid, validate};
+use reference::Ion;
 
 /// `s` as a validated scenario; a test that builds an invalid one has a bug, so this panics
 /// with every problem.
 pub fn valid(s: &Scenario) -> Valid {
     validate(s.clone()).unwrap_or_else(|e| panic!("the test's scenario is not valid: {e}"))
+}
+
+/// A scenario's species as the outside references' ions (its inputs, read as given).
+pub fn reference_ions(s: &Scenario) -> Vec<Ion> {
+    s.species
+        .iter()
+        .map(|x| Ion {
+            charge: x.charge,
+            inside_mm: x.inside_mm,
+            outside_mm: x.outside_mm,
+            p_cm_per_s: x.permeability_cm_per_s,
+        })
+        .collect()
 }
