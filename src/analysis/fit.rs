@@ -12,7 +12,7 @@ use nalgebra::{DMatrix, DVector, Dyn, SymmetricEigen};
 use rayon::prelude::*;
 
 use super::sweep::{SweepError, Vary, apply, check_value};
-use crate::engine::{EngineError, Model};
+use crate::engine::Model;
 use crate::physics::{Undefined, ghk_current_ua_per_cm2};
 use crate::scenario::{Scenario, Valid};
 
@@ -204,15 +204,6 @@ pub enum FitError {
         ratios: String,
         reason: Undefined,
     },
-    /// The engine refused the scenario of one data point: a failure of the model, not of the
-    /// minimiser.
-    #[error("row {row} ({value}): at the ratios {ratios} the model cannot be built: {source}")]
-    Model {
-        row: usize,
-        value: f64,
-        ratios: String,
-        source: EngineError,
-    },
     #[error("at the ratios {ratios} the model's potential or its slope is not finite")]
     NotFinite { ratios: String },
     #[error("the fit did not converge: no minimum within {evaluations} evaluations (last ratios {ratios})")]
@@ -228,10 +219,7 @@ impl FitError {
     pub fn is_bad_input(&self) -> bool {
         match self {
             FitError::Vary(e) | FitError::InvalidPoint { source: e, .. } => e.is_bad_input(),
-            FitError::Model { .. }
-            | FitError::NotFinite { .. }
-            | FitError::NotConverged { .. }
-            | FitError::Stopped { .. } => false,
+            FitError::NotFinite { .. } | FitError::NotConverged { .. } | FitError::Stopped { .. } => false,
             _ => true,
         }
     }

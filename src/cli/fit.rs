@@ -89,10 +89,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         .collect();
     let r = fit(&s, &vary, &free, &points, FitSpace::LogRatio).map_err(|e| {
         let place = match &e {
-            FitError::InvalidPoint { .. }
-            | FitError::NoPotential { .. }
-            | FitError::Model { .. }
-            | FitError::TooFewPoints { .. } => {
+            FitError::InvalidPoint { .. } | FitError::NoPotential { .. } | FitError::TooFewPoints { .. } => {
                 format!("{} (--data)", a.data.display())
             }
             FitError::UnknownSpecies { .. }
