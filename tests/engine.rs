@@ -769,30 +769,17 @@ fn abutting_pulses_run_through_the_rounding_between_them() {
 // ---------------------------------------------------------------------------------------------
 
 #[test]
-fn an_overflowing_current_stops_with_the_time_and_the_quantity() {
-    // A permeability so large that the current overflows to infinity away from rest.
+fn a_permeability_large_enough_to_overflow_the_current_is_refused_before_a_run() {
+    // A permeability so large that the current overflows to infinity away from rest: once a
+    // valid file that could only fail in `run` (issue 14), now refused where it is written.
     let mut s = passive("", 10.0, 0.1, "Voltage(-20.0)");
     s.species[0].permeability_cm_per_s = 1e300;
-    let mut r = Run::new(&valid(&s), SolverSettings::default()).expect("the file itself is valid");
-    match r.run_to_end() {
-        Err(e) => {
-            let message = e.to_string();
-            assert_eq!(
-                e,
-                EngineError::NotFinite {
-                    t_ms: 0.0,
-                    quantity: "v_mv".into()
-                }
-            );
-            assert!(
-                message.contains("t = 0 ms") && message.contains("v_mv"),
-                "{message}"
-            );
-        }
-        Ok(()) => panic!("expected NotFinite, the run finished"),
-    }
-    // Asking again reports again rather than panicking or pretending to finish.
-    assert!(r.advance(Budget::to_end()).is_err());
+    let e = permeant::scenario::validate(s).expect_err("refused");
+    let message = e.to_string();
+    assert!(
+        message.contains("species[0].permeability_cm_per_s") && message.contains("1e300"),
+        "{message}"
+    );
 }
 
 #[test]

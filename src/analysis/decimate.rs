@@ -155,6 +155,82 @@ impl Decimator {
     }
 }
 
+/// The same envelope as [`Decimator`] for samples that are not kept: each sample is offered
+/// once, as it is computed, and only the smallest and largest per column (with the first and
+/// the last sample) are held, so a run of any length costs a fixed amount of memory. Used for a
+/// figure of a run that streams its samples to a file.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Envelope {
+    lo: f64,
+    hi: f64,
+    /// Per column: the smallest and the largest finite sample, each as `[t, y]`.
+    extrema: Vec<Option<([f64; 2], [f64; 2])>>,
+    first: Option<[f64; 2]>,
+    last: Option<[f64; 2]>,
+}
+
+impl Envelope {
+    pub fn new(t_range: (f64, f64), columns: usize) -> Self {
+        let (lo, hi) = t_range;
+        let valid = !lo.is_nan() && !hi.is_nan() && lo <= hi;
+        Self {
+            lo,
+            hi,
+            extrema: vec![None; if valid { columns } else { 0 }],
+            first: None,
+            last: None,
+        }
+    }
+
+    /// Takes in samples in time order.
+    pub fn extend(&mut self, t: &[f64], y: &[f64]) {
+        let columns = self.extrema.len();
+        if columns == 0 {
+            return;
+        }
+        let width = (self.hi - self.lo) / columns as f64;
+        for (&x, &v) in t.iter().zip(y) {
+            if !v.is_finite() || x < self.lo || x > self.hi {
+                continue;
+            }
+            self.first.get_or_insert([x, v]);
+            self.last = Some([x, v]);
+            let c = if width > 0.0 {
+                (((x - self.lo) / width) as usize).min(columns - 1)
+            } else {
+                0
+            };
+            match &mut self.extrema[c] {
+                Some((min, max)) => {
+                    if v < min[1] {
+                        *min = [x, v];
+                    }
+                    if v > max[1] {
+                        *max = [x, v];
+                    }
+                }
+                slot @ None => *slot = Some(([x, v], [x, v])),
+            }
+        }
+    }
+
+    /// The points held, in time order: the first sample, each column's extremes, the last.
+    pub fn points(&self) -> (Vec<f64>, Vec<f64>) {
+        let mut pts: Vec<[f64; 2]> = Vec::with_capacity(2 * self.extrema.len() + 2);
+        pts.extend(self.first);
+        for (a, b) in self.extrema.iter().flatten() {
+            let (a, b) = if a[0] <= b[0] { (a, b) } else { (b, a) };
+            pts.push(*a);
+            if b != a {
+                pts.push(*b);
+            }
+        }
+        pts.extend(self.last);
+        pts.dedup();
+        pts.into_iter().map(|[t, y]| (t, y)).unzip()
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -47,7 +47,20 @@ pub enum DataError {
     NoPoints,
     #[error("row {row}: the row cannot be read as CSV: {message}")]
     Malformed { row: usize, message: String },
+    #[error(
+        "row {row}: a measured potential of {cell} mV is outside ±{MAX_MEASURED_MV} mV, which no cell reaches"
+    )]
+    NotPhysical { row: usize, cell: String },
+    #[error("{path}: the file is larger than {} MB, far more than measured points take; is it the right file?", MAX_DATA_BYTES / (1024 * 1024))]
+    TooLarge { path: String },
 }
+
+/// Largest measured potential accepted, mV (the bound of a holding potential too).
+pub const MAX_MEASURED_MV: f64 = 1000.0;
+
+/// Largest data file read: a million points take about 20 MB; the cap keeps a wrong path (a
+/// device, a log) from filling memory.
+pub const MAX_DATA_BYTES: u64 = 32 * 1024 * 1024;
 
 /// Parses `value,v_mv` rows with a CSV reader, so quoted cells may hold commas and quotes.
 /// Blank lines and lines whose first cell starts with `#` are skipped; the first other row is a
@@ -110,9 +123,16 @@ pub fn parse_points(text: &str) -> Result<Vec<DataPoint>, DataError> {
                 found: cells.len(),
             });
         };
+        let measured = number(row, "v_mv", v_mv)?;
+        if measured.abs() > MAX_MEASURED_MV {
+            return Err(DataError::NotPhysical {
+                row,
+                cell: v_mv.to_string(),
+            });
+        }
         points.push(DataPoint {
             value: number(row, "value", value)?,
-            v_mv: number(row, "v_mv", v_mv)?,
+            v_mv: measured,
             row,
         });
     }
@@ -141,9 +161,25 @@ fn number(row: usize, column: &'static str, cell: &str) -> Result<f64, DataError
 
 /// Reads and parses a data file.
 pub fn read_points(path: &Path) -> Result<Vec<DataPoint>, DataError> {
-    let text = std::fs::read_to_string(path).map_err(|e| DataError::Io {
+    use std::io::Read;
+    let io = |e: std::io::Error| DataError::Io {
         path: path.display().to_string(),
         message: e.to_string(),
+    };
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)
+        .map_err(io)?
+        .take(MAX_DATA_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(io)?;
+    if bytes.len() as u64 > MAX_DATA_BYTES {
+        return Err(DataError::TooLarge {
+            path: path.display().to_string(),
+        });
+    }
+    let text = String::from_utf8(bytes).map_err(|_| DataError::Io {
+        path: path.display().to_string(),
+        message: "the file is not text (UTF-8)".to_string(),
     })?;
     parse_points(&text)
 }
@@ -688,7 +724,7 @@ pub fn fit(
                 p_cm_per_s: r * p_ref,
             }
         })
-        .collect();
+        .collect::<Vec<FittedRatio>>();
     let residuals = points
         .iter()
         .enumerate()
@@ -700,11 +736,25 @@ pub fn fit(
             residual_mv: resid[k],
         })
         .collect();
+    let rms_residual_mv = (ssr / n as f64).sqrt();
+    let finite = rms_residual_mv.is_finite()
+        && ratios
+            .iter()
+            .all(|r| r.ratio.is_finite() && r.standard_error.is_finite() && r.p_cm_per_s.is_finite());
+    if !finite {
+        return Err(FitError::NotFinite {
+            ratios: ratios
+                .iter()
+                .map(|r| format!("{} {}", r.name, r.ratio))
+                .collect::<Vec<_>>()
+                .join(", "),
+        });
+    }
     Ok(FitResult {
         reference: s.species[0].name.clone(),
         ratios,
         residuals,
-        rms_residual_mv: (ssr / n as f64).sqrt(),
+        rms_residual_mv,
         degrees_of_freedom: dof,
         evaluations,
     })

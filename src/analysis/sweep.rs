@@ -44,6 +44,10 @@ pub enum SweepError {
     UnknownAgent { label: String, choices: String },
     #[error("the number of points must be at least 1 (got {0})")]
     TooFewPoints(usize),
+    #[error(
+        "the number of points must be at most {MAX_POINTS} (got {0}); a finer scan of a part of the range gives more detail where it is needed"
+    )]
+    TooManyPoints(usize),
     #[error("the range's {end} must be a finite number (got {value})")]
     NotFinite { end: &'static str, value: f64 },
     #[error("a log range needs both ends above 0 (got {from} to {to})")]
@@ -227,6 +231,10 @@ pub fn check_value(s: &Scenario, vary: &Vary, value: f64) -> Result<Valid, Sweep
     })
 }
 
+/// Most values one scan takes: each point is a steady-state solve and a row of the report, and
+/// far more than a plot's width of points shows nothing new.
+pub const MAX_POINTS: usize = 100_000;
+
 /// A range of values: `points` values from `from` to `to` inclusive, evenly spaced on a linear
 /// or a logarithmic scale. `from` may exceed `to` (a descending sweep).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -243,6 +251,9 @@ impl SweepRange {
     pub fn values(&self) -> Result<Vec<f64>, SweepError> {
         if self.points < 1 {
             return Err(SweepError::TooFewPoints(self.points));
+        }
+        if self.points > MAX_POINTS {
+            return Err(SweepError::TooManyPoints(self.points));
         }
         if !self.from.is_finite() {
             return Err(SweepError::NotFinite {

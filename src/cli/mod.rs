@@ -3,6 +3,7 @@
 
 mod check;
 mod fit;
+mod output;
 mod rest;
 mod run;
 mod sweep;
@@ -71,12 +72,12 @@ pub fn main() -> ExitCode {
         Some(Command::Check(a)) => check::run(a),
         Some(Command::Scan(a)) => sweep::run(a),
         Some(Command::Fit(a)) => fit::run(a),
-        None => open_window(cli.file),
+        None => not_a_command(cli.file.as_deref()).and_then(|()| open_window(cli.file)),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("permeant: {e:#}");
+            note(&format!("permeant: {e:#}"));
             if is_bad_input(&e) {
                 ExitCode::from(2)
             } else {
@@ -91,8 +92,46 @@ fn is_bad_input(e: &anyhow::Error) -> bool {
         .any(|c| c.is::<BadInput>() || c.is::<crate::scenario::ScenarioError>())
 }
 
+/// The names a user types as the first word.
+const COMMANDS: [&str; 6] = ["rest", "run", "check", "scan", "fit", "help"];
+
+/// A first word that names no file but is close to a command (`permeant chek`) is a mistyped
+/// command, not a scenario for the window to open.
+fn not_a_command(file: Option<&std::path::Path>) -> anyhow::Result<()> {
+    let Some(word) = file.and_then(|f| f.to_str()) else {
+        return Ok(());
+    };
+    if std::path::Path::new(word).exists() || word.contains(['/', '\\', '.']) {
+        return Ok(());
+    }
+    let nearest = COMMANDS
+        .iter()
+        .map(|c| (strsim::damerau_levenshtein(word, c), *c))
+        .min()
+        .filter(|(d, c)| *d <= 2.max(c.len() / 3));
+    match nearest {
+        Some((_, c)) => Err(bad(format!(
+            "`{word}` is not a command; did you mean `permeant {c}`? (see `permeant --help`)"
+        ))),
+        None => Err(bad(format!(
+            "`{word}` is neither a command nor a file; the commands are {} (see `permeant --help`)",
+            COMMANDS.join(", ")
+        ))),
+    }
+}
+
 #[cfg(feature = "gui")]
 fn open_window(file: Option<PathBuf>) -> anyhow::Result<()> {
+    #[cfg(all(unix, not(target_os = "macos")))]
+    if std::env::var_os("DISPLAY").is_none_or(|d| d.is_empty())
+        && std::env::var_os("WAYLAND_DISPLAY").is_none_or(|d| d.is_empty())
+    {
+        return Err(bad(
+            "no display is available (neither DISPLAY nor WAYLAND_DISPLAY is set), so the window \
+             cannot open; run permeant headless with a command, such as `permeant check FILE`, \
+             `permeant rest FILE` or `permeant run FILE --csv OUT` (see `permeant --help`)",
+        ));
+    }
     crate::ui::run(file)
 }
 
@@ -141,6 +180,39 @@ pub fn load(path: &std::path::Path) -> anyhow::Result<crate::scenario::Valid> {
 /// Prints the scenario's warnings to stderr.
 pub fn print_warnings(path: &std::path::Path, s: &crate::scenario::Scenario) {
     for w in crate::scenario::warnings(s) {
-        eprintln!("permeant: warning: {}: {w}", path.display());
+        note(&format!("permeant: warning: {}: {w}", path.display()));
+    }
+}
+
+/// Writes a line to stderr. A closed or full stderr loses the message but never panics (as
+/// `eprintln!` would), so the exit status still tells the outcome.
+pub fn note(line: &str) {
+    use std::io::Write;
+    let mut err = std::io::stderr().lock();
+    let _ = err.write_all(line.as_bytes()).and_then(|()| err.write_all(b"\n"));
+}
+
+/// Like [`note`], without ending the line (a progress counter rewritten with `\r`).
+pub fn note_inline(text: &str) {
+    use std::io::Write;
+    let mut err = std::io::stderr().lock();
+    let _ = err.write_all(text.as_bytes()).and_then(|()| err.flush());
+}
+
+/// A value for reading: up to six significant digits, scientific form outside 0.001–10⁶, so a
+/// value such as 1e308 is not printed as 309 digits.
+pub fn readable(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        format!("{x}")
+    } else if (1e-3..1e6).contains(&x.abs()) {
+        let digits = (5 - x.abs().log10().floor() as i32).clamp(0, 9) as usize;
+        let s = format!("{x:.digits$}");
+        if s.contains('.') {
+            s.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            s
+        }
+    } else {
+        format!("{x:.5e}")
     }
 }

@@ -32,10 +32,10 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     super::print_warnings(&a.file, &s);
     let r = rest_report(&s)?;
     if let Err(why) = &r.ghk_mv {
-        eprintln!("permeant: the GHK potential is undefined: {why}");
+        super::note(&format!("permeant: the GHK potential is undefined: {why}"));
     }
     if let Err(why) = &r.steady.resting_mv {
-        eprintln!("permeant: the resting potential is undefined: {why}");
+        super::note(&format!("permeant: the resting potential is undefined: {why}"));
     }
     if a.json {
         let j = RestJson {

@@ -9,6 +9,8 @@ use std::time::Duration;
 
 use serde::Serialize;
 
+use super::output::{Output, check_distinct, remove_temporaries_on_interrupt};
+use super::readable;
 use crate::analysis::sweep::{NernstLine, SweepControl, SweepPoint, SweepRange, Vary, nernst_line, sweep};
 use crate::physics::Undefined;
 
@@ -21,13 +23,13 @@ pub struct Args {
     #[arg(long, value_name = "WHAT")]
     vary: String,
     /// First value of the range.
-    #[arg(long, value_name = "A", allow_negative_numbers = true)]
+    #[arg(long, value_name = "A", allow_hyphen_values = true, value_parser = parse_end)]
     from: f64,
     /// Last value of the range.
-    #[arg(long, value_name = "B", allow_negative_numbers = true)]
+    #[arg(long, value_name = "B", allow_hyphen_values = true, value_parser = parse_end)]
     to: f64,
-    /// Number of values, ends included.
-    #[arg(long, value_name = "N")]
+    /// Number of values, ends included (at most 100000).
+    #[arg(long, value_name = "N", allow_hyphen_values = true, value_parser = parse_points)]
     points: usize,
     /// Space the values evenly on a log scale (both ends above 0).
     #[arg(long)]
@@ -39,6 +41,29 @@ pub struct Args {
     /// Print one JSON object instead of a table.
     #[arg(long)]
     json: bool,
+}
+
+/// An end of the range: any number, negative ones included; the range itself says whether it
+/// must be finite or above 0.
+fn parse_end(text: &str) -> Result<f64, String> {
+    text.trim()
+        .parse::<f64>()
+        .map_err(|_| format!("\"{text}\" is not a number"))
+}
+
+/// The number of points in plain words, whatever was typed (`-3`, `2.5`, `1e99`).
+fn parse_points(text: &str) -> Result<usize, String> {
+    let wanted = format!(
+        "the number of points must be a whole number from 1 to {}",
+        crate::analysis::sweep::MAX_POINTS
+    );
+    match text.trim().parse::<f64>() {
+        Ok(x) if x.fract() == 0.0 && (1.0..=crate::analysis::sweep::MAX_POINTS as f64).contains(&x) => {
+            Ok(x as usize)
+        }
+        Ok(_) => Err(format!("{wanted} (got {text})")),
+        Err(_) => Err(format!("{wanted}; \"{text}\" is not a number")),
+    }
 }
 
 #[derive(Serialize)]
@@ -56,6 +81,13 @@ struct SweepJson<'a> {
 
 pub fn run(a: Args) -> anyhow::Result<()> {
     let s = super::load(&a.file)?;
+    let csv_out = match &a.csv {
+        Some(p) => {
+            check_distinct(&[("scenario", a.file.as_path())], &[("--csv", p.as_path())])?;
+            Some(Output::new(p, "--csv")?)
+        }
+        None => None,
+    };
     super::print_warnings(&a.file, &s);
     let in_file = |e: &dyn std::fmt::Display| format!("{}: {e}", a.file.display());
     let vary =
@@ -83,11 +115,14 @@ pub fn run(a: Args) -> anyhow::Result<()> {
                     if done.load(Ordering::Relaxed) {
                         break;
                     }
-                    eprint!("\rpermeant: {} of {n} points", progress.load(Ordering::Relaxed));
+                    super::note_inline(&format!(
+                        "\rpermeant: {} of {n} points",
+                        progress.load(Ordering::Relaxed)
+                    ));
                     shown = true;
                 }
                 if shown {
-                    eprintln!();
+                    super::note("");
                 }
             });
         }
@@ -105,9 +140,10 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     })?;
 
     report_undefined(&vary, &points);
-    if let Some(path) = &a.csv {
-        crate::scenario::write_atomic(path, csv(&points).as_bytes())
-            .map_err(|e| super::bad(format!("cannot write {}: {e}", path.display())))?;
+    if let Some(out) = &csv_out {
+        remove_temporaries_on_interrupt();
+        out.write_all(csv(&points).as_bytes())
+            .map_err(|e| super::bad(format!("cannot write {}: {e}", out.path().display())))?;
     }
     if a.json {
         let j = SweepJson {
@@ -154,9 +190,9 @@ fn report_undefined(vary: &Vary, points: &[SweepPoint]) {
             }
         }
         for (why, count, first) in seen {
-            eprintln!(
+            super::note(&format!(
                 "permeant: the {what} is undefined at {count} point(s), first at {vary} = {first}: {why}"
-            );
+            ));
         }
     }
 }
@@ -172,23 +208,6 @@ pub fn csv(points: &[SweepPoint]) -> String {
         o += &format!("{},{},{}\n", p.value, cell(p.ghk_mv), cell(p.resting_mv));
     }
     o
-}
-
-/// A value for reading: up to six significant digits, scientific form outside 0.001–10⁶.
-fn readable(x: f64) -> String {
-    if x == 0.0 {
-        "0".to_string()
-    } else if (1e-3..1e6).contains(&x.abs()) {
-        let digits = (5 - x.abs().log10().floor() as i32).clamp(0, 9) as usize;
-        let s = format!("{x:.digits$}");
-        if s.contains('.') {
-            s.trim_end_matches('0').trim_end_matches('.').to_string()
-        } else {
-            s
-        }
-    } else {
-        format!("{x:.5e}")
-    }
 }
 
 fn mv(x: Option<f64>) -> String {

@@ -28,4 +28,22 @@ pub enum EngineError {
     StepUnderflow { t_ms: f64, quantity: String },
     #[error("at t = {t_ms} ms {quantity} became infinite or not a number")]
     NotFinite { t_ms: f64, quantity: String },
+    #[error("at t = {t_ms} ms {quantity} reached {value}, {reason}; the run stops there")]
+    OutOfRange {
+        t_ms: f64,
+        quantity: String,
+        value: f64,
+        reason: &'static str,
+    },
+    #[error(
+        "at t = {t_ms} ms the run had taken {steps} steps, more than its budget ({} plus {} per simulated ms); {quantity} changes on a time scale of about {timescale_ms:.1e} ms, too fast to follow over this run",
+        run::STEP_BUDGET_BASE,
+        run::STEP_BUDGET_PER_MS
+    )]
+    StepBudget {
+        t_ms: f64,
+        steps: u64,
+        quantity: String,
+        timescale_ms: f64,
+    },
 }

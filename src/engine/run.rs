@@ -64,6 +64,19 @@ impl Budget {
 /// passes (a stiff stretch with a coarse grid).
 const CHUNK_STEPS: u64 = 20_000;
 
+/// Steps any run may take, however short; see [`STEP_BUDGET_PER_MS`].
+pub const STEP_BUDGET_BASE: u64 = 200_000;
+/// Further steps per simulated millisecond. An action potential at 6 °C takes a few hundred
+/// steps, a resting stretch a handful; a run that needs far more than this is following
+/// something faster than any cell (a near-zero time constant, a stiff loop) and would not end
+/// in a useful time, so it stops with the quantity responsible.
+pub const STEP_BUDGET_PER_MS: u64 = 20_000;
+/// Further steps per command edge crossed (a pulse's start or end restarts the step size).
+const STEP_BUDGET_PER_EDGE: u64 = 64;
+/// The potential beyond which the model is not defined, mV (gate kinetics are kept finite to
+/// ±2000 mV around a channel's shift of at most ±1000 mV; no membrane survives either).
+pub const V_LIMIT_MV: f64 = 1000.0;
+
 /// Where a run stands after [`Run::advance`].
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Progress {
@@ -147,6 +160,9 @@ pub struct Run {
     scratch: Vec<f64>,
     /// Work of steppers replaced by [`Run::update_scenario`].
     earlier_stats: Stats,
+    /// Steps accepted and command edges crossed so far, for the step budget.
+    steps_taken: u64,
+    edges_crossed: u64,
 }
 
 impl Run {
@@ -172,6 +188,8 @@ impl Run {
             finished: false,
             scratch: vec![0.0; n],
             earlier_stats: Stats::default(),
+            steps_taken: 0,
+            edges_crossed: 0,
         })
     }
 
@@ -320,11 +338,77 @@ impl Run {
                 }
             }
             steps += 1;
+            self.steps_taken += 1;
+            self.check_range()?;
+            self.check_budget()?;
             self.emit_samples(self.t_ms, false, true);
             if self.t_ms >= self.seg_end {
                 self.segment_open = false;
+                self.edges_crossed += 1;
             }
         }
+    }
+
+    /// Stops a run whose state left the range where the model is defined.
+    fn check_range(&self) -> Result<(), EngineError> {
+        let v = self.y[0];
+        if v.abs() > V_LIMIT_MV {
+            return Err(EngineError::OutOfRange {
+                t_ms: self.t_ms,
+                quantity: "the membrane potential v_mv".into(),
+                value: v,
+                reason: "beyond ±1000 mV, where no membrane holds and the model is not defined",
+            });
+        }
+        if self.model.track_concentrations {
+            let from = self.model.conc_offset();
+            for (i, &c) in self.y.iter().enumerate().skip(from) {
+                if c < -1e-6 {
+                    return Err(EngineError::OutOfRange {
+                        t_ms: self.t_ms,
+                        quantity: self.trace.names[i].clone(),
+                        value: c,
+                        reason: "below 0: the cell has run out of this ion, which the currents of the model do not allow for",
+                    });
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// Stops a run that takes far more steps per simulated time than any cell needs, naming
+    /// the state component that changes fastest (the largest diagonal entry of the Jacobian,
+    /// by a finite difference).
+    fn check_budget(&mut self) -> Result<(), EngineError> {
+        let allowed = STEP_BUDGET_BASE
+            .saturating_add((self.t_ms.max(0.0) * STEP_BUDGET_PER_MS as f64) as u64)
+            .saturating_add(self.edges_crossed.saturating_mul(STEP_BUDGET_PER_EDGE));
+        if self.steps_taken <= allowed {
+            return Ok(());
+        }
+        let n = self.y.len();
+        let mut f0 = vec![0.0; n];
+        let mut f1 = vec![0.0; n];
+        let mut y = self.y.clone();
+        self.model.derivatives(&mut self.ws, &y, &mut f0);
+        let (mut fastest, mut rate) = (0, 0.0);
+        for i in 0..n {
+            let h = 1e-7 * y[i].abs().max(1e-3);
+            let keep = y[i];
+            y[i] = keep + h;
+            self.model.derivatives(&mut self.ws, &y, &mut f1);
+            y[i] = keep;
+            let r = ((f1[i] - f0[i]) / h).abs();
+            if r.is_finite() && r > rate {
+                (fastest, rate) = (i, r);
+            }
+        }
+        Err(EngineError::StepBudget {
+            t_ms: self.t_ms,
+            steps: self.steps_taken,
+            quantity: self.trace.names[fastest].clone(),
+            timescale_ms: if rate > 0.0 { 1.0 / rate } else { f64::INFINITY },
+        })
     }
 
     /// A budget that passes about `samples` output samples (or [`CHUNK_STEPS`] steps): a writer

@@ -126,20 +126,56 @@ pub fn number(x: f64) -> String {
     String::from_utf8(out).unwrap_or_default()
 }
 
+/// Which columns a run's CSV holds; each choice is a leading part of the full list.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Columns {
+    /// Time, potential, currents and every other state component.
+    #[default]
+    All,
+    /// Time, potential, each species' current and the pump's.
+    Currents,
+    /// Time and potential only.
+    Potential,
+}
+
+impl Columns {
+    /// The command line's words for each choice.
+    pub const WORDS: [(&'static str, Columns); 3] = [
+        ("all", Columns::All),
+        ("currents", Columns::Currents),
+        ("v", Columns::Potential),
+    ];
+}
+
 /// Column names, in order.
 pub fn header(model: &Model, trace: &Trace) -> Vec<String> {
+    header_of(model, trace, Columns::All)
+}
+
+/// Names of the `columns` chosen, in order.
+pub fn header_of(model: &Model, trace: &Trace, columns: Columns) -> Vec<String> {
     let mut h = vec!["time_ms".to_string(), "v_mv".to_string()];
+    if columns == Columns::Potential {
+        return h;
+    }
     h.extend(model.species_names.iter().map(|n| format!("i_ua_per_cm2:{n}")));
     if model.membrane.pump.is_some() {
         h.push("i_pump_ua_per_cm2".into());
     }
-    h.extend(trace.names.iter().skip(1).cloned());
+    if columns == Columns::All {
+        h.extend(trace.names.iter().skip(1).cloned());
+    }
     h
 }
 
 /// Writes the header line.
 pub fn write_header(w: &mut impl Write, model: &Model, trace: &Trace) -> io::Result<()> {
-    let h: Vec<String> = header(model, trace)
+    write_header_of(w, model, trace, Columns::All)
+}
+
+/// Writes the header line of the `columns` chosen.
+pub fn write_header_of(w: &mut impl Write, model: &Model, trace: &Trace, columns: Columns) -> io::Result<()> {
+    let h: Vec<String> = header_of(model, trace, columns)
         .iter()
         .map(|n| quote(n).into_owned())
         .collect();
@@ -153,6 +189,7 @@ pub struct RowWriter {
     readout: Readout,
     y: Vec<f64>,
     text: Vec<u8>,
+    columns: Columns,
 }
 
 impl RowWriter {
@@ -161,7 +198,14 @@ impl RowWriter {
             readout: model.readout(),
             y: vec![0.0; model.dim()],
             text: Vec::new(),
+            columns: Columns::All,
         }
+    }
+
+    /// Writes only the `columns` chosen.
+    pub fn with_columns(mut self, columns: Columns) -> RowWriter {
+        self.columns = columns;
+        self
     }
 
     /// Writes every sample now held in `trace` as a row.
@@ -174,9 +218,16 @@ impl RowWriter {
             trace.len() * (trace.columns.len() + self.readout.currents.species_ua_per_cm2.len() + 2) * 24,
         );
         for k in 0..trace.len() {
+            let t = &mut self.text;
+            if self.columns == Columns::Potential {
+                push_number(t, trace.t_ms[k]);
+                t.push(b',');
+                push_number(t, trace.v_mv()[k]);
+                t.push(b'\n');
+                continue;
+            }
             trace.state(k, &mut self.y);
             model.read(trace.t_ms[k], &self.y, &mut self.readout);
-            let t = &mut self.text;
             push_number(t, trace.t_ms[k]);
             t.push(b',');
             push_number(t, self.y[0]);
@@ -188,9 +239,11 @@ impl RowWriter {
                 t.push(b',');
                 push_number(t, self.readout.currents.pump_ua_per_cm2);
             }
-            for &v in &self.y[1..] {
-                t.push(b',');
-                push_number(t, v);
+            if self.columns == Columns::All {
+                for &v in &self.y[1..] {
+                    t.push(b',');
+                    push_number(t, v);
+                }
             }
             t.push(b'\n');
         }

@@ -51,7 +51,7 @@ pub enum FigureError {
 
 /// Columns the trace is thinned to: at most about 6000 points, a fine line at the figure's
 /// 1000 pixels.
-const TRACE_COLUMNS: usize = 3000;
+pub const TRACE_COLUMNS: usize = 3000;
 
 /// The figure of a run of `s`: its title, the trace `t_ms`/`v_mv`, each species' reversal
 /// potential and the GHK potential at the scenario's starting conditions, and its events. The

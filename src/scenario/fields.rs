@@ -57,6 +57,16 @@ pub enum Limits {
         max: f64,
         over: fn(f64) -> String,
     },
+    /// A finite number from `lo` to `hi` (or exactly 0 when `zero_ok`): bounds where physics
+    /// or the integrator's reach ends, so that a file `check` accepts also runs. The words name
+    /// the quantity, `unit` its unit in messages.
+    Within {
+        what: &'static str,
+        unit: &'static str,
+        lo: f64,
+        hi: f64,
+        zero_ok: bool,
+    },
     /// A finite number from `lo` to `hi`, and not 0 when `nonzero`; `outside` says why not.
     Range {
         lo: f64,
@@ -71,27 +81,53 @@ impl Limits {
     pub fn check(&self, x: f64) -> Vec<String> {
         let mut why = Vec::new();
         if !x.is_finite() {
-            why.push(format!("must be a finite number, not {x}"));
+            why.push(format!("must be a finite number, not {}", shown(x)));
         }
         let finite = why.is_empty();
         match *self {
             Limits::Finite => {}
             Limits::NonNegative(what) => {
                 if finite && x < 0.0 {
-                    why.push(format!("{what} cannot be negative (got {x})"));
+                    why.push(format!("{what} cannot be negative (got {})", shown(x)));
                 }
             }
             Limits::Positive(what) => {
                 if finite && x <= 0.0 {
-                    why.push(format!("{what} must be greater than 0 (got {x})"));
+                    why.push(format!("{what} must be greater than 0 (got {})", shown(x)));
                 }
             }
             Limits::PositiveUpTo { what, max, over } => {
                 if finite && x <= 0.0 {
-                    why.push(format!("{what} must be greater than 0 (got {x})"));
+                    why.push(format!("{what} must be greater than 0 (got {})", shown(x)));
                 }
                 if x > max {
                     why.push(over(x));
+                }
+            }
+            Limits::Within {
+                what,
+                unit,
+                lo,
+                hi,
+                zero_ok,
+            } => {
+                let unit = if unit.is_empty() {
+                    String::new()
+                } else {
+                    format!(" {unit}")
+                };
+                if finite && x < 0.0 && (lo == 0.0 || zero_ok) {
+                    why.push(format!("{what} cannot be negative (got {})", shown(x)));
+                } else if finite && x <= 0.0 && lo > 0.0 && !zero_ok {
+                    why.push(format!("{what} must be greater than 0 (got {})", shown(x)));
+                } else if finite && !(lo..=hi).contains(&x) && !(zero_ok && x == 0.0) {
+                    let or_zero = if zero_ok { "0 or " } else { "" };
+                    why.push(format!(
+                        "{what} must be {or_zero}from {} to {}{unit} (got {})",
+                        shown(lo),
+                        shown(hi),
+                        shown(x)
+                    ));
                 }
             }
             Limits::Range {
@@ -108,6 +144,25 @@ impl Limits {
         why
     }
 }
+
+/// A number in a message: as written in a file, but in scientific notation when it would
+/// take more than about 16 digits (1e308 is not printed as 309 of them).
+pub fn shown(x: f64) -> String {
+    let a = x.abs();
+    if a != 0.0 && a.is_finite() && !(1e-5..1e16).contains(&a) {
+        format!("{x:e}")
+    } else {
+        format!("{x}")
+    }
+}
+
+/// Largest concentration, mM: 10 M, beyond any salt's solubility in water.
+pub const MAX_CONCENTRATION_MM: f64 = 1e4;
+/// Shortest time constant (of a gate, a lag, an onset or a washout), ms: 1 µs, faster than any
+/// channel's gating; shorter ones only make the equations stiff beyond what a step resolves.
+pub const MIN_TIME_CONSTANT_MS: f64 = 1e-3;
+/// Largest Hill coefficient: published ones stay below about 10.
+pub const MAX_HILL: f64 = 20.0;
 
 /// How a value is written in a field.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -357,7 +412,13 @@ pub static FIELDS: &[Field] = &[
         path: "cell.diameter_um",
         unit: "µm",
         label: "cell diameter",
-        limits: Limits::Positive("the cell diameter"),
+        limits: Limits::Within {
+            what: "the cell diameter",
+            unit: "µm",
+            lo: 0.1,
+            hi: 10000.0,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.1 },
         span: Span::Auto,
@@ -367,7 +428,13 @@ pub static FIELDS: &[Field] = &[
         path: "cell.capacitance_uf_per_cm2",
         unit: "µF/cm²",
         label: "membrane capacitance",
-        limits: Limits::Positive("the membrane capacitance"),
+        limits: Limits::Within {
+            what: "the membrane capacitance",
+            unit: "µF/cm²",
+            lo: 0.01,
+            hi: 100.0,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.01 },
         span: Span::Auto,
@@ -392,7 +459,13 @@ pub static FIELDS: &[Field] = &[
         path: "species[].inside_mm",
         unit: "mM",
         label: "inside",
-        limits: Limits::NonNegative("a concentration"),
+        limits: Limits::Within {
+            what: "a concentration",
+            unit: "mM",
+            lo: 0.0,
+            hi: MAX_CONCENTRATION_MM,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: CONCENTRATION_DRAG,
         span: Span::Auto,
@@ -402,7 +475,13 @@ pub static FIELDS: &[Field] = &[
         path: "species[].outside_mm",
         unit: "mM",
         label: "outside",
-        limits: Limits::NonNegative("a concentration"),
+        limits: Limits::Within {
+            what: "a concentration",
+            unit: "mM",
+            lo: 0.0,
+            hi: MAX_CONCENTRATION_MM,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: CONCENTRATION_DRAG,
         span: Span::Auto,
@@ -412,7 +491,13 @@ pub static FIELDS: &[Field] = &[
         path: "species[].permeability_cm_per_s",
         unit: "cm/s",
         label: "permeability",
-        limits: Limits::NonNegative("a permeability"),
+        limits: Limits::Within {
+            what: "a permeability",
+            unit: "cm/s",
+            lo: 0.0,
+            hi: 1.0,
+            zero_ok: false,
+        },
         style: Style::Scientific,
         drag: PERMEABILITY_DRAG,
         span: Span::Auto,
@@ -447,7 +532,13 @@ pub static FIELDS: &[Field] = &[
         path: "pump.max_current_ua_per_cm2",
         unit: "µA/cm²",
         label: "largest current",
-        limits: Limits::NonNegative("the pump current"),
+        limits: Limits::Within {
+            what: "the pump current",
+            unit: "µA/cm²",
+            lo: 0.0,
+            hi: 1000.0,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.01 },
         span: Span::Auto,
@@ -457,7 +548,13 @@ pub static FIELDS: &[Field] = &[
         path: "pump.half_saturation_inside_mm",
         unit: "mM",
         label: "half-activation inside",
-        limits: Limits::Positive("a half-saturation concentration"),
+        limits: Limits::Within {
+            what: "a half-saturation concentration",
+            unit: "mM",
+            lo: 1e-6,
+            hi: MAX_CONCENTRATION_MM,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: CONCENTRATION_DRAG,
         span: Span::Auto,
@@ -467,7 +564,13 @@ pub static FIELDS: &[Field] = &[
         path: "pump.half_saturation_outside_mm",
         unit: "mM",
         label: "half-activation outside",
-        limits: Limits::Positive("a half-saturation concentration"),
+        limits: Limits::Within {
+            what: "a half-saturation concentration",
+            unit: "mM",
+            lo: 1e-6,
+            hi: MAX_CONCENTRATION_MM,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: CONCENTRATION_DRAG,
         span: Span::Auto,
@@ -477,7 +580,13 @@ pub static FIELDS: &[Field] = &[
         path: "pump.hill_inside",
         unit: "",
         label: "Hill coefficient inside",
-        limits: Limits::Positive("a Hill coefficient"),
+        limits: Limits::Within {
+            what: "a Hill coefficient",
+            unit: "",
+            lo: 0.1,
+            hi: MAX_HILL,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.02 },
         span: COEFFICIENT_SPAN,
@@ -487,7 +596,13 @@ pub static FIELDS: &[Field] = &[
         path: "pump.hill_outside",
         unit: "",
         label: "Hill coefficient outside",
-        limits: Limits::Positive("a Hill coefficient"),
+        limits: Limits::Within {
+            what: "a Hill coefficient",
+            unit: "",
+            lo: 0.1,
+            hi: MAX_HILL,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.02 },
         span: COEFFICIENT_SPAN,
@@ -497,7 +612,13 @@ pub static FIELDS: &[Field] = &[
         path: "channels[].max_permeability_cm_per_s",
         unit: "cm/s",
         label: "largest permeability",
-        limits: Limits::NonNegative("a permeability"),
+        limits: Limits::Within {
+            what: "a permeability",
+            unit: "cm/s",
+            lo: 0.0,
+            hi: 1.0,
+            zero_ok: false,
+        },
         style: Style::Scientific,
         drag: PERMEABILITY_DRAG,
         span: Span::Auto,
@@ -509,7 +630,13 @@ pub static FIELDS: &[Field] = &[
         path: "channels[].shift_mv",
         unit: "mV",
         label: "voltage shift",
-        limits: Limits::Finite,
+        limits: Limits::Within {
+            what: "a voltage shift",
+            unit: "mV",
+            lo: -1000.0,
+            hi: 1000.0,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.1 },
         span: POTENTIAL_SPAN,
@@ -519,7 +646,13 @@ pub static FIELDS: &[Field] = &[
         path: "channels[].q10",
         unit: "",
         label: "q10",
-        limits: Limits::Positive("q10"),
+        limits: Limits::Within {
+            what: "q10",
+            unit: "",
+            lo: 0.1,
+            hi: 10.0,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.02 },
         span: COEFFICIENT_SPAN,
@@ -556,7 +689,13 @@ pub static FIELDS: &[Field] = &[
         path: "channels[].gates[].kinetics.v_half_mv",
         unit: "mV",
         label: "half-activation potential",
-        limits: Limits::Finite,
+        limits: Limits::Within {
+            what: "a half-activation potential",
+            unit: "mV",
+            lo: -1000.0,
+            hi: 1000.0,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.1 },
         span: POTENTIAL_SPAN,
@@ -583,7 +722,13 @@ pub static FIELDS: &[Field] = &[
         path: "channels[].gates[].kinetics.tau_ms",
         unit: "ms",
         label: "time constant",
-        limits: Limits::Positive("the time constant"),
+        limits: Limits::Within {
+            what: "the time constant",
+            unit: "ms",
+            lo: MIN_TIME_CONSTANT_MS,
+            hi: 1e9,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: TIME_CONSTANT_DRAG,
         span: Span::Auto,
@@ -593,7 +738,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].factor",
         unit: "",
         label: "factor",
-        limits: Limits::NonNegative("a permeability factor"),
+        limits: Limits::Within {
+            what: "a permeability factor",
+            unit: "",
+            lo: 0.0,
+            hi: 1e6,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Log { floor: 0.01 },
         span: Span::Auto,
@@ -603,7 +754,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].outside_mm",
         unit: "mM",
         label: "new bath concentration",
-        limits: Limits::NonNegative("a concentration"),
+        limits: Limits::Within {
+            what: "a concentration",
+            unit: "mM",
+            lo: 0.0,
+            hi: MAX_CONCENTRATION_MM,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: CONCENTRATION_DRAG,
         span: Span::Auto,
@@ -638,7 +795,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].ic50_um",
         unit: "µM",
         label: "IC50",
-        limits: Limits::Positive("the IC50"),
+        limits: Limits::Within {
+            what: "the IC50",
+            unit: "µM",
+            lo: 1e-9,
+            hi: 1e9,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Log { floor: 0.01 },
         span: Span::Auto,
@@ -648,7 +811,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].hill",
         unit: "",
         label: "Hill coefficient",
-        limits: Limits::Positive("the Hill coefficient"),
+        limits: Limits::Within {
+            what: "the Hill coefficient",
+            unit: "",
+            lo: 0.1,
+            hi: MAX_HILL,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.02 },
         span: COEFFICIENT_SPAN,
@@ -658,7 +827,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].dose_um",
         unit: "µM",
         label: "dose",
-        limits: Limits::NonNegative("a dose"),
+        limits: Limits::Within {
+            what: "a dose",
+            unit: "µM",
+            lo: 0.0,
+            hi: 1e9,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Log { floor: 0.01 },
         span: Span::Auto,
@@ -668,7 +843,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].amplitude_ua_per_cm2",
         unit: "µA/cm²",
         label: "amplitude",
-        limits: Limits::Finite,
+        limits: Limits::Within {
+            what: "an injected current",
+            unit: "µA/cm²",
+            lo: -10000.0,
+            hi: 10000.0,
+            zero_ok: false,
+        },
         style: Style::Plain,
         drag: Drag::Linear { per_point: 0.1 },
         span: Span::Symmetric,
@@ -711,7 +892,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].lag_ms",
         unit: "ms",
         label: "lag",
-        limits: Limits::NonNegative("a lag"),
+        limits: Limits::Within {
+            what: "a lag",
+            unit: "ms",
+            lo: MIN_TIME_CONSTANT_MS,
+            hi: 1e9,
+            zero_ok: true,
+        },
         style: Style::Plain,
         drag: TIME_CONSTANT_DRAG,
         span: Span::Auto,
@@ -723,7 +910,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].onset_ms",
         unit: "ms",
         label: "onset time constant",
-        limits: Limits::NonNegative("a time constant"),
+        limits: Limits::Within {
+            what: "a time constant",
+            unit: "ms",
+            lo: MIN_TIME_CONSTANT_MS,
+            hi: 1e9,
+            zero_ok: true,
+        },
         style: Style::Plain,
         drag: TIME_CONSTANT_DRAG,
         span: Span::Auto,
@@ -733,7 +926,13 @@ pub static FIELDS: &[Field] = &[
         path: "protocol[].washout_ms",
         unit: "ms",
         label: "washout time constant",
-        limits: Limits::NonNegative("a time constant"),
+        limits: Limits::Within {
+            what: "a time constant",
+            unit: "ms",
+            lo: MIN_TIME_CONSTANT_MS,
+            hi: 1e9,
+            zero_ok: true,
+        },
         style: Style::Plain,
         drag: TIME_CONSTANT_DRAG,
         span: Span::Auto,

@@ -22,7 +22,11 @@ pub use edit::{
 pub use events::{Interval, Wording};
 pub use fields::{Address, AddressError, Drag, Span, Style};
 pub use read::{Location, Problem, ScenarioError, from_str, read_file};
-pub use save::{save_atomic, to_ron, to_ron_string, write_atomic, write_atomic_with};
+pub(crate) use save::through_links;
+pub use save::{
+    Durability, pending_temporaries, save_atomic, to_ron, to_ron_string, write_atomic, write_atomic_with,
+    write_replacing,
+};
 pub use valid::{Invalid, Valid, validate};
 pub use validate::{MAX_OUTPUT_SAMPLES, problems, warnings};
 

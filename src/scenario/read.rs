@@ -95,6 +95,17 @@ pub fn read_file(path: &Path) -> Result<Valid, ScenarioError> {
         file: file.clone(),
         reason,
     };
+    // A named pipe nobody writes to would block the open for ever. (A pipe the shell made,
+    // `<(…)` as `/dev/fd/N`, has its writer and is read as usual.)
+    #[cfg(unix)]
+    if let Ok(m) = std::fs::metadata(path)
+        && std::os::unix::fs::FileTypeExt::is_fifo(&m.file_type())
+        && !(path.starts_with("/dev/") || path.starts_with("/proc/"))
+    {
+        return Err(io(std::io::Error::other(
+            "it is a named pipe (FIFO), not a scenario file; save the scenario to a file and give that",
+        )));
+    }
     let mut bytes = Vec::new();
     std::fs::File::open(path)
         .and_then(|f| f.take(MAX_FILE_BYTES + 1).read_to_end(&mut bytes))

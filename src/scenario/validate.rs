@@ -14,6 +14,17 @@ pub const MAX_GATE_POWER: u32 = 16;
 /// Most injected-pulse edges a run may hold (two per pulse): the stepper stops at each one.
 pub const MAX_PULSE_EDGES: f64 = 1e7;
 
+/// Most species a scenario may hold. With concentrations tracked each is a state component;
+/// the implicit stepper's Jacobian grows with the square of the state and its factorisation
+/// with the cube, so the model's size is bounded here rather than by the memory of the machine.
+pub const MAX_SPECIES: usize = 50;
+/// Most gated channels.
+pub const MAX_CHANNELS: usize = 32;
+/// Most gates of one channel (published channels have two or three).
+pub const MAX_GATES_PER_CHANNEL: usize = 6;
+/// Most protocol events (each may add a lagged input to the state).
+pub const MAX_EVENTS: usize = 200;
+
 /// Temperatures outside which a warning is shown, °C (the refused range is the row's).
 const WARN_BELOW_C: f64 = 0.0;
 const WARN_ABOVE_C: f64 = 45.0;
@@ -52,6 +63,27 @@ impl Checker {
         }
     }
 
+    /// A list longer than the program handles.
+    fn count(&mut self, path: &str, n: usize, max: usize, what: &str) {
+        if n > max {
+            self.fail(
+                path,
+                format!("{n} {what}, more than the {max} a scenario may hold"),
+            );
+        }
+    }
+
+    /// A name or label: control characters (a tab, a line break, an escape) cannot be shown in
+    /// tables, CSV headers or figures.
+    fn plain_text(&mut self, path: &str, what: &str, text: &str) {
+        if text.chars().any(char::is_control) {
+            self.fail(
+                path,
+                format!("{what} cannot hold control characters such as tabs or line breaks"),
+            );
+        }
+    }
+
     fn species_name(&mut self, path: &str, name: &str, known: &[&str]) {
         if !known.contains(&name) {
             let message = match super::read::nearest(name, known) {
@@ -68,6 +100,11 @@ impl Checker {
             self.fail(path, message);
         }
     }
+}
+
+/// A name as a reader takes it: capitals and surrounding spaces do not make another ion.
+fn alike(name: &str) -> String {
+    name.trim().to_lowercase()
 }
 
 /// No bound across fields beside a number.
@@ -103,18 +140,32 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
     if s.species.is_empty() {
         c.fail("species", "at least one species is needed");
     }
+    c.count("species", s.species.len(), MAX_SPECIES, "species");
+    c.count("channels", s.channels.len(), MAX_CHANNELS, "gated channels");
+    c.count("protocol", s.protocol.len(), MAX_EVENTS, "events");
     let mut seen = HashSet::new();
+    let mut seen_alike: Vec<(String, &str)> = Vec::new();
     for (i, sp) in s.species.iter().enumerate() {
         let p = format!("species[{i}]");
         if sp.name.trim().is_empty() {
             c.fail(format!("{p}.name"), "a species needs a name");
         }
+        c.plain_text(&format!("{p}.name"), "a species name", &sp.name);
         if !seen.insert(sp.name.as_str()) {
             c.fail(
                 format!("{p}.name"),
                 format!("two species are named \"{}\"; names must be unique", sp.name),
             );
+        } else if let Some((_, other)) = seen_alike.iter().find(|(k, _)| *k == alike(&sp.name)) {
+            c.fail(
+                format!("{p}.name"),
+                format!(
+                    "\"{}\" differs from the species \"{other}\" only in capitals or spaces, so the two read as one ion; rename one",
+                    sp.name
+                ),
+            );
         }
+        seen_alike.push((alike(&sp.name), sp.name.as_str()));
         c.numbers(s, Part::Species, &[i], alone);
     }
     let names: Vec<&str> = s.species.iter().map(|x| x.name.as_str()).collect();
@@ -160,11 +211,18 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
                 ),
             );
         }
+        c.plain_text(&format!("{p}.label"), "a channel label", &ch.label);
         c.species_name(&format!("{p}.species"), &ch.species, &names);
         c.numbers(s, Part::Channel, &[i], alone);
         if ch.gates.is_empty() {
             c.fail(format!("{p}.gates"), "a gated channel needs at least one gate");
         }
+        c.count(
+            &format!("{p}.gates"),
+            ch.gates.len(),
+            MAX_GATES_PER_CHANNEL,
+            "gates",
+        );
         for j in 0..ch.gates.len() {
             c.numbers(s, Part::Gate, &[i, j], alone);
         }
@@ -180,10 +238,15 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
     }
 
     let mut agents = HashSet::new();
+    // Pulses of every train together: the stepper stops at each edge of each of them.
+    let mut pulses_in_run = 0.0;
     for (i, ev) in s.protocol.iter().enumerate() {
         let p = format!("protocol[{i}]");
         if let Some(sp) = ev.species() {
             c.species_name(&format!("{p}.species"), sp, &names);
+        }
+        if let Event::Agent { label, .. } = ev {
+            c.plain_text(&format!("{p}.label"), "an agent label", label);
         }
         if let Event::Agent { label, .. } = ev
             && !agents.insert(label.as_str())
@@ -226,12 +289,15 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
             if *period_ms > 0.0 && *width_ms > 0.0 && s.run.duration_ms.is_finite() && from_ms.is_finite() {
                 let within = ((s.run.duration_ms - from_ms) / period_ms).floor() + 1.0;
                 let pulses = within.clamp(0.0, f64::from(*count));
-                if 2.0 * pulses > MAX_PULSE_EDGES {
+                pulses_in_run += pulses;
+                if 2.0 * pulses_in_run > MAX_PULSE_EDGES {
                     c.fail(
                         format!("{p}.count"),
-                        format!("{pulses:.0} pulses fall within the run, more than the limit of {:.0}; use a longer period or fewer pulses", MAX_PULSE_EDGES / 2.0),
+                        format!("{} pulses fall within the run (this train and those before it), more than the limit of {:.0} a run may hold; use a longer period or fewer pulses", pulses_in_run, MAX_PULSE_EDGES / 2.0),
                     );
-                } else if pulses > 0.0 && *width_ms < 1e-9 * (from_ms + pulses * period_ms).max(1.0) {
+                } else if pulses > 0.0
+                    && *width_ms < 1e-9 * (from_ms + (pulses - 1.0) * period_ms + width_ms).max(1.0)
+                {
                     c.fail(
                         format!("{p}.width_ms"),
                         format!("a pulse of {width_ms} ms is too short to tell its start from its end this far into the run"),
