@@ -422,3 +422,192 @@ fn fit_data_is_read_with_a_size_cap() {
     ]);
     assert_bad_input(&o, &["/dev/zero", "larger than"]);
 }
+
+// --------------------------------------------- classes 4 and 5: size and stiffness
+
+#[test]
+fn a_model_beyond_the_size_limits_is_refused_by_check() {
+    let mut species = String::new();
+    for k in 0..48 {
+        species += &format!(
+            "(name: \"X{k}\", charge: 1, inside_mm: 10.0, outside_mm: 10.0, permeability_cm_per_s: 1.0e-9),\n"
+        );
+    }
+    let fifty = CELL.replace("species: [\n", &format!("species: [\n{species}"));
+    let sb = Sandbox::with("fifty.ron", &fifty);
+    sb.ok(&["check", "fifty.ron"]);
+    let fifty_one = fifty.replace("species: [\n", "species: [\n(name: \"Y\", charge: 1, inside_mm: 1.0, outside_mm: 1.0, permeability_cm_per_s: 0.0),\n");
+    sb.write("more.ron", fifty_one);
+    let o = sb.run(&["check", "more.ron"]);
+    assert_bad_input(&o, &["more.ron", "species: 51 species, more than the 50"]);
+}
+
+#[test]
+fn a_time_constant_too_short_to_integrate_is_refused() {
+    let gated = CELL.replace(
+        "    run:",
+        "    cell: (track_concentrations: true),\n    channels: [(label: \"fast\", species: \"K+\", max_permeability_cm_per_s: 1.0e-6,\n        gates: [(kinetics: Boltzmann(v_half_mv: -40.0, slope_mv: 5.0, tau_ms: 1.0e-20), power: 1)])],\n    run:",
+    );
+    let sb = Sandbox::with("stiff.ron", gated);
+    let o = sb.run(&["check", "stiff.ron"]);
+    assert_bad_input(
+        &o,
+        &[
+            "channels[0].gates[0].kinetics.tau_ms",
+            "from 0.001 to 1000000000 ms (got 1e-20)",
+        ],
+    );
+}
+
+// --------------------------------------------- class 6: check and run agree
+
+#[test]
+fn check_warns_when_run_cannot_start_and_run_says_why() {
+    // Only K+ is permeant and none is inside: its current is inward at every potential, so
+    // there is no resting potential to start from.
+    let no_rest = CELL
+        .replace("inside_mm: 120.0", "inside_mm: 0.0")
+        .replace("permeability_cm_per_s: 1.0e-8", "permeability_cm_per_s: 0.0");
+    let sb = Sandbox::with("norest.ron", no_rest);
+    let o = sb.run(&["check", "norest.ron"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("`permeant run` cannot start this scenario"),
+        "{}",
+        stderr(&o)
+    );
+    let o = sb.run(&["run", "norest.ron", "--csv", "out.csv"]);
+    assert_bad_input(&o, &["norest.ron", "cannot start at rest"]);
+}
+
+#[test]
+fn a_run_that_leaves_the_models_range_exits_2_with_quantity_time_and_reason() {
+    let pushed = CELL.replace(
+        "    run:",
+        "    protocol: [Inject(amplitude_ua_per_cm2: -10000.0, from_ms: 1.0, until_ms: 6.0)],\n    run:",
+    );
+    let sb = Sandbox::with("pushed.ron", pushed);
+    sb.ok(&["check", "pushed.ron"]);
+    let o = sb.run(&["run", "pushed.ron", "--csv", "out.csv"]);
+    assert_bad_input(&o, &["pushed.ron", "at t = ", "v_mv", "±1000 mV"]);
+    assert_eq!(names_in(sb.path(".").as_path()), ["pushed.ron"], "no partial CSV");
+}
+
+// ------------------------------------------------------------ class 11: smaller
+
+#[test]
+fn names_that_read_as_one_ion_are_refused() {
+    let sb = Sandbox::new();
+    for (other, name) in [("k+", "k+"), ("K+ ", "K+ ")] {
+        sb.write(
+            "alike.ron",
+            CELL.replace("name: \"Na+\"", &format!("name: \"{other}\"")),
+        );
+        let o = sb.run(&["check", "alike.ron"]);
+        assert_bad_input(&o, &["species[1].name", name, "only in capitals or spaces"]);
+    }
+}
+
+#[test]
+fn control_characters_in_names_are_refused() {
+    let sb = Sandbox::with("ctl.ron", CELL.replace("name: \"Na+\"", "name: \"Na\\u{1b}+\""));
+    let o = sb.run(&["check", "ctl.ron"]);
+    assert_bad_input(&o, &["species[1].name", "control characters"]);
+}
+
+#[test]
+fn the_pulse_limit_counts_every_train_of_the_run() {
+    // Ten trains of 600,000 pulses: each under the limit of 5 million, together over it.
+    let train = "InjectTrain(amplitude_ua_per_cm2: 1.0, from_ms: 0.0, width_ms: 0.0001, period_ms: 0.0002, count: 600000)";
+    let trains = vec![train; 10].join(", ");
+    let s = cell_running("200.0", "1.0").replace("    run:", &format!("    protocol: [{trains}],\n    run:"));
+    let sb = Sandbox::with("trains.ron", s);
+    let o = sb.run(&["check", "trains.ron"]);
+    assert_bad_input(&o, &["protocol[8].count", "this train and those before it"]);
+}
+
+#[test]
+fn a_single_pulse_late_in_a_long_period_is_accepted() {
+    let s = cell_running("10.0", "0.5").replace(
+        "    run:",
+        "    protocol: [InjectTrain(amplitude_ua_per_cm2: 1.0, from_ms: 2.0, width_ms: 1.0, period_ms: 1.0e12, count: 1)],\n    run:",
+    );
+    let sb = Sandbox::with("one.ron", s);
+    sb.ok(&["check", "one.ron"]);
+}
+
+#[test]
+fn huge_numbers_in_messages_are_written_readably() {
+    let sb = Sandbox::with("big.ron", CELL.replace("outside_mm: 6.0", "outside_mm: 1e300"));
+    let o = sb.run(&["check", "big.ron"]);
+    assert_bad_input(&o, &["species[0].outside_mm", "(got 1e300)"]);
+    assert!(!stderr(&o).contains("000000000000000000000"), "{}", stderr(&o));
+}
+
+#[test]
+fn a_sample_interval_a_hair_longer_than_the_run_writes_no_row_after_the_end() {
+    let sb = Sandbox::with("cell.ron", cell_running("200.0", "1.0"));
+    let out = sb.ok(&[
+        "run",
+        "cell.ron",
+        "--csv",
+        "-",
+        "--sample-ms",
+        "200.0000001",
+        "--columns",
+        "v",
+    ]);
+    let times: Vec<f64> = out
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').next().and_then(|t| t.parse().ok()).expect("a time"))
+        .collect();
+    assert_eq!(times, [0.0, 200.0]);
+}
+
+#[test]
+fn carriage_return_line_ends_give_the_real_line() {
+    // Line 9 (the run) has a bad value; the comment on line 1 must not swallow the file.
+    let text = format!(
+        "// old line ends\n{}",
+        CELL.replace("duration_ms: 10.0", "duration_ms: \"ten\"")
+    );
+    let sb = Sandbox::with("cr.ron", text.replace('\n', "\r"));
+    let o = sb.run(&["check", "cr.ron"]);
+    assert_bad_input(&o, &["cr.ron:10:"]);
+}
+
+#[test]
+fn a_mistyped_command_is_named_with_the_nearest_one() {
+    let sb = Sandbox::new();
+    let o = sb.run(&["chek"]);
+    assert_bad_input(&o, &["`chek` is not a command", "permeant check"]);
+}
+
+#[cfg(unix)]
+#[test]
+fn a_fifo_as_the_scenario_is_refused_at_once() {
+    let sb = Sandbox::new();
+    let made = Command::new("mkfifo")
+        .arg(sb.path("pipe.ron"))
+        .status()
+        .expect("mkfifo runs");
+    assert!(made.success());
+    let o = sb.run(&["check", "pipe.ron"]);
+    assert_bad_input(&o, &["pipe.ron", "named pipe"]);
+}
+
+#[cfg(all(feature = "gui", target_os = "linux"))]
+#[test]
+fn without_a_display_the_window_says_so_in_plain_words() {
+    let sb = Sandbox::with("cell.ron", CELL);
+    let o = Command::new(env!("CARGO_BIN_EXE_permeant"))
+        .arg("cell.ron")
+        .current_dir(sb.path("."))
+        .env_remove("DISPLAY")
+        .env_remove("WAYLAND_DISPLAY")
+        .output()
+        .expect("runs");
+    assert_bad_input(&o, &["no display is available", "permeant run FILE --csv OUT"]);
+    assert!(!stderr(&o).contains(".rs"), "{}", stderr(&o));
+}

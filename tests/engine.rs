@@ -826,7 +826,8 @@ fn start_voltage_sets_the_gates_to_their_steady_state_there() {
 }
 
 /// model.md's output rule: N = floor(duration/sample + 1e-9) may place the last grid sample a
-/// hair past the duration; it is still written (a review found it dropped once).
+/// hair past the duration; it is still written (a review found it dropped once), at the
+/// duration itself, since no row may lie after the end of the run (issue 14).
 #[test]
 fn a_last_grid_sample_just_past_the_duration_is_still_written() {
     let mut s = permeant::scenario::Scenario::new_default();
@@ -834,7 +835,68 @@ fn a_last_grid_sample_just_past_the_duration_is_still_written() {
     s.run.sample_ms = 1.000_000_000_5;
     let mut run = Run::new(&valid(&s), SolverSettings::default()).unwrap();
     run.run_to_end().unwrap();
-    assert_eq!(run.trace().t_ms, vec![0.0, 1.000_000_000_5]);
+    assert_eq!(run.trace().t_ms, vec![0.0, 1.0]);
+}
+
+/// A run that takes far more steps per simulated time than any cell needs stops with the
+/// quantity that changes fastest, instead of running for hours. A largest step of 1e-6 ms
+/// asks for 10⁶ steps per ms, fifty times the budget.
+#[test]
+fn a_run_over_its_step_budget_stops_naming_the_fastest_quantity() {
+    let s = excitable(6.3, &pulse(20.0, 1.0, 1.0), 10.0);
+    let settings = SolverSettings {
+        h_max_ms: 1e-6,
+        ..Default::default()
+    };
+    let mut r = Run::new(&valid(&s), settings).unwrap();
+    match r.run_to_end() {
+        Err(e @ EngineError::StepBudget { .. }) => {
+            let EngineError::StepBudget {
+                t_ms,
+                steps,
+                ref quantity,
+                timescale_ms,
+            } = e
+            else {
+                unreachable!()
+            };
+            assert!(t_ms > 0.0 && t_ms < 1.0, "{e}");
+            assert!(steps > permeant::engine::run::STEP_BUDGET_BASE, "{e}");
+            // At rest the sodium activation gate (HH 1952: τm ≈ 0.2–0.5 ms at 6.3 °C) is the
+            // fastest component of this cell.
+            assert_eq!(quantity, "gate:fast sodium:m", "{e}");
+            assert!(timescale_ms > 0.01 && timescale_ms < 2.0, "{e}");
+            let message = e.to_string();
+            assert!(
+                message.contains("gate:fast sodium:m") && message.contains("budget"),
+                "{message}"
+            );
+        }
+        other => panic!("expected a stop by the step budget, got {other:?}"),
+    }
+}
+
+/// An injection strong enough to drive the potential past ±1000 mV stops the run there with
+/// the quantity, the time and the reason (it once ended as an internal failure).
+#[test]
+fn a_potential_leaving_the_models_range_stops_the_run_with_the_reason() {
+    let s = passive(&pulse(-10000.0, 1.0, 5.0), 10.0, 0.1, "Rest");
+    let mut r = Run::new(&valid(&s), SolverSettings::default()).unwrap();
+    match r.run_to_end() {
+        Err(e @ EngineError::OutOfRange { .. }) => {
+            let message = e.to_string();
+            assert!(
+                message.contains("v_mv") && message.contains("1000 mV"),
+                "{message}"
+            );
+            let EngineError::OutOfRange { t_ms, value, .. } = e else {
+                unreachable!()
+            };
+            assert!((1.0..=6.0).contains(&t_ms), "{t_ms}");
+            assert!(value < -1000.0, "{value}");
+        }
+        other => panic!("expected a stop out of range, got {other:?}"),
+    }
 }
 
 // ---------------------------------------------------------------------------------------------

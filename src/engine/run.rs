@@ -222,9 +222,11 @@ impl Run {
         self.model.duration_ms
     }
 
-    /// Output time of sample `k`: a product, never a running sum (model.md).
+    /// Output time of sample `k`: a product, never a running sum (model.md). The slack of
+    /// [`Run::grid_len`] can put the last sample a hair past the duration (`--sample-ms
+    /// 200.0000001` on a 200 ms run); it is taken at the duration, so no row lies after the end.
     fn sample_time(&self, k: u64) -> f64 {
-        k as f64 * self.model.sample_ms
+        (k as f64 * self.model.sample_ms).min(self.model.duration_ms)
     }
 
     /// Number of grid samples `N + 1` with `N = floor(duration/sample + 1e-9)`.

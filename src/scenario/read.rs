@@ -154,6 +154,16 @@ struct FormatProbe {
 pub fn from_str(text: &str, file: &str) -> Result<Valid, ScenarioError> {
     // Some editors start a UTF-8 file with an invisible byte-order mark; it is not part of RON.
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // Line ends of a lone carriage return (classic Mac OS, some exports) are line ends to the
+    // user but not to RON, whose `//` comment would then run to the end of the file and turn
+    // every message into "line 1, column 1262".
+    let unified;
+    let text = if text.replace("\r\n", "").contains('\r') {
+        unified = text.replace("\r\n", "\n").replace('\r', "\n");
+        unified.as_str()
+    } else {
+        text
+    };
     if text.trim().is_empty() {
         return Err(ScenarioError::Syntax {
             file: file.into(),
