@@ -519,7 +519,7 @@ fn control_characters_in_names_are_refused() {
 fn the_pulse_limit_counts_every_train_of_the_run() {
     // Ten trains of 600,000 pulses: each under the limit of 5 million, together over it.
     let train = "InjectTrain(amplitude_ua_per_cm2: 1.0, from_ms: 0.0, width_ms: 0.0001, period_ms: 0.0002, count: 600000)";
-    let trains = vec![train; 10].join(", ");
+    let trains = [train; 10].join(", ");
     let s = cell_running("200.0", "1.0").replace("    run:", &format!("    protocol: [{trains}],\n    run:"));
     let sb = Sandbox::with("trains.ron", s);
     let o = sb.run(&["check", "trains.ron"]);
