@@ -323,4 +323,33 @@ mod tests {
         let short = decimate_min_max(&t[..9], &y[..9], (0.0, 9.0), 50);
         assert_eq!(short.len(), 6);
     }
+
+    /// The envelope fed chunk by chunk keeps, per column, the same extreme values as thinning
+    /// the whole trace at once, at their own times, and no more than two points a column.
+    #[test]
+    fn an_envelope_of_streamed_chunks_keeps_each_columns_extremes() {
+        let (t, y) = ramp(300_000);
+        let range = (0.0, t[t.len() - 1]);
+        let mut env = Envelope::new(range, 500);
+        for chunk in (0..t.len()).step_by(4096) {
+            let end = (chunk + 4096).min(t.len());
+            env.extend(&t[chunk..end], &y[chunk..end]);
+        }
+        let (et, ey) = env.points();
+        assert!(et.len() <= 2 * 500 + 2, "{}", et.len());
+        assert!(et.windows(2).all(|w| w[0] <= w[1]), "in time order");
+        assert_eq!((et[0], ey[0]), (t[0], y[0]), "the first sample");
+        assert_eq!(et.last(), t.last(), "the last sample");
+        let whole = decimate_min_max(&t, &y, range, 500);
+        let lowest = |v: &[f64]| v.iter().copied().fold(f64::INFINITY, f64::min);
+        let highest = |v: &[f64]| v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let wy: Vec<f64> = whole.iter().map(|p| p[1]).collect();
+        assert_eq!(lowest(&ey), lowest(&wy));
+        assert_eq!(highest(&ey), highest(&wy));
+        // Each envelope point is a real sample.
+        for (a, b) in et.iter().zip(&ey) {
+            let k = t.partition_point(|x| x < a);
+            assert_eq!(y[k], *b);
+        }
+    }
 }
