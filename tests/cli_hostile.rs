@@ -611,3 +611,35 @@ fn without_a_display_the_window_says_so_in_plain_words() {
     assert_bad_input(&o, &["no display is available", "permeant run FILE --csv OUT"]);
     assert!(!stderr(&o).contains(".rs"), "{}", stderr(&o));
 }
+
+#[test]
+fn a_title_with_control_characters_still_gives_an_xml_figure() {
+    let sb = Sandbox::with(
+        "ctl.ron",
+        CELL.replace(
+            "title: \"Hostile targets\"",
+            "title: \"tab\\there, bell\\u{7}, line\\nbreak\"",
+        ),
+    );
+    sb.ok(&["run", "ctl.ron", "--csv", "out.csv", "--svg", "out.svg"]);
+    let svg = sb.read("out.svg");
+    roxmltree::Document::parse(&svg).unwrap_or_else(|e| panic!("not XML: {e}"));
+}
+
+#[test]
+fn absent_ions_are_not_blamed_on_the_permeabilities() {
+    let empty = CELL
+        .replace(
+            "inside_mm: 120.0, outside_mm: 6.0",
+            "inside_mm: 0.0, outside_mm: 0.0",
+        )
+        .replace(
+            "inside_mm: 10.0, outside_mm: 140.0",
+            "inside_mm: 0.0, outside_mm: 0.0",
+        );
+    let sb = Sandbox::with("empty.ron", empty);
+    let o = sb.run(&["rest", "empty.ron"]);
+    let err = stderr(&o);
+    assert!(err.contains("0 mM on both sides"), "{err}");
+    assert!(!err.contains("no species has a resting permeability"), "{err}");
+}

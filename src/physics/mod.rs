@@ -84,7 +84,9 @@ pub enum Undefined {
         "the net current has no zero crossing at which it increases with potential between -1000 and +1000 mV"
     )]
     NoStableCrossing,
-    #[error("no permeant ion is present on either side, so no current flows at any potential")]
+    #[error(
+        "no current flows at any potential: every ion with a permeability is at 0 mM on both sides, or its permeability is scaled or blocked to 0"
+    )]
     NoCurrent,
     #[error("a concentration, permeability or temperature is not a finite number")]
     NotFinite,
@@ -123,11 +125,9 @@ pub fn ghk_potential_mv(ions: &[Ion], temperature_c: f64) -> Result<f64, Undefin
             })
             .sum()
     };
-    match steady::zero_current(&mut net, vec![-1000.0, 1000.0], false).resting_mv {
-        // Permeant ions absent on both sides: reported as before, as nothing permeant.
-        Err(Undefined::NoCurrent) => Err(Undefined::NothingPermeant),
-        other => other,
-    }
+    // Permeant ions absent on both sides is told as such (`NoCurrent`), not blamed on the
+    // permeabilities.
+    steady::zero_current(&mut net, vec![-1000.0, 1000.0], false).resting_mv
 }
 
 /// The closed-form GHK voltage equation, valid only when every permeant ion is monovalent.

@@ -103,6 +103,15 @@ fn rgb((r, g, b): (u8, u8, u8)) -> RGBColor {
     RGBColor(r, g, b)
 }
 
+/// `text` with each control character (a tab, a line break, an escape) as a space: XML 1.0
+/// cannot hold most of them, and a one-line caption shows none. Names and labels are refused
+/// with control characters by validation; a title may hold line breaks.
+fn printable(text: &str) -> String {
+    text.chars()
+        .map(|c| if c.is_control() { ' ' } else { c })
+        .collect()
+}
+
 /// Renders the figure as SVG text.
 pub fn render(fig: &Figure) -> Result<String, FigureError> {
     let mut out = String::new();
@@ -150,7 +159,7 @@ fn draw<DB: DrawingBackend>(
     let pad = ((hi - lo) * 0.08).max(2.0);
     let (lo, hi) = (lo - pad, hi + pad);
     let mut chart = ChartBuilder::on(root)
-        .caption(&fig.title, ("sans-serif", 24))
+        .caption(printable(&fig.title), ("sans-serif", 24))
         .margin(16)
         .x_label_area_size(52)
         .y_label_area_size(72)

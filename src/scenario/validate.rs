@@ -134,7 +134,6 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
             ),
         );
     }
-    c.plain_text("title", "a title", &s.title);
     c.numbers(s, Part::Scenario, &[], alone);
     c.numbers(s, Part::Cell, &[], alone);
 
