@@ -16,6 +16,7 @@ pub use run::{Budget, Progress, Run, SolverSettings, Trace};
 pub use stepper::{Method, Stats};
 
 use crate::physics::Undefined;
+use crate::scenario::fields::shown;
 
 /// Why a run could not start or continue. Every variant that happens in time carries the time.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -23,12 +24,13 @@ pub enum EngineError {
     #[error("cannot start at rest: {reason}")]
     NoRestingState { reason: Undefined },
     #[error(
-        "at t = {t_ms} ms the step size became too small to resolve {quantity}; the model is too stiff or changes too abruptly there"
+        "at t = {} ms the step size became too small to resolve {quantity}; the model is too stiff or changes too abruptly there",
+        shown(*t_ms)
     )]
     StepUnderflow { t_ms: f64, quantity: String },
-    #[error("at t = {t_ms} ms {quantity} became infinite or not a number")]
+    #[error("at t = {} ms {quantity} became infinite or not a number", shown(*t_ms))]
     NotFinite { t_ms: f64, quantity: String },
-    #[error("at t = {t_ms} ms {quantity} reached {value}, {reason}; the run stops there")]
+    #[error("at t = {} ms {quantity} reached {}, {reason}; the run stops there", shown(*t_ms), shown(*value))]
     OutOfRange {
         t_ms: f64,
         quantity: String,
@@ -36,7 +38,8 @@ pub enum EngineError {
         reason: &'static str,
     },
     #[error(
-        "at t = {t_ms} ms the run had taken {steps} steps, more than its budget ({} plus {} per simulated ms); {quantity} changes on a time scale of about {timescale_ms:.1e} ms, too fast to follow over this run",
+        "at t = {} ms the run had taken {steps} steps, more than its budget ({} plus {} per simulated ms); {quantity} changes on a time scale of about {timescale_ms:.1e} ms, too fast to follow over this run",
+        shown(*t_ms),
         run::STEP_BUDGET_BASE,
         run::STEP_BUDGET_PER_MS
     )]
