@@ -643,3 +643,48 @@ fn absent_ions_are_not_blamed_on_the_permeabilities() {
     assert!(err.contains("0 mM on both sides"), "{err}");
     assert!(!err.contains("no species has a resting permeability"), "{err}");
 }
+
+/// Peak resident memory (VmHWM) of a finished `permeant` run, MB, read from /proc while it runs.
+#[cfg(target_os = "linux")]
+fn peak_mb(sb: &Sandbox, args: &[&str]) -> f64 {
+    let mut child = Command::new(env!("CARGO_BIN_EXE_permeant"))
+        .args(args)
+        .current_dir(sb.path("."))
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .expect("runs");
+    let status = format!("/proc/{}/status", child.id());
+    let mut peak_kb = 0.0f64;
+    loop {
+        if let Ok(text) = std::fs::read_to_string(&status)
+            && let Some(kb) = text
+                .lines()
+                .find_map(|l| l.strip_prefix("VmHWM:"))
+                .and_then(|v| v.trim().trim_end_matches("kB").trim().parse::<f64>().ok())
+        {
+            peak_kb = peak_kb.max(kb);
+        }
+        if let Ok(Some(s)) = child.try_wait() {
+            assert!(s.success(), "{args:?}: {s}");
+            return peak_kb / 1024.0;
+        }
+        std::thread::sleep(Duration::from_millis(2));
+    }
+}
+
+/// Memory does not grow with the length of a run, figure included: twenty times the samples
+/// take no more than a few MB more at their peak.
+#[cfg(target_os = "linux")]
+#[test]
+fn memory_stays_flat_as_a_run_grows() {
+    let sb = Sandbox::new();
+    sb.write("short.ron", cell_running("10000.0", "0.1"));
+    sb.write("long.ron", cell_running("200000.0", "0.1"));
+    let short = peak_mb(&sb, &["run", "short.ron", "--csv", "a.csv", "--svg", "a.svg"]);
+    let long = peak_mb(&sb, &["run", "long.ron", "--csv", "b.csv", "--svg", "b.svg"]);
+    assert!(
+        long < short + 8.0,
+        "peak {short:.1} MB for 1e5 samples, {long:.1} MB for 2e6"
+    );
+}

@@ -100,6 +100,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     }
     remove_temporaries_on_interrupt();
     let chunk = (CHUNK_BYTES / (width * BYTES_PER_NUMBER)).clamp(16.0, 4096.0) as u32;
+    run.cap_trace(chunk as usize);
     let mut envelope = svg_out
         .as_ref()
         .map(|_| Envelope::new((0.0, s.run.duration_ms), svg::TRACE_COLUMNS));

@@ -163,6 +163,11 @@ pub struct Run {
     /// Steps accepted and command edges crossed so far, for the step budget.
     steps_taken: u64,
     edges_crossed: u64,
+    /// Most samples the trace holds before [`Run::advance`] returns (one long step of a quiet
+    /// cell can pass millions of output times).
+    trace_cap: usize,
+    /// Samples of the last step not yet emitted because the trace reached its cap.
+    dense_pending: bool,
 }
 
 impl Run {
@@ -190,7 +195,16 @@ impl Run {
             earlier_stats: Stats::default(),
             steps_taken: 0,
             edges_crossed: 0,
+            trace_cap: usize::MAX,
+            dense_pending: false,
         })
+    }
+
+    /// Makes [`Run::advance`] return once the trace holds `samples` samples, so that a caller
+    /// that drains the trace after each call (the command line's CSV) holds at most that many,
+    /// however long a step is. Without it the trace grows as the caller lets it (the window).
+    pub fn cap_trace(&mut self, samples: usize) {
+        self.trace_cap = samples.max(1);
     }
 
     pub fn model(&self) -> &Model {
@@ -242,8 +256,11 @@ impl Run {
 
     /// Emit grid samples with time `< t_limit` (or `≤` when `inclusive`) from the last step's
     /// dense output, or from the present state when they fall exactly on it.
+    /// With a trace cap ([`Run::cap_trace`]), samples from the dense output stop at the cap
+    /// and the rest of them are emitted by the next call to [`Run::advance`].
     fn emit_samples(&mut self, t_limit: f64, inclusive: bool, from_dense: bool) {
         let n = self.grid_len();
+        self.dense_pending = false;
         while self.next_sample < n {
             let ts = self.sample_time(self.next_sample);
             let due = if inclusive {
@@ -252,6 +269,10 @@ impl Run {
                 ts < t_limit
             };
             if !due {
+                break;
+            }
+            if from_dense && self.trace.len() >= self.trace_cap {
+                self.dense_pending = true;
                 break;
             }
             if from_dense && ts < self.t_ms {
@@ -272,6 +293,14 @@ impl Run {
         let duration = self.model.duration_ms;
         let mut steps = 0u64;
         loop {
+            if self.dense_pending {
+                // Samples of the last step held back by the trace cap; its dense output is
+                // still the stepper's, since no step has been taken since.
+                self.emit_samples(self.t_ms, false, true);
+                if self.dense_pending {
+                    return Ok(Progress::Running);
+                }
+            }
             if !self.segment_open {
                 self.model.begin_segment(&mut self.ws, self.t_ms, &mut self.y);
                 self.stepper.invalidate();
@@ -347,6 +376,9 @@ impl Run {
             if self.t_ms >= self.seg_end {
                 self.segment_open = false;
                 self.edges_crossed += 1;
+            }
+            if self.dense_pending {
+                return Ok(Progress::Running);
             }
         }
     }
