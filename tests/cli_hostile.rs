@@ -688,3 +688,25 @@ fn memory_stays_flat_as_a_run_grows() {
         "peak {short:.1} MB for 1e5 samples, {long:.1} MB for 2e6"
     );
 }
+
+#[test]
+fn a_mistyped_command_before_a_file_is_named_too() {
+    let sb = Sandbox::with("cell.ron", CELL);
+    let o = sb.run(&["chek", "cell.ron"]);
+    assert_bad_input(&o, &["`chek` is not a command", "permeant check"]);
+    // A scenario file and the real commands still work as before.
+    sb.ok(&["check", "cell.ron"]);
+    let o = sb.run(&[
+        "sweep",
+        "cell.ron",
+        "--vary",
+        "temperature_c",
+        "--from",
+        "20",
+        "--to",
+        "30",
+        "--points",
+        "2",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+}

@@ -59,6 +59,17 @@ enum Command {
 
 /// Parses the arguments, runs, and turns the outcome into command-line.md's exit status.
 pub fn main() -> ExitCode {
+    // A mistyped command followed by more words (`permeant chek f.ron`) would otherwise reach
+    // clap as a file name with stray arguments, and get its confusing message.
+    if let Some(first) = std::env::args_os().nth(1).map(PathBuf::from)
+        && !first.to_string_lossy().starts_with('-')
+        && !COMMANDS.contains(&first.to_string_lossy().as_ref())
+        && first.as_os_str() != "sweep"
+        && let Err(e) = not_a_command(Some(&first))
+    {
+        note(&format!("permeant: {e:#}"));
+        return ExitCode::from(2);
+    }
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {

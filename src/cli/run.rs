@@ -90,7 +90,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             rows,
             width,
             gigabytes(MAX_CSV_BYTES),
-            super::readable(s.run.sample_ms * estimate / MAX_CSV_BYTES * 1.01),
+            super::readable(round_up(s.run.sample_ms * estimate / MAX_CSV_BYTES)),
             if a.columns == Columns::Potential {
                 String::new()
             } else {
@@ -172,4 +172,13 @@ pub fn run(a: Args) -> anyhow::Result<()> {
 
 fn gigabytes(bytes: f64) -> String {
     format!("{} GB", super::readable(bytes / 1e9))
+}
+
+/// `x` rounded up to two significant digits (0.59994 → 0.6, 1234 → 1300), for a suggestion.
+fn round_up(x: f64) -> f64 {
+    if !(x.is_finite() && x > 0.0) {
+        return x;
+    }
+    let unit = 10f64.powf(x.log10().floor() - 1.0);
+    (x / unit).ceil() * unit
 }
