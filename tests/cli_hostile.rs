@@ -710,3 +710,13 @@ fn a_mistyped_command_before_a_file_is_named_too() {
     ]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
 }
+
+#[test]
+fn a_negative_sample_interval_gets_the_reason_not_a_parser_error() {
+    let sb = Sandbox::with("cell.ron", CELL);
+    let o = sb.run(&["run", "cell.ron", "--csv", "out.csv", "--sample-ms", "-3"]);
+    assert_bad_input(&o, &["--sample-ms -3", "greater than 0"]);
+    let o = sb.run(&["run", "cell.ron", "--csv", "out.csv", "--sample-ms", "fast"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("\"fast\" is not a number"), "{}", stderr(&o));
+}

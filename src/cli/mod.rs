@@ -227,3 +227,11 @@ pub fn readable(x: f64) -> String {
         format!("{x:.5e}")
     }
 }
+
+/// A number option: any number, negative ones included (the command says what range it
+/// takes), or a plain message instead of clap's.
+pub fn parse_number(text: &str) -> Result<f64, String> {
+    text.trim()
+        .parse::<f64>()
+        .map_err(|_| format!("\"{text}\" is not a number"))
+}

@@ -22,7 +22,7 @@ pub struct Args {
     #[arg(long, value_name = "OUT")]
     svg: Option<PathBuf>,
     /// Sample interval in ms, instead of the file's run.sample_ms.
-    #[arg(long, value_name = "X")]
+    #[arg(long, value_name = "X", allow_hyphen_values = true, value_parser = super::parse_number)]
     sample_ms: Option<f64>,
     /// Which columns the CSV holds: `all` (the default), `currents` (time, potential and the
     /// currents) or `v` (time and potential only).

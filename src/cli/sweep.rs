@@ -23,10 +23,10 @@ pub struct Args {
     #[arg(long, value_name = "WHAT")]
     vary: String,
     /// First value of the range.
-    #[arg(long, value_name = "A", allow_hyphen_values = true, value_parser = parse_end)]
+    #[arg(long, value_name = "A", allow_hyphen_values = true, value_parser = super::parse_number)]
     from: f64,
     /// Last value of the range.
-    #[arg(long, value_name = "B", allow_hyphen_values = true, value_parser = parse_end)]
+    #[arg(long, value_name = "B", allow_hyphen_values = true, value_parser = super::parse_number)]
     to: f64,
     /// Number of values, ends included (at most 100000).
     #[arg(long, value_name = "N", allow_hyphen_values = true, value_parser = parse_points)]
@@ -41,14 +41,6 @@ pub struct Args {
     /// Print one JSON object instead of a table.
     #[arg(long)]
     json: bool,
-}
-
-/// An end of the range: any number, negative ones included; the range itself says whether it
-/// must be finite or above 0.
-fn parse_end(text: &str) -> Result<f64, String> {
-    text.trim()
-        .parse::<f64>()
-        .map_err(|_| format!("\"{text}\" is not a number"))
 }
 
 /// The number of points in plain words, whatever was typed (`-3`, `2.5`, `1e99`).
