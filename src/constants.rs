@@ -6,6 +6,9 @@
 pub const FARADAY_C_PER_MOL: f64 = 96_485.332_12;
 /// Molar gas constant, J/(mol·K).
 pub const GAS_J_PER_MOL_K: f64 = 8.314_462_618;
+/// Molar volume of water used for osmotic water flow, cm³/mol (clamp-and-volume.md's value;
+/// 18.07 at 25 °C in handbook tables, from memory).
+pub const WATER_MOLAR_VOLUME_CM3_PER_MOL: f64 = 18.0;
 /// Offset between degrees Celsius and kelvin.
 pub const ZERO_CELSIUS_K: f64 = 273.15;
 

@@ -13,12 +13,24 @@ pub const EXAMPLES: &[(&str, &str)] = &[
         include_str!("../scenarios/chloride-substitution.ron"),
     ),
     (
+        "donnan-equilibrium.ron",
+        include_str!("../scenarios/donnan-equilibrium.ron"),
+    ),
+    (
         "excitable-cell-pulse-train.ron",
         include_str!("../scenarios/excitable-cell-pulse-train.ron"),
     ),
     (
+        "hypo-osmotic-swelling.ron",
+        include_str!("../scenarios/hypo-osmotic-swelling.ron"),
+    ),
+    (
         "potassium-blocker-washin.ron",
         include_str!("../scenarios/potassium-blocker-washin.ron"),
+    ),
+    (
+        "pump-block-swelling.ron",
+        include_str!("../scenarios/pump-block-swelling.ron"),
     ),
     (
         "raised-bath-potassium.ron",

@@ -98,6 +98,7 @@ fn excitable() -> Scenario {
         Event::Agent {
             label: "sodium blocker".into(),
             species: "Na+".into(),
+            target: Default::default(),
             max_block: 1.0,
             ic50_um: 1.0,
             hill: 1.0,

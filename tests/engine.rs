@@ -6,17 +6,16 @@
 //!
 //! Every scenario written out here is invented for these tests.
 
-use std::cell::RefCell;
 use std::path::Path;
 
-use ode_solvers::{DVector, Dop853, OutputType};
 mod common;
+use common::ode;
 use common::reference;
 use common::valid;
 use permeant::analysis::rest_report;
-use permeant::engine::{Budget, EngineError, Method, Model, Progress, Run, SolverSettings, Workspace};
+use permeant::engine::{Budget, EngineError, Method, Model, Progress, Run, SolverSettings};
 use permeant::physics::ghk_current_ua_per_cm2;
-use permeant::scenario::{Event, Scenario, Start, from_str, read_file};
+use permeant::scenario::{Event, Scenario, Start, Volume, from_str, read_file};
 
 /// model.md "Accuracy": a trace agrees with a high-precision reference to 0.01 mV.
 const ACCURACY_MV: f64 = 0.01;
@@ -246,55 +245,13 @@ fn charge_on_the_capacitor_balances_the_integrated_current() {
 // An independent solver
 // ---------------------------------------------------------------------------------------------
 
-/// The model's derivative as ode_solvers' system. The crate's trait takes `&self`, so the
-/// workspace (the segment's commands and scratch) is shared through a RefCell.
-struct Reference<'a>(&'a Model, &'a RefCell<Workspace>);
-
-impl ode_solvers::System<f64, DVector<f64>> for Reference<'_> {
-    fn system(&self, _t: f64, y: &DVector<f64>, dy: &mut DVector<f64>) {
-        self.0
-            .derivatives(&mut self.1.borrow_mut(), y.as_slice(), dy.as_mut_slice());
-    }
-}
-
-/// V at `times` from ode_solvers' DOP853 (Hairer, Nørsett & Wanner's 8th-order Dormand–Prince)
-/// at tolerance 1e-11, restarted at every command edge (with the model's commands set for
-/// the segment, as the engine does) and at every output time, so that no interpolation enters.
+/// V at `times` from ode_solvers' DOP853 at tolerance 1e-11 (`common::ode`).
 fn reference_v_mv(s: &Scenario, times: &[f64]) -> Vec<f64> {
     let model = Model::new(&valid(s));
-    let mut y = model.initial_state().unwrap();
-    let ws = RefCell::new(model.workspace());
-    let mut t = 0.0;
-    let mut out = Vec::with_capacity(times.len());
-    for &target in times {
-        loop {
-            let edge = model.next_edge_after(t).unwrap_or(f64::INFINITY);
-            model.begin_segment(&mut ws.borrow_mut(), t, &mut y);
-            let until = target.min(edge);
-            if until > t {
-                let mut solver = Dop853::new(
-                    Reference(&model, &ws),
-                    t,
-                    until,
-                    until - t,
-                    DVector::from_vec(y.clone()),
-                    1e-11,
-                    1e-11,
-                );
-                solver.set_output(OutputType::Sparse);
-                solver
-                    .integrate()
-                    .unwrap_or_else(|e| panic!("reference failed at {t} ms: {e}"));
-                y.copy_from_slice(solver.y_out().last().unwrap().as_slice());
-                t = until;
-            }
-            if t >= target {
-                break;
-            }
-        }
-        out.push(y[0]);
-    }
-    out
+    ode::reference_states(&model, times, 1e-11)
+        .iter()
+        .map(|y| y[0])
+        .collect()
 }
 
 /// Largest |ΔV| between our run at default settings and the reference, and where.
@@ -419,6 +376,7 @@ fn a_cell_at_rest_without_protocol_stays_flat_in_few_steps() {
     for (_, mut s) in bundled() {
         s.protocol.clear();
         s.cell.track_concentrations = false;
+        s.cell.volume = Volume::Fixed;
         s.run.duration_ms = 1000.0;
         s.run.start = Start::Rest;
         cells.push(s);

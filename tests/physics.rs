@@ -797,6 +797,7 @@ fn no_ion_on_either_side_leaves_the_steady_state_undefined() {
         outside_mm: vec![0.0],
         p_factor: vec![1.0],
         inject_ua_per_cm2: 0.0,
+        pump_block: 0.0,
     };
     let ss = m.steady_state(&cond);
     assert_eq!(ss.resting_mv, Err(Undefined::NoCurrent));

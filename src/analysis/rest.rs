@@ -6,6 +6,7 @@ use serde::Serialize;
 use crate::engine::{EngineError, Model};
 use crate::physics::{SteadyState, Undefined, ghk_potential_mv, nernst_mv};
 use crate::scenario::Valid;
+use crate::scenario::volume::Solute;
 
 /// One species' line of the report.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -27,6 +28,8 @@ pub struct RestReport {
     pub species: Vec<SpeciesRow>,
     pub ghk_mv: Result<f64, Undefined>,
     pub steady: SteadyState,
+    /// The impermeant inside solute of a cell with tracked volume, given or derived at t = 0.
+    pub impermeant: Option<Solute>,
 }
 
 impl RestReport {
@@ -65,5 +68,6 @@ pub fn rest_report_with(s: &Valid, model: &Model) -> RestReport {
         species,
         ghk_mv: ghk_potential_mv(&s.ions(), s.temperature_c),
         steady: model.steady_state_at_start(),
+        impermeant: model.volume.as_ref().map(|v| v.solute),
     }
 }

@@ -25,6 +25,17 @@ struct RestJson<'a> {
     resting_mv: Option<f64>,
     steady_states_mv: Vec<f64>,
     stable_steady_states_mv: Vec<f64>,
+    /// With a tracked volume: the impermeant inside solute X (mM at t = 0) and its mean charge
+    /// z_X, and whether they were derived from electroneutrality and iso-osmolarity.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    impermeant: Option<ImpermeantJson>,
+}
+
+#[derive(Serialize)]
+struct ImpermeantJson {
+    inside_mm: f64,
+    charge: f64,
+    derived: bool,
 }
 
 pub fn run(a: Args) -> anyhow::Result<()> {
@@ -51,6 +62,11 @@ pub fn run(a: Args) -> anyhow::Result<()> {
                 .filter(|c| c.increasing)
                 .map(|c| c.v_mv)
                 .collect(),
+            impermeant: r.impermeant.map(|x| ImpermeantJson {
+                inside_mm: x.inside_mm,
+                charge: x.charge,
+                derived: x.derived,
+            }),
         };
         super::emit(&format!("{}\n", serde_json::to_string(&j)?))?;
     } else {
@@ -112,6 +128,18 @@ pub fn table(title: &str, r: &RestReport) -> String {
             })
             .collect();
         o += &format!("all steady states: {}\n", list.join(", "));
+    }
+    if let Some(x) = r.impermeant {
+        o += &format!(
+            "impermeant inside solute: {:.4} mM, mean charge {:+.4}{}\n",
+            x.inside_mm,
+            x.charge,
+            if x.derived {
+                " (derived: electroneutral and iso-osmotic with the bath at t = 0)"
+            } else {
+                ""
+            }
+        );
     }
     o
 }

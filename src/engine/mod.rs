@@ -9,11 +9,13 @@ pub mod protocol;
 pub mod rosenbrock;
 pub mod run;
 pub mod stepper;
+pub mod volume;
 
 pub use model::{GateKind, Model, Readout, SampleCurrents, StateId, Workspace};
 pub use protocol::{Lag, LagId, LagKind};
 pub use run::{Budget, Progress, Run, SolverSettings, Trace};
 pub use stepper::{Method, Stats};
+pub use volume::VolumeModel;
 
 use crate::physics::Undefined;
 use crate::scenario::fields::shown;

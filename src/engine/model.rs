@@ -4,7 +4,9 @@
 //! changes while a run goes on (the present segment's commands, scratch space) lives in a
 //! [`Workspace`] the run owns, so one model can serve several threads at once.
 //!
-//! State layout: `[V, gates…, lagged inputs…, inside concentrations… (when tracked)]`.
+//! State layout: `[V, gates…, lagged inputs…, inside concentrations… (when tracked)]`; with a
+//! tracked volume the concentration slots hold inside amounts instead, followed by the relative
+//! volume W when water moves at a finite permeability ([`super::volume`]).
 
 use crate::constants::FARADAY_C_PER_MOL;
 use crate::physics::{Conditions, GatedChannel, IvCurves, Kinetics, Membrane, PumpModel, SteadyState};
@@ -13,6 +15,7 @@ use crate::scenario::{Start, Valid};
 use super::EngineError;
 use super::protocol::{Lag, LagId, LagKind, Protocol, fraction_blocked};
 use super::stepper::System;
+use super::volume::VolumeModel;
 
 /// The kind of a gate, as far as its identity and short name go.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -55,6 +58,10 @@ pub enum StateId {
     Lag(LagId),
     /// The tracked inside concentration of a species.
     Inside { species: String },
+    /// The inside amount of a species in a cell of tracked volume (mM of the starting volume).
+    Amount { species: String },
+    /// The relative volume W of a cell whose water moves at a finite permeability.
+    Volume,
 }
 
 /// The compiled scenario: membrane, protocol and layout. Immutable and `Sync`.
@@ -73,6 +80,8 @@ pub struct Model {
     pub start: Start,
     /// Label of each channel, in the membrane's order.
     channel_labels: Vec<String>,
+    /// The tracked volume, if any (it implies tracked concentrations, held as amounts).
+    pub volume: Option<VolumeModel>,
 }
 
 // The model is shared read-only (a sweep's threads, a window frame and a run at once): keep it so.
@@ -110,6 +119,10 @@ pub struct SampleCurrents {
 pub struct Readout {
     pub conditions: Conditions,
     pub currents: SampleCurrents,
+    /// Relative volume W (1 when the volume is fixed).
+    pub volume_rel: f64,
+    /// Inside osmolarity, mOsm.
+    pub osm_in_mosm: f64,
 }
 
 /// Identity of gate `j` of a channel with these gates: its kind, and for the
@@ -193,17 +206,19 @@ impl Model {
         );
         let protocol = Protocol::new(s);
         let d_cm = s.cell.diameter_um * 1e-4;
+        let volume = VolumeModel::new(s, 6.0 / d_cm);
         Model {
             membrane,
             protocol,
             species_names: s.species.iter().map(|x| x.name.clone()).collect(),
             gate_names,
-            track_concentrations: s.cell.track_concentrations,
+            track_concentrations: s.cell.track_concentrations || volume.is_some(),
             area_per_volume_per_cm: 6.0 / d_cm,
             duration_ms: s.run.duration_ms,
             sample_ms: s.run.sample_ms,
             start: s.run.start,
             channel_labels,
+            volume,
         }
     }
 
@@ -227,6 +242,8 @@ impl Model {
                 species_ua_per_cm2: vec![0.0; self.species_count()],
                 ..SampleCurrents::default()
             },
+            volume_rel: 1.0,
+            osm_in_mosm: 0.0,
         }
     }
 
@@ -252,11 +269,14 @@ impl Model {
         }
         ids.extend(self.protocol.lags.iter().map(|l| StateId::Lag(l.id.clone())));
         if self.track_concentrations {
-            ids.extend(
-                self.species_names
-                    .iter()
-                    .map(|s| StateId::Inside { species: s.clone() }),
-            );
+            let tracked_volume = self.volume.is_some();
+            ids.extend(self.species_names.iter().map(|s| match tracked_volume {
+                true => StateId::Amount { species: s.clone() },
+                false => StateId::Inside { species: s.clone() },
+            }));
+        }
+        if self.volume_index().is_some() {
+            ids.push(StateId::Volume);
         }
         ids
     }
@@ -273,6 +293,13 @@ impl Model {
     pub fn conc_offset(&self) -> usize {
         self.lag_offset() + self.protocol.lags.len()
     }
+    /// Index of the relative volume W in the state, when it is a state component.
+    pub fn volume_index(&self) -> Option<usize> {
+        self.volume
+            .as_ref()
+            .filter(|v| v.has_state())
+            .map(|_| self.conc_offset() + self.species_count())
+    }
     /// Length of the state vector.
     pub fn dim(&self) -> usize {
         self.conc_offset()
@@ -281,11 +308,17 @@ impl Model {
             } else {
                 0
             }
+            + usize::from(self.volume_index().is_some())
     }
 
     /// Display name of state component `i`, for CSV headers and plots: `v_mv`,
-    /// `gate:<channel>:<short>`, the lag's name, `inside_mm:<species>`.
+    /// `gate:<channel>:<short>`, the lag's name, `inside_mm:<species>` (`amount_mm:<species>`
+    /// with a tracked volume), `volume_rel`.
     pub fn state_name(&self, i: usize) -> String {
+        if self.volume_index() == Some(i) {
+            return "volume_rel".to_string();
+        }
+        let conc = if self.volume.is_some() { "amount_mm" } else { "inside_mm" };
         if i < self.gate_offset() {
             "v_mv".to_string()
         } else if i < self.lag_offset() {
@@ -302,7 +335,7 @@ impl Model {
         } else {
             self.species_names
                 .get(i - self.conc_offset())
-                .map(|s| format!("inside_mm:{s}"))
+                .map(|s| format!("{conc}:{s}"))
                 .unwrap_or_default()
         }
     }
@@ -365,17 +398,19 @@ impl Model {
         out.outside_mm.resize(n, 0.0);
         out.p_factor.resize(n, 1.0);
         for s in 0..n {
+            out.outside_mm[s] = self.outside_mm(y, s);
+        }
+        // With a tracked volume the slots hold amounts: concentrations are amounts over W.
+        let per_volume = 1.0 / self.volume_rel(y);
+        for s in 0..n {
             out.inside_mm[s] = if self.track_concentrations {
-                y[co + s].max(0.0)
+                y[co + s].max(0.0) * per_volume
             } else {
                 self.membrane.ions[s].inside_mm
             };
-            out.outside_mm[s] = match self.protocol.bath_lag[s] {
-                Some(l) => y[lo + l].max(0.0),
-                None => self.membrane.ions[s].outside_mm,
-            };
             out.p_factor[s] = 1.0;
         }
+        out.pump_block = 0.0;
         for (i, l) in self.protocol.lags.iter().enumerate() {
             let e = y[lo + i];
             match &l.kind {
@@ -387,7 +422,12 @@ impl Model {
                     hill,
                     ..
                 } => {
-                    out.p_factor[*species] *= 1.0 - fraction_blocked(*max_block, *ic50_um, *hill, e);
+                    let unblocked = 1.0 - fraction_blocked(*max_block, *ic50_um, *hill, e);
+                    match species {
+                        Some(sp) => out.p_factor[*sp] *= unblocked,
+                        // Several agents on the pump multiply, as on a species.
+                        None => out.pump_block = 1.0 - (1.0 - out.pump_block) * unblocked,
+                    }
                 }
                 LagKind::Bath { .. } => {}
             }
@@ -436,6 +476,53 @@ impl Model {
                 dy[co + s] = -i_s * self.area_per_volume_per_cm / (z * FARADAY_C_PER_MOL) * 1e-3;
             }
         }
+        if let (Some(w), Some(vm)) = (self.volume_index(), &self.volume) {
+            let rate = vm.water_per_ms_per_mosm.unwrap_or(0.0);
+            dy[w] = rate * (self.osm_in_mosm(y) - self.osm_out_mosm(y));
+        }
+    }
+
+    /// Outside concentration of species `s` in the state `y`, mM.
+    fn outside_mm(&self, y: &[f64], s: usize) -> f64 {
+        match self.protocol.bath_lag[s] {
+            Some(l) => y[self.lag_offset() + l].max(0.0),
+            None => self.membrane.ions[s].outside_mm,
+        }
+    }
+
+    /// Osmolarity of the bath in the state `y`, mOsm (ideal: the sum of its concentrations).
+    pub fn osm_out_mosm(&self, y: &[f64]) -> f64 {
+        (0..self.species_count()).map(|s| self.outside_mm(y, s)).sum()
+    }
+
+    /// The inside amounts of a tracked cell's state `y` (empty when concentrations are fixed).
+    fn amounts<'a>(&self, y: &'a [f64]) -> &'a [f64] {
+        match self.track_concentrations {
+            true => &y[self.conc_offset()..self.conc_offset() + self.species_count()],
+            false => &[],
+        }
+    }
+
+    /// The relative volume W of the state `y`: 1 when the volume is fixed.
+    pub fn volume_rel(&self, y: &[f64]) -> f64 {
+        match &self.volume {
+            None => 1.0,
+            Some(vm) => vm.volume_rel(
+                self.amounts(y),
+                self.volume_index().map(|w| y[w]),
+                self.osm_out_mosm(y),
+            ),
+        }
+    }
+
+    /// Osmolarity of the inside in the state `y`, mOsm: every species' inside concentration,
+    /// and the impermeant solute's when the volume is tracked.
+    pub fn osm_in_mosm(&self, y: &[f64]) -> f64 {
+        match &self.volume {
+            Some(vm) => vm.inside_osmoles(self.amounts(y)) / self.volume_rel(y),
+            None if self.track_concentrations => self.amounts(y).iter().map(|c| c.max(0.0)).sum(),
+            None => self.membrane.ions.iter().map(|i| i.inside_mm).sum(),
+        }
     }
 
     /// Everything derived from the stored sample `(t, y)` for output: its conditions and its
@@ -454,6 +541,8 @@ impl Model {
         c.pump_ua_per_cm2 = pump;
         c.net_ua_per_cm2 = c.species_ua_per_cm2.iter().sum::<f64>() + pump;
         c.inject_ua_per_cm2 = inject;
+        r.volume_rel = self.volume_rel(y);
+        r.osm_in_mosm = self.osm_in_mosm(y);
     }
 
     /// The gates of the state `y`.
@@ -480,6 +569,9 @@ impl Model {
             for s in 0..self.species_count() {
                 y[co + s] = self.membrane.ions[s].inside_mm;
             }
+        }
+        if let Some(w) = self.volume_index() {
+            y[w] = 1.0;
         }
         y
     }

@@ -2,7 +2,7 @@
 //! bath concentrations, agents), trains of injected current and the sorted command edges the
 //! stepper must land on (model.md, "Time-varying inputs").
 
-use crate::scenario::{Event, Valid};
+use crate::scenario::{AgentTarget, Event, Valid};
 
 /// Which lagged input a lag state is, independent of where its event sits in the protocol, so
 /// that an edit mid-run can carry its present value over.
@@ -35,9 +35,10 @@ pub enum LagKind {
         file_mm: f64,
         changes: Vec<(f64, f64, f64)>,
     },
-    /// An agent's effective dose, µM.
+    /// An agent's effective dose, µM; it blocks its species' permeability, or the pump's
+    /// maximum current when `species` is `None`.
     Agent {
-        species: usize,
+        species: Option<usize>,
         max_block: f64,
         ic50_um: f64,
         hill: f64,
@@ -78,12 +79,11 @@ impl Lag {
         }
     }
 
-    /// The species whose permeability or bath this input acts on.
-    pub fn species(&self) -> usize {
+    /// The species whose permeability or bath this input acts on (`None`: the pump).
+    pub fn species(&self) -> Option<usize> {
         match self.kind {
-            LagKind::Scale { species, .. }
-            | LagKind::Bath { species, .. }
-            | LagKind::Agent { species, .. } => species,
+            LagKind::Scale { species, .. } | LagKind::Bath { species, .. } => Some(species),
+            LagKind::Agent { species, .. } => species,
         }
     }
 
@@ -305,6 +305,7 @@ impl Protocol {
                 Event::Agent {
                     label,
                     species,
+                    target,
                     max_block,
                     ic50_um,
                     hill,
@@ -314,7 +315,13 @@ impl Protocol {
                     onset_ms,
                     washout_ms,
                 } => {
-                    let Some(sp) = species_of(species) else { continue };
+                    let sp = match target {
+                        AgentTarget::Pump => None,
+                        AgentTarget::Permeability => {
+                            let Some(sp) = species_of(species) else { continue };
+                            Some(sp)
+                        }
+                    };
                     lags.push(Lag {
                         id: LagId::Agent { label: label.clone() },
                         event: i,

@@ -473,13 +473,30 @@ impl Run {
         model.membrane.steady_gates(y[0], &mut y[1..1 + ng]);
         let (old_ids, new_ids) = (self.model.state_ids(), model.state_ids());
         let old_of = |id: &StateId| old_ids.iter().position(|o| o == id);
+        // A volume switched on mid-run starts from the present one; amounts and
+        // concentrations convert through it.
+        let old_volume = self.model.volume_rel(&self.y);
         for (i, id) in new_ids.iter().enumerate().skip(1) {
             if let Some(j) = old_of(id) {
                 y[i] = self.y[j];
             } else if let StateId::Lag(_) = id {
                 y[i] = model.lags()[i - model.lag_offset()].command(self.t_ms);
-            } else if let StateId::Inside { .. } = id {
-                y[i] = model.membrane.ions[i - model.conc_offset()].inside_mm;
+            } else if let StateId::Inside { species } | StateId::Amount { species } = id {
+                let other = match id {
+                    StateId::Inside { .. } => StateId::Amount {
+                        species: species.clone(),
+                    },
+                    _ => StateId::Inside {
+                        species: species.clone(),
+                    },
+                };
+                y[i] = match (old_of(&other), id) {
+                    (Some(j), StateId::Inside { .. }) => self.y[j] / old_volume,
+                    (Some(j), _) => self.y[j],
+                    (None, _) => model.membrane.ions[i - model.conc_offset()].inside_mm,
+                };
+            } else if let StateId::Volume = id {
+                y[i] = old_volume;
             }
         }
         let new_names = model.state_names();
@@ -537,6 +554,9 @@ fn atol_for(model: &Model, s: &SolverSettings, y: &[f64]) -> Vec<f64> {
         for sp in 0..model.species_count() {
             a[co + sp] = s.atol_relative * model.membrane.ions[sp].inside_mm.max(1e-3);
         }
+    }
+    if let Some(w) = model.volume_index() {
+        a[w] = s.atol_relative;
     }
     a
 }

@@ -79,6 +79,8 @@ pub struct Conditions {
     pub outside_mm: Vec<f64>,
     pub p_factor: Vec<f64>,
     pub inject_ua_per_cm2: f64,
+    /// Fraction of the pump's maximum current blocked by agents on the pump (0 = none).
+    pub pump_block: f64,
 }
 
 impl Conditions {
@@ -89,6 +91,7 @@ impl Conditions {
             outside_mm: vec![0.0; species],
             p_factor: vec![1.0; species],
             inject_ua_per_cm2: 0.0,
+            pump_block: 0.0,
         }
     }
 }
@@ -150,6 +153,7 @@ impl Membrane {
             outside_mm: self.ions.iter().map(|i| i.outside_mm).collect(),
             p_factor: vec![1.0; self.ions.len()],
             inject_ua_per_cm2: 0.0,
+            pump_block: 0.0,
         }
     }
 
@@ -169,7 +173,7 @@ impl Membrane {
     pub fn pump_current(&self, cond: &Conditions) -> f64 {
         self.pump.as_ref().map_or(0.0, |p| {
             pump::pump_current_ua_per_cm2(
-                p.max_ua_per_cm2,
+                p.max_ua_per_cm2 * (1.0 - cond.pump_block),
                 cond.inside_mm[p.exported],
                 p.half_inside_mm,
                 p.hill_inside,

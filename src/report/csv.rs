@@ -1,5 +1,7 @@
 //! CSV of a run's samples: `time_ms,v_mv`, each species' current, the pump current, then every
-//! other state component (gates, lagged inputs, tracked concentrations). Also the one home of
+//! other state component (gates, lagged inputs, tracked concentrations), and with a tracked
+//! volume `volume_rel` and `osm_in_mosm` last (the inside amounts written as the concentrations
+//! they make, `inside_mm:<species>`). Also the one home of
 //! CSV quoting ([`quote`]) and number formatting ([`push_number`], [`number`]) for every CSV the
 //! program writes.
 //!
@@ -163,7 +165,21 @@ pub fn header_of(model: &Model, trace: &Trace, columns: Columns) -> Vec<String> 
         h.push("i_pump_ua_per_cm2".into());
     }
     if columns == Columns::All {
-        h.extend(trace.names.iter().skip(1).cloned());
+        match &model.volume {
+            None => h.extend(trace.names.iter().skip(1).cloned()),
+            Some(_) => {
+                let co = model.conc_offset();
+                for (i, name) in trace.names.iter().enumerate().skip(1) {
+                    if (co..co + model.species_count()).contains(&i) {
+                        h.push(format!("inside_mm:{}", model.species_names[i - co]));
+                    } else if model.volume_index() != Some(i) {
+                        h.push(name.clone());
+                    }
+                }
+                h.push("volume_rel".into());
+                h.push("osm_in_mosm".into());
+            }
+        }
     }
     h
 }
@@ -240,9 +256,30 @@ impl RowWriter {
                 push_number(t, self.readout.currents.pump_ua_per_cm2);
             }
             if self.columns == Columns::All {
-                for &v in &self.y[1..] {
-                    t.push(b',');
-                    push_number(t, v);
+                match &model.volume {
+                    None => {
+                        for &v in &self.y[1..] {
+                            t.push(b',');
+                            push_number(t, v);
+                        }
+                    }
+                    Some(_) => {
+                        let co = model.conc_offset();
+                        let amounts = co..co + model.species_count();
+                        for (i, &v) in self.y.iter().enumerate().skip(1) {
+                            if amounts.contains(&i) {
+                                t.push(b',');
+                                push_number(t, self.readout.conditions.inside_mm[i - co]);
+                            } else if model.volume_index() != Some(i) {
+                                t.push(b',');
+                                push_number(t, v);
+                            }
+                        }
+                        t.push(b',');
+                        push_number(t, self.readout.volume_rel);
+                        t.push(b',');
+                        push_number(t, self.readout.osm_in_mosm);
+                    }
                 }
             }
             t.push(b'\n');

@@ -496,6 +496,7 @@ pub fn new_event(s: &Scenario, kind: EventKind) -> Event {
             Event::Agent {
                 label: unique_name(taken, "agent"),
                 species: pick_species(s, &["K+"]),
+                target: Default::default(),
                 max_block: 1.0,
                 ic50_um: 1.0,
                 hill: 1.0,

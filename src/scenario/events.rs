@@ -37,8 +37,12 @@ impl Event {
         match self {
             Event::PermeabilityScale { species, .. }
             | Event::BathChange { species, .. }
-            | Event::Agent { species, .. } => Some(species),
-            Event::Inject { .. } | Event::InjectTrain { .. } => None,
+            | Event::Agent {
+                species,
+                target: super::AgentTarget::Permeability,
+                ..
+            } => Some(species),
+            Event::Agent { .. } | Event::Inject { .. } | Event::InjectTrain { .. } => None,
         }
     }
 
@@ -117,6 +121,12 @@ impl Event {
             Event::Agent { label, dose_um, .. } if standalone => format!("{label} {dose_um} µM"),
             Event::Agent {
                 label,
+                dose_um,
+                target: super::AgentTarget::Pump,
+                ..
+            } => format!("{label} {dose_um} µM on the pump"),
+            Event::Agent {
+                label,
                 species,
                 dose_um,
                 ..
@@ -191,6 +201,7 @@ mod tests {
         let agent = Event::Agent {
             label: "blocker A".into(),
             species: "K+".into(),
+            target: Default::default(),
             max_block: 1.0,
             ic50_um: 1.0,
             hill: 1.0,

@@ -18,7 +18,9 @@ use std::str::FromStr;
 use serde::{Deserialize, Deserializer, Serialize, Serializer};
 
 use super::validate::{MAX_DURATION_MS, MAX_GATE_POWER};
-use super::{Cell, Channel, Event, Gate, Kinetics, Pump, RunSettings, Scenario, Species, Start};
+use super::{
+    Cell, Channel, Event, Gate, Impermeant, Kinetics, Pump, RunSettings, Scenario, Species, Start, Volume, Water,
+};
 
 /// One number of the scenario format: one row of [`FIELDS`].
 #[derive(Debug)]
@@ -439,6 +441,43 @@ pub static FIELDS: &[Field] = &[
         drag: Drag::Linear { per_point: 0.01 },
         span: Span::Auto,
         holder: Holder::Cell(pick!(Cell { capacitance_uf_per_cm2, .. } => capacitance_uf_per_cm2)),
+    },
+    Field {
+        path: "cell.volume.water.pf_um_per_s",
+        unit: "µm/s",
+        label: "osmotic water permeability",
+        limits: Limits::Positive("an osmotic water permeability"),
+        style: Style::Plain,
+        drag: Drag::Log { floor: 0.1 },
+        span: Span::Auto,
+        holder: Holder::Cell(pick!(
+            Cell { volume: Volume::Tracked { water: Water::Permeability { pf_um_per_s }, .. }, .. } => pf_um_per_s
+        )),
+    },
+    Field {
+        path: "cell.volume.impermeant.inside_mm",
+        unit: "mM",
+        label: "impermeant inside",
+        limits: Limits::NonNegative("a concentration"),
+        style: Style::Plain,
+        drag: CONCENTRATION_DRAG,
+        span: Span::Auto,
+        holder: Holder::Cell(pick!(
+            Cell { volume: Volume::Tracked { impermeant: Some(Impermeant { inside_mm, .. }), .. }, .. } => inside_mm
+        )),
+    },
+    Field {
+        path: "cell.volume.impermeant.charge",
+        unit: "",
+        label: "impermeant mean charge",
+        // A mean over large molecules: any finite value, whole or not.
+        limits: Limits::Finite,
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.01 },
+        span: Span::Fixed { lo: -3.0, hi: 3.0 },
+        holder: Holder::Cell(pick!(
+            Cell { volume: Volume::Tracked { impermeant: Some(Impermeant { charge, .. }), .. }, .. } => charge
+        )),
     },
     Field {
         path: "species[].charge",

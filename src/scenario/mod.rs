@@ -11,6 +11,7 @@ mod read;
 mod save;
 mod valid;
 mod validate;
+pub mod volume;
 
 use serde::{Deserialize, Serialize};
 
@@ -65,6 +66,9 @@ pub struct Cell {
     pub diameter_um: f64,
     pub capacitance_uf_per_cm2: f64,
     pub track_concentrations: bool,
+    /// Whether the cell's volume follows water (clamp-and-volume.md, "Cell volume").
+    #[serde(skip_serializing_if = "Volume::is_fixed")]
+    pub volume: Volume,
 }
 
 impl Default for Cell {
@@ -73,7 +77,60 @@ impl Default for Cell {
             diameter_um: 20.0,
             capacitance_uf_per_cm2: 1.0,
             track_concentrations: false,
+            volume: Volume::Fixed,
         }
+    }
+}
+
+/// The cell's volume: fixed, or following water (which implies concentration tracking).
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+pub enum Volume {
+    #[default]
+    Fixed,
+    Tracked {
+        water: Water,
+        /// The impermeant inside solute; derived at t = 0 when left out.
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        impermeant: Option<Impermeant>,
+    },
+}
+
+impl Volume {
+    pub fn is_fixed(&self) -> bool {
+        matches!(self, Volume::Fixed)
+    }
+}
+
+/// How water crosses the membrane.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub enum Water {
+    /// So fast that the inside stays iso-osmotic with the bath at every instant.
+    Instant,
+    /// At a finite osmotic permeability, µm/s.
+    Permeability { pf_um_per_s: f64 },
+}
+
+/// The impermeant inside solute X: its concentration at the start and its mean charge.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Impermeant {
+    pub inside_mm: f64,
+    pub charge: f64,
+}
+
+/// What an agent acts on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+pub enum AgentTarget {
+    /// The resting and gated permeability of its species.
+    #[default]
+    Permeability,
+    /// The pump's maximum current.
+    Pump,
+}
+
+impl AgentTarget {
+    pub fn is_permeability(&self) -> bool {
+        *self == AgentTarget::Permeability
     }
 }
 
@@ -152,10 +209,14 @@ pub enum Event {
         #[serde(default)]
         lag_ms: f64,
     },
-    /// A blocker applied inside `[from, until)`, blocking `max_block·d^n/(d^n + IC50^n)`.
+    /// A blocker applied inside `[from, until)`, blocking `max_block·d^n/(d^n + IC50^n)` of
+    /// its species' permeability, or of the pump's maximum current (`target: Pump`, no species).
     Agent {
         label: String,
+        #[serde(default, skip_serializing_if = "String::is_empty")]
         species: String,
+        #[serde(default, skip_serializing_if = "AgentTarget::is_permeability")]
+        target: AgentTarget,
         #[serde(default = "one")]
         max_block: f64,
         ic50_um: f64,

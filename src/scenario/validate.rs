@@ -2,7 +2,7 @@
 //! gets", each reported with the field path it concerns.
 
 use super::fields::{self, Part};
-use super::{Event, Problem, Scenario};
+use super::{AgentTarget, Event, Problem, Scenario};
 use std::collections::HashSet;
 
 /// Largest number of output samples a run may ask for.
@@ -136,6 +136,7 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
     }
     c.numbers(s, Part::Scenario, &[], alone);
     c.numbers(s, Part::Cell, &[], alone);
+    super::volume::problems(s, &mut c.problems);
 
     if s.species.is_empty() {
         c.fail("species", "at least one species is needed");
@@ -242,8 +243,34 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
     let mut pulses_in_run = 0.0;
     for (i, ev) in s.protocol.iter().enumerate() {
         let p = format!("protocol[{i}]");
-        if let Some(sp) = ev.species() {
-            c.species_name(&format!("{p}.species"), sp, &names);
+        match ev {
+            Event::Agent {
+                species,
+                target: AgentTarget::Pump,
+                ..
+            } => {
+                if !species.is_empty() {
+                    c.fail(
+                        format!("{p}.species"),
+                        "an agent on the pump acts on no one species; leave `species` out",
+                    );
+                }
+                if s.pump.is_none() {
+                    c.fail(
+                        format!("{p}.target"),
+                        "the cell has no pump for this agent to block; add a pump or target a species' permeability",
+                    );
+                }
+            }
+            Event::Agent { species, .. } if species.is_empty() => c.fail(
+                format!("{p}.species"),
+                "an agent on a permeability needs the `species` it blocks",
+            ),
+            _ => {
+                if let Some(sp) = ev.species() {
+                    c.species_name(&format!("{p}.species"), sp, &names);
+                }
+            }
         }
         if let Event::Agent { label, .. } = ev {
             c.plain_text(&format!("{p}.label"), "an agent label", label);

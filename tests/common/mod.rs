@@ -4,6 +4,7 @@
 
 pub mod cells;
 pub mod cli;
+pub mod ode;
 pub mod reference;
 
 use permeant::scenario::{Scenario, Valid, validate};

@@ -284,6 +284,7 @@ mod tests {
         s.protocol.push(Event::Agent {
             label: "a".into(),
             species: "K+".into(),
+            target: Default::default(),
             max_block: 0.8,
             ic50_um: 3.0,
             hill: 1.0,
