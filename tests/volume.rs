@@ -532,3 +532,61 @@ fn a_tracked_volume_round_trips_and_a_fixed_one_writes_nothing_new() {
     let text = permeant::scenario::to_ron_string(&fixed);
     assert!(!text.contains("volume") && !text.contains("target"), "{text}");
 }
+
+// ---------------------------------------------------------------------------------------------
+// The bundled examples do what their notes say
+// ---------------------------------------------------------------------------------------------
+
+fn example(name: &str) -> Run {
+    let text = permeant::examples::example_text(name).expect("bundled");
+    let s = scenario(text);
+    run_to_end(&s, SolverSettings::default())
+}
+
+/// Index of the first sample at or after `t_ms`.
+fn at(r: &Run, t_ms: f64) -> usize {
+    r.trace().t_ms.iter().position(|t| *t >= t_ms).expect("within the run")
+}
+
+#[test]
+fn pump_block_swells_and_depolarizes_and_the_pump_brings_the_cell_back() {
+    let r = example("pump-block-swelling.ron");
+    let (w, _) = volume_and_osmolarity(&r);
+    let v = r.trace().v_mv();
+    let (block, washout) = (at(&r, 30_000.0), at(&r, 240_000.0));
+    // Flat before the block: the cell starts at its pump–leak balance.
+    assert!((0..block).all(|k| (w[k] - 1.0).abs() < 1e-6 && (v[k] - v[0]).abs() < 1e-3));
+    let w_max = w.iter().copied().fold(0.0, f64::max);
+    let v_max = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    println!("W max {w_max}, V {} → {v_max} mV, W end {}", v[0], w[w.len() - 1]);
+    assert!(w[washout] > 1.07 && w_max > 1.1, "swells by about a tenth");
+    assert!(v_max - v[0] > 15.0, "depolarizes by about 20 mV");
+    assert!(w[w.len() - 1] < 1.0 + 0.1 * (w_max - 1.0), "shrinks back");
+    assert!(v[v.len() - 1] < v_max - 15.0, "repolarizes");
+}
+
+#[test]
+fn a_diluted_bath_swells_the_cell_by_about_half_in_seconds() {
+    let r = example("hypo-osmotic-swelling.ron");
+    let (w, osm) = volume_and_osmolarity(&r);
+    let (step, later) = (at(&r, 5_000.0), at(&r, 12_000.0));
+    assert!((w[step] - 1.0).abs() < 1e-6 && (osm[step] - 270.0).abs() < 1e-3);
+    println!("W at 12 s {}, end {}", w[later], w[w.len() - 1]);
+    assert!(w[later] > 1.45, "swells by about half within seconds");
+    // Boyle–van 't Hoff bounds the water part: 270/170 if no ion moved.
+    assert!(w[w.len() - 1] < 270.0 / 170.0 + 0.01);
+}
+
+#[test]
+fn the_k_and_cl_cell_ends_with_v_at_both_reversal_potentials() {
+    let r = example("donnan-equilibrium.ron");
+    let last = r.trace().len() - 1;
+    let v = r.trace().v_mv()[last];
+    let (k, cl) = (inside_mm(&r, 0)[last], inside_mm(&r, 2)[last]);
+    let (e_k, e_cl) = (
+        reference::nernst_mv(1, k, 5.0, 37.0),
+        reference::nernst_mv(-1, cl, 150.0, 37.0),
+    );
+    println!("V {v}, E_K {e_k}, E_Cl {e_cl}");
+    assert!((v - e_k).abs() < 0.01 && (v - e_cl).abs() < 0.01);
+}
