@@ -590,3 +590,46 @@ fn the_k_and_cl_cell_ends_with_v_at_both_reversal_potentials() {
     println!("V {v}, E_K {e_k}, E_Cl {e_cl}");
     assert!((v - e_k).abs() < 0.01 && (v - e_cl).abs() < 0.01);
 }
+
+// ---------------------------------------------------------------------------------------------
+// The command line
+// ---------------------------------------------------------------------------------------------
+
+#[test]
+fn run_writes_volume_and_osmolarity_and_rest_reports_the_derived_solute() {
+    use common::cli::{Sandbox, assert_bad_input};
+    let text = permeant::examples::example_text("donnan-equilibrium.ron").unwrap();
+    let sb = Sandbox::with("cell.ron", text);
+    sb.ok(&["run", "cell.ron", "--csv", "out.csv"]);
+    let csv = sb.read("out.csv");
+    let mut lines = csv.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    assert_eq!(&header[header.len() - 2..], ["volume_rel", "osm_in_mosm"]);
+    assert!(header.contains(&"inside_mm:K+") && !header.iter().any(|h| h.starts_with("amount")));
+    let first: Vec<f64> = lines.next().unwrap().split(',').map(|x| x.parse().unwrap()).collect();
+    assert_eq!(first[header.len() - 2], 1.0);
+    // 140 + 0 + 10 mM of ions and 150 mM of the derived solute.
+    assert!((first[header.len() - 1] - 300.0).abs() < 1e-9);
+    let last: Vec<f64> = csv.lines().last().unwrap().split(',').map(|x| x.parse().unwrap()).collect();
+    assert!(last[header.len() - 2] < 0.97);
+
+    let json: serde_json::Value = serde_json::from_str(&sb.ok(&["rest", "cell.ron", "--json"])).unwrap();
+    let x = &json["impermeant"];
+    // X = Σc_out − Σc_in = 300 − 150; z_X = −(140 − 10)/150.
+    assert_eq!(x["inside_mm"], 150.0);
+    assert!((x["charge"].as_f64().unwrap() + 130.0 / 150.0).abs() < 1e-15);
+    assert_eq!(x["derived"], true);
+    assert!(sb.ok(&["rest", "cell.ron"]).contains("impermeant inside solute: 150.0000 mM"));
+
+    // A fixed cell's outputs are unchanged: no new columns or keys.
+    let fixed = permeant::examples::example_text("resting-cell-normal-bath.ron").unwrap();
+    sb.write("fixed.ron", fixed);
+    let json: serde_json::Value = serde_json::from_str(&sb.ok(&["rest", "fixed.ron", "--json"])).unwrap();
+    assert!(json.get("impermeant").is_none());
+    sb.ok(&["run", "fixed.ron", "--csv", "fixed.csv"]);
+    assert!(!sb.read("fixed.csv").lines().next().unwrap().contains("volume"));
+
+    // No positive solute: refused with exit status 2 and the field path.
+    sb.write("crowded.ron", text.replace("inside_mm: 140.0", "inside_mm: 340.0"));
+    assert_bad_input(&sb.run(&["run", "crowded.ron", "--csv", "x.csv"]), &["cell.volume", "iso-osmotic"]);
+}
