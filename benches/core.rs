@@ -236,6 +236,19 @@ fn stiff(c: &mut Criterion) {
     g.finish();
 }
 
+/// Issue 12's target: ten minutes of a pump block in a cell of tracked volume, sampled every
+/// 100 ms (6001 samples), under 50 ms.
+fn volume(c: &mut Criterion) {
+    let Some(s) = load("pump-block-swelling") else {
+        return;
+    };
+    let mut g = c.benchmark_group("volume");
+    g.bench_function("pump block 10 min, 100 ms samples", |b| {
+        b.iter(|| run(black_box(&s)))
+    });
+    g.finish();
+}
+
 fn run_and_csv(c: &mut Criterion) {
     let Some(s) = excitable_two_seconds() else { return };
     let s = permeant::scenario::validate(s).expect("bundled scenarios are valid");
@@ -258,7 +271,7 @@ fn config() -> Criterion {
 criterion_group! {
     name = benches;
     config = config();
-    targets = rest, runs, stiff, run_and_csv
+    targets = rest, runs, stiff, volume, run_and_csv
 }
 
 fn main() {

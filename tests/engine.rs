@@ -11,6 +11,7 @@ use std::path::Path;
 mod common;
 use common::ode;
 use common::reference;
+use common::tight;
 use common::valid;
 use permeant::analysis::rest_report;
 use permeant::engine::{Budget, EngineError, Method, Model, Progress, Run, SolverSettings};
@@ -860,17 +861,6 @@ fn a_potential_leaving_the_models_range_stops_the_run_with_the_reason() {
 // ---------------------------------------------------------------------------------------------
 // Lagged inputs and agents against their closed forms (model.md "Time-varying inputs")
 // ---------------------------------------------------------------------------------------------
-
-/// Tight tolerances, so that the solver's own error is far below what the checks resolve.
-fn tight() -> SolverSettings {
-    SolverSettings {
-        rtol: 1e-10,
-        atol_v_mv: 1e-9,
-        atol_gate: 1e-11,
-        atol_relative: 1e-12,
-        ..Default::default()
-    }
-}
 
 /// Agreement asked of a lagged input with its closed form under [`tight`] tolerances: the
 /// relative tolerance 1e-10 of a value of order 10, with room for the error carried along.

@@ -8,7 +8,7 @@
 //! Every scenario written out here is invented for these tests.
 
 mod common;
-use common::{ode, reference, valid};
+use common::{ode, reference, tight, valid};
 use permeant::analysis::rest_report;
 use permeant::engine::{Model, Run, SolverSettings};
 use permeant::scenario::{AgentTarget, Event, Scenario, ScenarioError, from_str};
@@ -23,17 +23,6 @@ fn run_to_end(s: &Scenario, settings: SolverSettings) -> Run {
     let mut r = Run::new(&valid(s), settings).expect("run starts");
     r.run_to_end().expect("run finishes");
     r
-}
-
-/// Tight tolerances, so that the solver's own error is far below what the checks resolve.
-fn tight() -> SolverSettings {
-    SolverSettings {
-        rtol: 1e-10,
-        atol_v_mv: 1e-9,
-        atol_gate: 1e-11,
-        atol_relative: 1e-12,
-        ..Default::default()
-    }
 }
 
 /// The relative volume and inside osmolarity of every sample of a run.
@@ -112,7 +101,11 @@ fn instant_water_follows_the_boyle_van_t_hoff_law() {
             );
             // Instant water: the inside is iso-osmotic with the bath at every instant.
             let bath = if t < 10.0 { 300.0 } else { 2.0 * after_mm };
-            assert!((osm[k] - bath).abs() < 1e-10 * bath, "osm_in {} at {t} ms", osm[k]);
+            assert!(
+                (osm[k] - bath).abs() < 1e-10 * bath,
+                "osm_in {} at {t} ms",
+                osm[k]
+            );
         }
     }
 }
@@ -140,7 +133,10 @@ fn finite_water_permeability_approaches_boyle_van_t_hoff_with_the_linearised_tim
     let w_star = n / o;
     let tau_ms = w_star / (k_per_ms_per_mosm * o);
     println!("W* {w_star}, linearised τ {} s", tau_ms / 1e3);
-    assert!(tau_ms > 5e3 && tau_ms < 50e3, "τ = {tau_ms} ms is no sensible test case");
+    assert!(
+        tau_ms > 5e3 && tau_ms < 50e3,
+        "τ = {tau_ms} ms is no sensible test case"
+    );
 
     let r = run_to_end(&s, tight());
     let (w, _) = volume_and_osmolarity(&r);
@@ -170,8 +166,15 @@ fn finite_water_permeability_approaches_boyle_van_t_hoff_with_the_linearised_tim
     let (t1, t2) = (6.0 * tau_ms, 8.0 * tau_ms);
     let seen_tau = (t2 - t1) / ((w_star - at(t1)) / (w_star - at(t2))).ln();
     println!("τ seen late {} s", seen_tau / 1e3);
-    assert!((seen_tau / tau_ms - 1.0).abs() < 2e-3, "late τ {seen_tau} ms, linearised {tau_ms} ms");
-    assert!((w[w.len() - 1] - w_star).abs() < 1e-5, "final W {}", w[w.len() - 1]);
+    assert!(
+        (seen_tau / tau_ms - 1.0).abs() < 2e-3,
+        "late τ {seen_tau} ms, linearised {tau_ms} ms"
+    );
+    assert!(
+        (w[w.len() - 1] - w_star).abs() < 1e-5,
+        "final W {}",
+        w[w.len() - 1]
+    );
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -283,26 +286,59 @@ fn without_the_pump_the_cell_swells_without_a_steady_state_and_a_faster_pump_kee
     // the pump stopped, Na+ and Cl- leak in and water follows, so the volume rises with no
     // steady state; with the pump working the cell reaches a steady volume, the smaller the
     // larger the pump rate.
-    let stopped = run_to_end(&pump_leak(0.6, Some(1.0), 3.0e6, "Instant"), SolverSettings::default());
+    let stopped = run_to_end(
+        &pump_leak(0.6, Some(1.0), 3.0e6, "Instant"),
+        SolverSettings::default(),
+    );
     let (w, _) = volume_and_osmolarity(&stopped);
     let n = w.len();
-    println!("pump stopped: W at 1/4, 1/2, 3/4, end {} {} {} {}", w[n / 4], w[n / 2], w[3 * n / 4], w[n - 1]);
-    assert!(w.windows(2).skip(1).all(|p| p[1] > p[0]), "the volume rises throughout");
+    println!(
+        "pump stopped: W at 1/4, 1/2, 3/4, end {} {} {} {}",
+        w[n / 4],
+        w[n / 2],
+        w[3 * n / 4],
+        w[n - 1]
+    );
+    assert!(
+        w.windows(2).skip(1).all(|p| p[1] > p[0]),
+        "the volume rises throughout"
+    );
     // Each quarter swells more than the one before: no approach to a steady state.
-    let quarters = [w[n / 4] - w[0], w[n / 2] - w[n / 4], w[3 * n / 4] - w[n / 2], w[n - 1] - w[3 * n / 4]];
-    assert!(quarters.windows(2).all(|q| q[1] > q[0]), "swelling per quarter {quarters:?}");
+    let quarters = [
+        w[n / 4] - w[0],
+        w[n / 2] - w[n / 4],
+        w[3 * n / 4] - w[n / 2],
+        w[n - 1] - w[3 * n / 4],
+    ];
+    assert!(
+        quarters.windows(2).all(|q| q[1] > q[0]),
+        "swelling per quarter {quarters:?}"
+    );
     assert!(w[n - 1] > 1.1);
 
     let mut steady = Vec::new();
     for pump in [0.4, 0.6, 1.2] {
-        let r = run_to_end(&pump_leak(pump, None, 3.0e7, "Instant"), SolverSettings::default());
+        let r = run_to_end(
+            &pump_leak(pump, None, 3.0e7, "Instant"),
+            SolverSettings::default(),
+        );
         let (w, _) = volume_and_osmolarity(&r);
         let n = w.len();
-        println!("pump {pump}: W end {}, change over the last tenth {}", w[n - 1], w[n - 1] - w[9 * n / 10]);
-        assert!((w[n - 1] - w[9 * n / 10]).abs() < 1e-4, "pump {pump}: steady at the end");
+        println!(
+            "pump {pump}: W end {}, change over the last tenth {}",
+            w[n - 1],
+            w[n - 1] - w[9 * n / 10]
+        );
+        assert!(
+            (w[n - 1] - w[9 * n / 10]).abs() < 1e-4,
+            "pump {pump}: steady at the end"
+        );
         steady.push(w[n - 1]);
     }
-    assert!(steady[0] > steady[1] && steady[1] > steady[2], "steady volumes {steady:?}");
+    assert!(
+        steady[0] > steady[1] && steady[1] > steady[2],
+        "steady volumes {steady:?}"
+    );
 }
 
 #[test]
@@ -372,7 +408,10 @@ fn amounts_move_by_exactly_the_current_each_species_carries_and_charge_stays_on_
             .map(|w| (w[2] - 2.0 * w[1] + w[0]).abs() / (h * h))
             .fold(0.0, f64::max);
         let bound = (n - 1) as f64 * h * h * h / 12.0 * second + 1e-7 * integral.abs();
-        println!("{}: z·F·Δn·Vol₀/A {lhs}, −∫I dt {}, bound {bound}", s.species[sp].name, -integral);
+        println!(
+            "{}: z·F·Δn·Vol₀/A {lhs}, −∫I dt {}, bound {bound}",
+            s.species[sp].name, -integral
+        );
         assert!((lhs + integral).abs() <= bound, "{}", s.species[sp].name);
     }
 }
@@ -398,7 +437,10 @@ fn a_tracked_volume_run_agrees_with_an_independent_solver() {
         worst_v = worst_v.max((r.trace().v_mv()[k] - y[0]).abs());
         worst_w = worst_w.max((w[k] - model.volume_rel(y)).abs());
     }
-    println!("worst |ΔV| {worst_v} mV, worst |ΔW| {worst_w}; W range {:?}", (w[0], w[w.len() / 2]));
+    println!(
+        "worst |ΔV| {worst_v} mV, worst |ΔW| {worst_w}; W range {:?}",
+        (w[0], w[w.len() / 2])
+    );
     assert!(w[w.len() / 2] > 1.002, "the block should swell the cell");
     assert!(worst_v < 0.01, "V differs by {worst_v} mV");
     assert!(worst_w < 1e-6, "W differs by {worst_w}");
@@ -478,11 +520,27 @@ fn bad_volumes_are_refused_at_their_field_paths() {
             &format!("water: Instant, impermeant: Some((inside_mm: {x}, charge: {z}))"),
         )
     };
-    assert_refused(&given("-5.0", "-1.0"), "cell.volume.impermeant.inside_mm", &["negative"]);
-    assert_refused(&given("100.0", "inf"), "cell.volume.impermeant.charge", &["finite"]);
+    assert_refused(
+        &given("-5.0", "-1.0"),
+        "cell.volume.impermeant.inside_mm",
+        &["negative"],
+    );
+    assert_refused(
+        &given("100.0", "inf"),
+        "cell.volume.impermeant.charge",
+        &["finite"],
+    );
     // Instant water needs an iso-osmotic start: 270 out, 159 + 100 in.
-    assert_refused(&given("100.0", "-1.0"), "cell.volume.impermeant.inside_mm", &["iso-osmotic", "111"]);
-    assert!(problems(&given("111.0", "-1.0")).is_empty(), "{:?}", problems(&given("111.0", "-1.0")));
+    assert_refused(
+        &given("100.0", "-1.0"),
+        "cell.volume.impermeant.inside_mm",
+        &["iso-osmotic", "111"],
+    );
+    assert!(
+        problems(&given("111.0", "-1.0")).is_empty(),
+        "{:?}",
+        problems(&given("111.0", "-1.0"))
+    );
     // Unknown names inside the new parts say where.
     let typo = text.replace("water: Instant", "water: Instnat");
     assert!(!problems(&typo).is_empty());
@@ -545,7 +603,11 @@ fn example(name: &str) -> Run {
 
 /// Index of the first sample at or after `t_ms`.
 fn at(r: &Run, t_ms: f64) -> usize {
-    r.trace().t_ms.iter().position(|t| *t >= t_ms).expect("within the run")
+    r.trace()
+        .t_ms
+        .iter()
+        .position(|t| *t >= t_ms)
+        .expect("within the run")
 }
 
 #[test]
@@ -606,11 +668,22 @@ fn run_writes_volume_and_osmolarity_and_rest_reports_the_derived_solute() {
     let header: Vec<&str> = lines.next().unwrap().split(',').collect();
     assert_eq!(&header[header.len() - 2..], ["volume_rel", "osm_in_mosm"]);
     assert!(header.contains(&"inside_mm:K+") && !header.iter().any(|h| h.starts_with("amount")));
-    let first: Vec<f64> = lines.next().unwrap().split(',').map(|x| x.parse().unwrap()).collect();
+    let first: Vec<f64> = lines
+        .next()
+        .unwrap()
+        .split(',')
+        .map(|x| x.parse().unwrap())
+        .collect();
     assert_eq!(first[header.len() - 2], 1.0);
     // 140 + 0 + 10 mM of ions and 150 mM of the derived solute.
     assert!((first[header.len() - 1] - 300.0).abs() < 1e-9);
-    let last: Vec<f64> = csv.lines().last().unwrap().split(',').map(|x| x.parse().unwrap()).collect();
+    let last: Vec<f64> = csv
+        .lines()
+        .last()
+        .unwrap()
+        .split(',')
+        .map(|x| x.parse().unwrap())
+        .collect();
     assert!(last[header.len() - 2] < 0.97);
 
     let json: serde_json::Value = serde_json::from_str(&sb.ok(&["rest", "cell.ron", "--json"])).unwrap();
@@ -619,7 +692,10 @@ fn run_writes_volume_and_osmolarity_and_rest_reports_the_derived_solute() {
     assert_eq!(x["inside_mm"], 150.0);
     assert!((x["charge"].as_f64().unwrap() + 130.0 / 150.0).abs() < 1e-15);
     assert_eq!(x["derived"], true);
-    assert!(sb.ok(&["rest", "cell.ron"]).contains("impermeant inside solute: 150.0000 mM"));
+    assert!(
+        sb.ok(&["rest", "cell.ron"])
+            .contains("impermeant inside solute: 150.0000 mM")
+    );
 
     // A fixed cell's outputs are unchanged: no new columns or keys.
     let fixed = permeant::examples::example_text("resting-cell-normal-bath.ron").unwrap();
@@ -630,6 +706,12 @@ fn run_writes_volume_and_osmolarity_and_rest_reports_the_derived_solute() {
     assert!(!sb.read("fixed.csv").lines().next().unwrap().contains("volume"));
 
     // No positive solute: refused with exit status 2 and the field path.
-    sb.write("crowded.ron", text.replace("inside_mm: 140.0", "inside_mm: 340.0"));
-    assert_bad_input(&sb.run(&["run", "crowded.ron", "--csv", "x.csv"]), &["cell.volume", "iso-osmotic"]);
+    sb.write(
+        "crowded.ron",
+        text.replace("inside_mm: 140.0", "inside_mm: 340.0"),
+    );
+    assert_bad_input(
+        &sb.run(&["run", "crowded.ron", "--csv", "x.csv"]),
+        &["cell.volume", "iso-osmotic"],
+    );
 }

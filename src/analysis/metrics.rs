@@ -158,6 +158,37 @@ pub fn trace_metrics(
     })
 }
 
+/// What a kept trace of a cell with tracked volume adds to the comparison.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct VolumeMetrics {
+    /// Relative volume at the last sample.
+    pub final_rel: f64,
+    /// From the first event (or t = 0) until the volume first passes halfway from its value
+    /// before the first event to its final value; `None` without a change.
+    pub half_change_ms: Option<f64>,
+}
+
+/// The volume metrics of samples `volume_rel` at `t_ms`: the same final value and half-change
+/// time as [`trace_metrics`] finds for a potential, read from the volume.
+pub fn volume_metrics(
+    t_ms: &[f64],
+    volume_rel: &[f64],
+    first_event_ms: Option<f64>,
+) -> Option<VolumeMetrics> {
+    let n = t_ms.len().min(volume_rel.len());
+    let m = trace_metrics(
+        &t_ms[..n],
+        &volume_rel[..n],
+        first_event_ms,
+        SpikeSettings::default(),
+    )
+    .ok()?;
+    Some(VolumeMetrics {
+        final_rel: m.final_mv,
+        half_change_ms: m.half_change_ms,
+    })
+}
+
 /// Each metric minus the baseline's, in [`METRIC_COLUMNS`] order (`None` where either is
 /// undefined).
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -318,7 +318,11 @@ impl Model {
         if self.volume_index() == Some(i) {
             return "volume_rel".to_string();
         }
-        let conc = if self.volume.is_some() { "amount_mm" } else { "inside_mm" };
+        let conc = if self.volume.is_some() {
+            "amount_mm"
+        } else {
+            "inside_mm"
+        };
         if i < self.gate_offset() {
             "v_mv".to_string()
         } else if i < self.lag_offset() {

@@ -19,7 +19,8 @@ use serde::{Deserialize, Deserializer, Serialize, Serializer};
 
 use super::validate::{MAX_DURATION_MS, MAX_GATE_POWER};
 use super::{
-    Cell, Channel, Event, Gate, Impermeant, Kinetics, Pump, RunSettings, Scenario, Species, Start, Volume, Water,
+    Cell, Channel, Event, Gate, Impermeant, Kinetics, Pump, RunSettings, Scenario, Species, Start, Volume,
+    Water,
 };
 
 /// One number of the scenario format: one row of [`FIELDS`].

@@ -90,7 +90,9 @@ pub fn problems(s: &Scenario, out: &mut Vec<Problem>) {
         .iter()
         .all(|x| finite(x.inside_mm) && finite(x.outside_mm))
         && s.protocol.iter().all(|e| match e {
-            Event::BathChange { outside_mm, at_ms, .. } => finite(*outside_mm) && finite(*at_ms),
+            Event::BathChange {
+                outside_mm, at_ms, ..
+            } => finite(*outside_mm) && finite(*at_ms),
             _ => true,
         });
     if !concentrations_finite {

@@ -7,6 +7,7 @@ pub mod cli;
 pub mod ode;
 pub mod reference;
 
+use permeant::engine::SolverSettings;
 use permeant::scenario::{Scenario, Valid, validate};
 use reference::Ion;
 
@@ -27,4 +28,15 @@ pub fn reference_ions(s: &Scenario) -> Vec<Ion> {
             p_cm_per_s: x.permeability_cm_per_s,
         })
         .collect()
+}
+
+/// Tight tolerances, so that the solver's own error is far below what the checks resolve.
+pub fn tight() -> SolverSettings {
+    SolverSettings {
+        rtol: 1e-10,
+        atol_v_mv: 1e-9,
+        atol_gate: 1e-11,
+        atol_relative: 1e-12,
+        ..Default::default()
+    }
 }

@@ -4,7 +4,9 @@
 
 use egui::{Color32, RichText, Ui};
 
-use crate::analysis::metrics::{METRIC_COLUMNS, SpikeSettings, TraceMetrics, first_event_ms, trace_metrics};
+use crate::analysis::metrics::{
+    METRIC_COLUMNS, SpikeSettings, TraceMetrics, VolumeMetrics, first_event_ms, trace_metrics, volume_metrics,
+};
 use crate::scenario::Scenario;
 use crate::ui::analysis::AnalysisCommand;
 use crate::ui::command::Command;
@@ -33,6 +35,8 @@ pub struct KeptTrace {
     pub v_mv: Vec<f64>,
     /// `None` when the trace is empty.
     pub metrics: Option<TraceMetrics>,
+    /// Final volume and time to half its change, for a cell whose volume is tracked.
+    pub volume: Option<VolumeMetrics>,
 }
 
 /// The kept traces and the baseline of the comparison.
@@ -60,11 +64,20 @@ impl Kept {
             t_ms: t_ms.to_vec(),
             v_mv: v_mv.to_vec(),
             metrics,
+            volume: None,
         });
         if self.baseline.is_none() && self.traces.len() == 1 {
             self.baseline = Some(0);
         }
         &self.traces[self.traces.len() - 1]
+    }
+
+    /// Adds the volume metrics of the relative volume `volume_rel` at `t_ms` to the trace kept
+    /// last (a run of `s`).
+    pub fn attach_volume(&mut self, s: &Scenario, t_ms: &[f64], volume_rel: &[f64]) {
+        if let Some(t) = self.traces.last_mut() {
+            t.volume = volume_metrics(t_ms, volume_rel, first_event_ms(s));
+        }
     }
 
     pub fn set_visible(&mut self, i: usize, on: bool) {
@@ -260,6 +273,7 @@ pub fn show(ui: &mut Ui, kept: &Kept, can_keep: bool, commands: &mut Vec<Command
                     }
                     ui.end_row();
                 }
+                volume_rows(ui, kept);
             });
     });
     if base.is_some() && kept.traces.len() > 1 {
@@ -268,6 +282,42 @@ pub fn show(ui: &mut Ui, kept: &Kept, can_keep: bool, commands: &mut Vec<Command
                 .small()
                 .weak(),
         );
+    }
+}
+
+/// The volume rows of the metrics table, when any kept trace tracked its volume.
+fn volume_rows(ui: &mut Ui, kept: &Kept) {
+    if kept.traces.iter().all(|t| t.volume.is_none()) {
+        return;
+    }
+    let base = kept
+        .baseline
+        .and_then(|b| kept.traces.get(b))
+        .and_then(|t| t.volume);
+    let rows: [(&str, fn(&VolumeMetrics) -> Option<f64>, usize); 2] = [
+        ("Final volume (relative)", |m| Some(m.final_rel), 4),
+        ("Half of volume change (ms)", |m| m.half_change_ms, 2),
+    ];
+    for (label, value, digits) in rows {
+        ui.label(label);
+        for (i, t) in kept.traces.iter().enumerate() {
+            let Some(m) = &t.volume else {
+                ui.label("—");
+                continue;
+            };
+            let v = value(m);
+            let mut text = v.map_or("—".to_string(), |v| format!("{v:.digits$}"));
+            if let Some(b) = &base
+                && kept.baseline != Some(i)
+            {
+                text += &match (v, value(b)) {
+                    (Some(v), Some(b)) => format!("  (Δ {:+.digits$})", v - b),
+                    _ => "  (Δ —)".into(),
+                };
+            }
+            ui.label(text);
+        }
+        ui.end_row();
     }
 }
 

@@ -302,6 +302,13 @@ impl App {
             .keep(self.doc.scenario(), &trace.t_ms[..n], &trace.v_mv()[..n])
             .name
             .clone();
+        if !self.doc.scenario().cell.volume.is_fixed() {
+            let w = &self.runtime.derived.volume_rel;
+            let m = n.min(w.len());
+            self.analysis
+                .kept
+                .attach_volume(self.doc.scenario(), &trace.t_ms[..m], &w[..m]);
+        }
         self.analysis.open = true;
         self.analysis.tab = AnalysisTab::Compare;
         self.set_notice(format!("Kept \"{name}\""));

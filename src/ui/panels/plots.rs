@@ -119,7 +119,11 @@ impl Plots {
             // Clear of the lower plot's rotated axis label, which can be taller than its plot.
             ui.add_space(ui.spacing().interact_size.y * 1.5);
             ui.label(RichText::new("Below:").small());
-            for choice in LowerPlot::ALL {
+            let tracked = !input.scenario.cell.volume.is_fixed();
+            for choice in LowerPlot::ALL
+                .into_iter()
+                .filter(|c| tracked || !c.needs_tracked_volume())
+            {
                 if ui
                     .selectable_label(input.lower == choice, choice.label())
                     .clicked()
@@ -133,12 +137,19 @@ impl Plots {
             }
         });
 
-        let (y_label, fixed_y) = match input.lower {
+        // A volume view chosen for another cell shows currents while this cell's volume is fixed.
+        let view = match input.lower {
+            v if v.needs_tracked_volume() && input.scenario.cell.volume.is_fixed() => LowerPlot::Currents,
+            v => v,
+        };
+        let (y_label, fixed_y) = match view {
             LowerPlot::Currents => ("Current (µA/cm²)", None),
             LowerPlot::Permeabilities => ("log₁₀ permeability (cm/s)", None),
             LowerPlot::Gates => ("Open fraction", Some((-0.02, 1.02))),
+            LowerPlot::Volume => ("Volume (relative to start)", None),
+            LowerPlot::Osmolarity => ("Osmolarity (mOsm)", None),
         };
-        let mut lower = Plot::new(("lower plot", input.lower as u8))
+        let mut lower = Plot::new(("lower plot", view as u8))
             .height(ui.available_height().max(80.0))
             .default_x_bounds(0.0, duration)
             .link_axis(link, [true, false])
@@ -157,10 +168,12 @@ impl Plots {
         if input.lower == LowerPlot::Permeabilities {
             lower = lower.y_axis_formatter(|mark, _| format_power_of_ten(mark.value));
         }
-        lower.show(ui, |pui| match input.lower {
+        lower.show(ui, |pui| match view {
             LowerPlot::Currents => current_items(&mut self.lines, pui, input),
             LowerPlot::Permeabilities => permeability_items(&mut self.lines, pui, input),
             LowerPlot::Gates => gate_items(&mut self.lines, pui, input),
+            LowerPlot::Volume => volume_items(&mut self.lines, pui, input),
+            LowerPlot::Osmolarity => osmolarity_items(&mut self.lines, pui, input),
         });
     }
 
@@ -429,6 +442,38 @@ fn kept_lines(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, kept: &[
     for k in kept.iter().filter(|k| k.visible) {
         let points = decimated(lines, &format!("kept/{}", k.id), &k.t_ms, &k.v_mv, range, cols);
         pui.line(Line::new(k.name.clone(), points).color(k.color).width(1.6));
+    }
+}
+
+/// The relative volume, with the starting volume marked.
+fn volume_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+    let dark = pui.ctx().global_style().visuals.dark_mode;
+    pui.hline(
+        HLine::new("start", 1.0)
+            .color(neutral_color(dark))
+            .width(1.0)
+            .style(LineStyle::dotted_loose()),
+    );
+    if let Some(line) = series(lines, pui, input, &input.derived.volume_rel, "volume".into())
+        .map(|l| l.color(potential_color(dark)).width(2.0))
+    {
+        pui.line(line);
+    }
+}
+
+/// Inside osmolarity against the bath's: water moves while they differ.
+fn osmolarity_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+    let dark = pui.ctx().global_style().visuals.dark_mode;
+    let d = input.derived;
+    if let Some(line) = series(lines, pui, input, &d.osm_out_mosm, "bath".into())
+        .map(|l| l.color(neutral_color(dark)).width(1.6))
+    {
+        pui.line(line.style(LineStyle::dashed_dense()));
+    }
+    if let Some(line) = series(lines, pui, input, &d.osm_in_mosm, "inside".into())
+        .map(|l| l.color(potential_color(dark)).width(2.0))
+    {
+        pui.line(line);
     }
 }
 

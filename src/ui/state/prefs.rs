@@ -27,15 +27,31 @@ pub enum LowerPlot {
     Permeabilities,
     /// Every gate's open fraction.
     Gates,
+    /// The relative volume of a cell whose volume is tracked.
+    Volume,
+    /// Inside and bath osmolarity of a cell whose volume is tracked.
+    Osmolarity,
 }
 
 impl LowerPlot {
-    pub const ALL: [LowerPlot; 3] = [LowerPlot::Currents, LowerPlot::Permeabilities, LowerPlot::Gates];
+    pub const ALL: [LowerPlot; 5] = [
+        LowerPlot::Currents,
+        LowerPlot::Permeabilities,
+        LowerPlot::Gates,
+        LowerPlot::Volume,
+        LowerPlot::Osmolarity,
+    ];
+    /// Whether this view has anything to show for a cell whose volume is fixed.
+    pub fn needs_tracked_volume(self) -> bool {
+        matches!(self, LowerPlot::Volume | LowerPlot::Osmolarity)
+    }
     pub fn label(self) -> &'static str {
         match self {
             LowerPlot::Currents => "Currents",
             LowerPlot::Permeabilities => "Permeabilities",
             LowerPlot::Gates => "Gates",
+            LowerPlot::Volume => "Volume",
+            LowerPlot::Osmolarity => "Osmolarity",
         }
     }
 }
@@ -54,7 +70,7 @@ impl Default for Speed {
 }
 
 impl Speed {
-    pub const CHOICES: [Speed; 8] = [
+    pub const CHOICES: [Speed; 9] = [
         Speed::MsPerSecond(1.0),
         Speed::MsPerSecond(5.0),
         Speed::MsPerSecond(20.0),
@@ -62,11 +78,14 @@ impl Speed {
         Speed::MsPerSecond(200.0),
         Speed::MsPerSecond(1000.0),
         Speed::MsPerSecond(5000.0),
+        // A minute per second: a cell's volume changes over minutes.
+        Speed::MsPerSecond(60000.0),
         Speed::Fastest,
     ];
 
     pub fn label(self) -> String {
         match self {
+            Speed::MsPerSecond(v) if v >= 60000.0 => format!("{} min/s", v / 60000.0),
             Speed::MsPerSecond(v) => format!("{v} ms/s"),
             Speed::Fastest => "fastest".into(),
         }

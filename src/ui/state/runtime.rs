@@ -30,6 +30,10 @@ pub struct Derived {
     pub reversal_mv: Vec<Vec<f64>>,
     /// Whether each species' concentrations change during the run (so `reversal_mv` holds it).
     pub varying: Vec<bool>,
+    /// Relative volume (1 for a fixed volume), inside and bath osmolarity (mOsm) per sample.
+    pub volume_rel: Vec<f64>,
+    pub osm_in_mosm: Vec<f64>,
+    pub osm_out_mosm: Vec<f64>,
     /// Samples done for the currents and for the permeabilities.
     currents_done: usize,
     perms_done: usize,
@@ -84,6 +88,9 @@ impl Derived {
             self.pump_ua_per_cm2.push(c.pump_ua_per_cm2);
             self.net_ua_per_cm2.push(c.net_ua_per_cm2);
             self.inject_ua_per_cm2.push(c.inject_ua_per_cm2);
+            self.volume_rel.push(r.volume_rel);
+            self.osm_in_mosm.push(r.osm_in_mosm);
+            self.osm_out_mosm.push(r.conditions.outside_mm.iter().sum());
             if any_varying {
                 let (inside, outside) = (&r.conditions.inside_mm, &r.conditions.outside_mm);
                 let t_c = model.membrane.temperature_c;
