@@ -4,8 +4,9 @@
 
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
+use permeant::scenario::{Volume, Water};
 use permeant::ui::prefs::{LowerPlot, Speed};
-use permeant::ui::{App, AppOptions, Command};
+use permeant::ui::{App, AppOptions, Command, Edit};
 
 fn harness() -> Harness<'static, App> {
     Harness::builder()
@@ -65,4 +66,20 @@ fn the_volume_view_is_offered_for_a_tracked_cell_and_shows_the_swelling() {
     h.get_by_label("Final volume (relative)");
     h.get_by_label(&format!("{:.4}", m.final_rel));
     h.get_by_label("Half of volume change (ms)");
+}
+
+#[test]
+fn the_editor_lets_the_volume_follow_water() {
+    let mut h = harness();
+    h.run_steps(2);
+    h.get_by_label("Cell volume");
+    assert!(h.query_by_label("Volume").is_none());
+    h.state_mut().queue(Command::Edit(Edit::Volume(Volume::Tracked {
+        water: Water::Instant,
+        impermeant: None,
+    })));
+    h.run_steps(2);
+    assert!(!h.state().scenario().cell.volume.is_fixed());
+    h.get_by_label("Volume");
+    h.get_by_label("Osmolarity");
 }

@@ -119,6 +119,8 @@ pub enum Edit {
     AddSpecies,
     RemoveSpecies(usize),
     TrackConcentrations(bool),
+    /// Fix the cell's volume or let it follow water (clamp-and-volume.md).
+    Volume(super::Volume),
     /// Start at rest or held at a potential (see [`held_start`] for the usual one).
     Start(Start),
     /// Add the default pump or remove the pump.
@@ -215,6 +217,7 @@ impl Edit {
                 }
             }
             Edit::TrackConcentrations(on) => s.cell.track_concentrations = *on,
+            Edit::Volume(v) => s.cell.volume = v.clone(),
             Edit::Start(start) => s.run.start = *start,
             Edit::Pump(on) => {
                 s.pump = if *on { Some(default_pump(s)) } else { None };

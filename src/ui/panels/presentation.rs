@@ -143,6 +143,8 @@ fn bar(ui: &mut Ui, info: &PresentInfo, s: &Scenario, commands: &mut Vec<Command
         egui::ComboBox::from_id_salt("presentation speed")
             .selected_text(info.speed.label())
             .width(90.0)
+            // Every choice in view, with no scrolling to reach the last.
+            .height(f32::INFINITY)
             .show_ui(ui, |ui| {
                 for s in Speed::CHOICES {
                     if ui.selectable_label(s == info.speed, s.label()).clicked() {

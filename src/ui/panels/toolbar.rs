@@ -161,6 +161,8 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
         egui::ComboBox::from_id_salt("speed")
             .selected_text(info.prefs.speed.label())
             .width(84.0)
+            // Every choice in view, with no scrolling to reach the last.
+            .height(f32::INFINITY)
             .show_ui(ui, |ui| {
                 for s in Speed::CHOICES {
                     if ui.selectable_label(s == info.prefs.speed, s.label()).clicked() {

@@ -88,6 +88,63 @@ fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
     {
         ed.push(Edit::TrackConcentrations(track));
     }
+    volume_choice(ui, ed);
+}
+
+/// Whether the volume is fixed or follows water, instantly or at a water permeability. A
+/// given impermeant solute is kept across the choice.
+fn volume_choice(ui: &mut Ui, ed: &mut Editing) {
+    use crate::scenario::{Volume, Water};
+    let now = &ed.scenario.cell.volume;
+    let kept = match now {
+        Volume::Tracked { impermeant, .. } => impermeant.clone(),
+        Volume::Fixed => None,
+    };
+    let choices = [
+        ("fixed", Volume::Fixed),
+        (
+            "follows water instantly",
+            Volume::Tracked {
+                water: Water::Instant,
+                impermeant: kept.clone(),
+            },
+        ),
+        (
+            "follows water (osmotic permeability)",
+            Volume::Tracked {
+                water: Water::Permeability { pf_um_per_s: 20.0 },
+                impermeant: kept,
+            },
+        ),
+    ];
+    let same_kind = |a: &Volume, b: &Volume| match (a, b) {
+        (Volume::Fixed, Volume::Fixed) => true,
+        (Volume::Tracked { water: x, .. }, Volume::Tracked { water: y, .. }) => {
+            std::mem::discriminant(x) == std::mem::discriminant(y)
+        }
+        _ => false,
+    };
+    let shown = choices
+        .iter()
+        .find(|c| same_kind(&c.1, now))
+        .map_or("fixed", |c| c.0);
+    ui.horizontal(|ui| {
+        let label = ui.label("Cell volume");
+        egui::ComboBox::from_id_salt("cell volume")
+            .selected_text(shown)
+            .show_ui(ui, |ui| {
+                for (text, v) in &choices {
+                    if ui.selectable_label(same_kind(v, now), *text).clicked() && !same_kind(v, now) {
+                        ed.push(Edit::Volume(v.clone()));
+                    }
+                }
+            })
+            .response
+            .labelled_by(label.id)
+            .on_hover_text(
+                "A volume that follows water tracks the inside concentrations too; the impermeant inside solute is derived at the start unless the file gives it",
+            );
+    });
 }
 
 fn species_table(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
