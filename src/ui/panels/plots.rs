@@ -115,7 +115,8 @@ impl Plots {
             .label_formatter(|h| hover_label(h, "ms", "mV"))
             .show(ui, |pui| potential_items(&mut self.lines, pui, input));
 
-        ui.horizontal(|ui| {
+        // Wrapped: with large text and the volume views the choices outgrow a narrow plot.
+        ui.horizontal_wrapped(|ui| {
             // Clear of the lower plot's rotated axis label, which can be taller than its plot.
             ui.add_space(ui.spacing().interact_size.y * 1.5);
             ui.label(RichText::new("Below:").small());
@@ -466,9 +467,9 @@ fn osmolarity_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, in
     let dark = pui.ctx().global_style().visuals.dark_mode;
     let d = input.derived;
     if let Some(line) = series(lines, pui, input, &d.osm_out_mosm, "bath".into())
-        .map(|l| l.color(neutral_color(dark)).width(1.6))
+        .map(|l| l.color(neutral_color(dark)).width(3.0))
     {
-        pui.line(line.style(LineStyle::dashed_dense()));
+        pui.line(line);
     }
     if let Some(line) = series(lines, pui, input, &d.osm_in_mosm, "inside".into())
         .map(|l| l.color(potential_color(dark)).width(2.0))
