@@ -61,7 +61,7 @@ pub fn solute_at_start(s: &Scenario) -> Result<Option<Solute>, String> {
     let osm_in: f64 = s.species.iter().map(|x| x.inside_mm).sum();
     let osm_out = outside_osmolarity_at_start(s);
     let x = osm_out - osm_in;
-    if !(x > ISO_OSMOTIC_TOLERANCE * osm_out) {
+    if x.is_nan() || x <= ISO_OSMOTIC_TOLERANCE * osm_out {
         return Err(format!(
             "no impermeant inside solute can make the cell iso-osmotic: the species inside already add up to {osm_in} mOsm and the bath to {osm_out} mOsm at t = 0; lower the inside concentrations, or give `impermeant: Some((inside_mm: .., charge: ..))`"
         ));

@@ -285,6 +285,9 @@ pub fn show(ui: &mut Ui, kept: &Kept, can_keep: bool, commands: &mut Vec<Command
     }
 }
 
+/// One volume row of the metrics table: its label, its value, and the digits it is shown with.
+type VolumeRow = (&'static str, fn(&VolumeMetrics) -> Option<f64>, usize);
+
 /// The volume rows of the metrics table, when any kept trace tracked its volume.
 fn volume_rows(ui: &mut Ui, kept: &Kept) {
     if kept.traces.iter().all(|t| t.volume.is_none()) {
@@ -294,7 +297,7 @@ fn volume_rows(ui: &mut Ui, kept: &Kept) {
         .baseline
         .and_then(|b| kept.traces.get(b))
         .and_then(|t| t.volume);
-    let rows: [(&str, fn(&VolumeMetrics) -> Option<f64>, usize); 2] = [
+    let rows: [VolumeRow; 2] = [
         ("Final volume (relative)", |m| Some(m.final_rel), 4),
         ("Half of volume change (ms)", |m| m.half_change_ms, 2),
     ];
