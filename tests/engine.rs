@@ -970,21 +970,10 @@ fn tracked_concentrations_change_by_exactly_the_charge_that_crossed() {
     s.cell.diameter_um = 5.0;
     s.cell.track_concentrations = true;
     let r = run_to_end(&s, tight());
-    let model = r.model();
-    let tr = r.trace();
     let h = s.run.sample_ms;
-    let n = tr.len();
+    let n = r.trace().len();
     assert_eq!(n, 20_001);
-    let mut y = vec![0.0; model.dim()];
-    let mut readout = model.readout();
-    let mut currents = vec![Vec::with_capacity(n); s.species.len()];
-    for k in 0..n {
-        tr.state(k, &mut y);
-        model.read(tr.t_ms[k], &y, &mut readout);
-        for (c, i) in currents.iter_mut().zip(&readout.currents.species_ua_per_cm2) {
-            c.push(*i);
-        }
-    }
+    let currents = common::species_currents(&r);
     // Vol/A of a sphere is d/6; µA·ms = nC, and mM·cm·C/mol = 1e-6 C/cm², so both sides below
     // are in nC/cm².
     let d_cm = s.cell.diameter_um * 1e-4;

@@ -384,21 +384,7 @@ fn amounts_move_by_exactly_the_current_each_species_carries_and_charge_stays_on_
     // errs by at most (T·h²/12)·max|I''| (common practice), bounded from the samples.
     let h = s.run.sample_ms;
     let n = tr.len();
-    let mut y = vec![0.0; model.dim()];
-    let mut readout = model.readout();
-    let mut currents = vec![Vec::with_capacity(n); s.species.len()];
-    for k in 0..n {
-        tr.state(k, &mut y);
-        model.read(tr.t_ms[k], &y, &mut readout);
-        let shares = model.membrane.pump_shares(readout.currents.pump_ua_per_cm2);
-        for (sp, c) in currents.iter_mut().enumerate() {
-            let mut i = readout.currents.species_ua_per_cm2[sp];
-            if let Some((e, ie, m, im)) = shares {
-                i += if sp == e { ie } else { 0.0 } + if sp == m { im } else { 0.0 };
-            }
-            c.push(i);
-        }
-    }
+    let currents = common::species_currents(&r);
     for (sp, i) in currents.iter().enumerate() {
         let z = f64::from(s.species[sp].charge);
         let lhs = (y1[co + sp] - y0[co + sp]) * z * vol_per_area_cm * reference::F_C_PER_MOL * 1e3;

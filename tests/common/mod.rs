@@ -7,7 +7,7 @@ pub mod cli;
 pub mod ode;
 pub mod reference;
 
-use permeant::engine::SolverSettings;
+use permeant::engine::{Run, SolverSettings};
 use permeant::scenario::{Scenario, Valid, validate};
 use reference::Ion;
 
@@ -39,4 +39,26 @@ pub fn tight() -> SolverSettings {
         atol_relative: 1e-12,
         ..Default::default()
     }
+}
+
+/// Each species' whole current at every sample of a run, µA/cm²: its GHK current and its share
+/// of the pump flux (model.md), what moves its inside amount.
+pub fn species_currents(r: &Run) -> Vec<Vec<f64>> {
+    let (model, tr) = (r.model(), r.trace());
+    let mut y = vec![0.0; model.dim()];
+    let mut readout = model.readout();
+    let mut currents = vec![Vec::with_capacity(tr.len()); model.species_count()];
+    for k in 0..tr.len() {
+        tr.state(k, &mut y);
+        model.read(tr.t_ms[k], &y, &mut readout);
+        let shares = model.membrane.pump_shares(readout.currents.pump_ua_per_cm2);
+        for (sp, c) in currents.iter_mut().enumerate() {
+            let mut i = readout.currents.species_ua_per_cm2[sp];
+            if let Some((e, ie, m, im)) = shares {
+                i += if sp == e { ie } else { 0.0 } + if sp == m { im } else { 0.0 };
+            }
+            c.push(i);
+        }
+    }
+    currents
 }
