@@ -1405,6 +1405,8 @@ fn check_any_text(text: &str) -> Result<(), TestCaseError> {
             let shown = e.to_string();
             prop_assert!(shown.starts_with(FILE), "{}", shown);
             if let Some(Location::Text { line, column }) = e.location() {
+                // A lone carriage return ends a line too, as the reader counts lines.
+                let text = text.replace("\r\n", "\n").replace('\r', "\n");
                 let lines = text.split('\n').count();
                 prop_assert!(line >= 1 && line <= lines, "line {} of {}", line, lines);
                 let width = text.split('\n').nth(line - 1).map_or(0, |l| l.chars().count());
