@@ -100,6 +100,7 @@ fn excitable() -> Scenario {
             species: "Na+".into(),
             target: Default::default(),
             max_block: 1.0,
+            max_increase: None,
             ic50_um: 1.0,
             hill: 1.0,
             dose_um: 3.0,

@@ -581,6 +581,48 @@ fn an_agent_at_its_ic50_halves_the_target_permeability() {
     );
 }
 
+#[test]
+fn an_opener_multiplies_the_permeability_by_one_plus_its_increase_times_occupancy() {
+    // scenario-format.md: an opener multiplies its species' permeability by
+    // 1 + max_increase·occupancy, the occupancy dⁿ/(dⁿ + IC50ⁿ) of Hill–Langmuir (Hill 1910;
+    // common practice). At d = IC50 with Hill 2 the occupancy is one half, so an increase of 3
+    // gives 1 + 3/2 = 2.5 times the K+ permeability, and the cell settles at the GHK potential
+    // of that permeability.
+    let agent = r#"Agent(label: "opener", species: "K+", max_increase: Some(3.0), ic50_um: 4.0, hill: 2.0,
+                          dose_um: 4.0, from_ms: 10.0, onset_ms: 5.0, washout_ms: 5.0)"#;
+    let s = passive(agent, 400.0, 1.0, "Rest");
+    let r = run_to_end(&s, SolverSettings::default());
+    let state = r.state().to_vec();
+    let mut cond = permeant::physics::Conditions::default();
+    r.model().conditions(&state, 0.0, &mut cond);
+    let occupancy = reference::fraction_blocked(1.0, 4.0, 2.0, 4.0);
+    assert!((occupancy - 0.5).abs() < 1e-15);
+    assert!(
+        (cond.p_factor[0] - 2.5).abs() < SETTLED_FACTOR,
+        "K+ permeability factor {}",
+        cond.p_factor[0]
+    );
+    assert_eq!((cond.p_factor[1], cond.p_factor[2]), (1.0, 1.0));
+    let mut opened = s.clone();
+    opened.protocol.clear();
+    opened.species[0].permeability_cm_per_s *= 2.5;
+    let expected = goldman_mv(&opened);
+    assert!(
+        expected
+            < goldman_mv(&{
+                let mut c = s.clone();
+                c.protocol.clear();
+                c
+            }),
+        "more K+ permeability hyperpolarizes"
+    );
+    assert!(
+        (r.v_mv() - expected).abs() < SETTLED_MV,
+        "ended at {} mV, GHK with P_K × 2.5 {expected} mV",
+        r.v_mv()
+    );
+}
+
 // ---------------------------------------------------------------------------------------------
 // Output samples (model.md "Output samples")
 // ---------------------------------------------------------------------------------------------

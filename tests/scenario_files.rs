@@ -851,6 +851,15 @@ fn sample_interval_must_be_positive() {
 }
 
 #[test]
+fn a_sample_interval_longer_than_the_run_is_refused() {
+    // Issue 13: 300 ms samples of a 250 ms run record only t = 0 and plot nothing.
+    let text = with("sample_ms: 0.1", "sample_ms: 300.0");
+    assert_problem(&text, "run.sample_ms", &["longer than the run", "250 ms"]);
+    // One sample interval as long as the run records its two ends: allowed.
+    assert!(read(&with("sample_ms: 0.1", "sample_ms: 250.0")).is_ok());
+}
+
+#[test]
 fn more_than_ten_million_samples_is_refused() {
     // 10 000 000 ms every 1 ms is 10 000 001 samples, counting both ends.
     let text = with(
@@ -895,6 +904,34 @@ fn agent_constants_are_checked() {
     for edge in ["max_block: 0.0", "max_block: 1.0"] {
         assert!(read(&with("max_block: 0.8", edge)).is_ok(), "{edge} is allowed");
     }
+}
+
+#[test]
+fn an_opener_is_refused_with_a_negative_increase_or_a_block_beside_it() {
+    let opener = |block: &str, increase: &str| {
+        with(
+            "max_block: 0.8",
+            &format!("{block}max_increase: Some({increase})"),
+        )
+    };
+    assert_problem(
+        &opener("", "-0.5"),
+        "protocol[2].max_increase",
+        &["cannot be negative"],
+    );
+    assert_problem(&opener("", "inf"), "protocol[2].max_increase", &["finite"]);
+    assert_problem(
+        &opener("max_block: 0.8, ", "2.0"),
+        "protocol[2].max_increase",
+        &["either blocks", "or opens", "not both"],
+    );
+    // An opener alone, or beside the default max_block written out, is a valid agent.
+    let valid = read(&opener("", "2.0")).expect("an opener");
+    assert!(matches!(
+        valid.protocol[2],
+        permeant::scenario::Event::Agent { max_increase: Some(x), .. } if x == 2.0
+    ));
+    assert!(read(&opener("max_block: 1.0, ", "0.0")).is_ok());
 }
 
 #[test]
@@ -1239,6 +1276,17 @@ fn default_scenario_round_trips() {
     let s = Scenario::new_default();
     assert!(scenario::problems(&s).is_empty());
     assert_eq!(read(&to_ron_string(&s)).ok(), Some(s));
+}
+
+#[test]
+fn an_opener_round_trips_and_a_blocker_saves_without_the_new_field() {
+    let blocker = read(GOOD).expect("valid");
+    assert!(!to_ron_string(&blocker).contains("max_increase"));
+    let text = with("max_block: 0.8", "max_increase: Some(2.5)");
+    let opener = read(&text).expect("valid");
+    let saved = to_ron_string(&opener);
+    assert!(saved.contains("max_increase: Some(2.5)"), "{saved}");
+    assert_eq!(read(&saved).ok(), Some(opener));
 }
 
 #[test]

@@ -86,10 +86,11 @@ fn typing_a_bath_potassium_moves_its_reversal_and_the_resting_potential() {
     h.run_steps(2);
     h.get_by_label("K+ outside (mM)").type_text("25");
     h.run_steps(2);
-    // Accepted as typed, before the field is left.
-    assert_eq!(h.state().scenario().species[k].outside_mm, 25.0);
+    // Applied only once the entry is complete.
+    assert_eq!(h.state().scenario().species[k].outside_mm, 5.0);
     h.key_press(Key::Enter);
     h.run_steps(2);
+    assert_eq!(h.state().scenario().species[k].outside_mm, 25.0);
 
     let e_after = nernst_mv(1, 140.0, 25.0, temperature).expect("defined");
     // Nernst: a fivefold rise is log10(5)·RT/F·ln(10) ≈ 43 mV at 37 °C (common practice).

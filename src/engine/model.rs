@@ -13,7 +13,7 @@ use crate::physics::{Conditions, GatedChannel, IvCurves, Kinetics, Membrane, Pum
 use crate::scenario::{Start, Valid};
 
 use super::EngineError;
-use super::protocol::{Lag, LagId, LagKind, Protocol, fraction_blocked};
+use super::protocol::{Lag, LagId, LagKind, Protocol};
 use super::stepper::System;
 use super::volume::VolumeModel;
 
@@ -421,16 +421,16 @@ impl Model {
                 LagKind::Scale { species, .. } => out.p_factor[*species] *= e.max(0.0),
                 LagKind::Agent {
                     species,
-                    max_block,
+                    action,
                     ic50_um,
                     hill,
                     ..
                 } => {
-                    let unblocked = 1.0 - fraction_blocked(*max_block, *ic50_um, *hill, e);
+                    let factor = action.permeability_factor(*ic50_um, *hill, e);
                     match species {
-                        Some(sp) => out.p_factor[*sp] *= unblocked,
+                        Some(sp) => out.p_factor[*sp] *= factor,
                         // Several agents on the pump multiply, as on a species.
-                        None => out.pump_block = 1.0 - (1.0 - out.pump_block) * unblocked,
+                        None => out.pump_block = 1.0 - (1.0 - out.pump_block) * factor,
                     }
                 }
                 LagKind::Bath { .. } => {}

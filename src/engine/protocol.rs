@@ -39,7 +39,7 @@ pub enum LagKind {
     /// maximum current when `species` is `None`.
     Agent {
         species: Option<usize>,
-        max_block: f64,
+        action: AgentAction,
         ic50_um: f64,
         hill: f64,
         dose_um: f64,
@@ -150,6 +150,36 @@ impl Lag {
                 out.extend(until_ms);
             }
             LagKind::Bath { changes, .. } => out.extend(changes.iter().map(|c| c.0)),
+        }
+    }
+}
+
+/// What an agent does to its species' permeability at full occupancy: one or the other, never
+/// both (the file's `max_block` and `max_increase` are exclusive).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum AgentAction {
+    /// Removes up to this fraction (0–1).
+    Block { max_block: f64 },
+    /// Adds up to this multiple of the permeability (≥ 0).
+    Open { max_increase: f64 },
+}
+
+impl AgentAction {
+    /// The action an `Agent` event describes.
+    pub fn of(max_block: f64, max_increase: Option<f64>) -> AgentAction {
+        match max_increase {
+            Some(max_increase) => AgentAction::Open { max_increase },
+            None => AgentAction::Block { max_block },
+        }
+    }
+
+    /// The factor on the species' permeability at lagged dose `d_um`: `1 − max_block·occupancy`
+    /// or `1 + max_increase·occupancy`, occupancy being `dⁿ/(dⁿ + IC50ⁿ)`.
+    pub fn permeability_factor(self, ic50_um: f64, hill: f64, d_um: f64) -> f64 {
+        let occupancy = fraction_blocked(1.0, ic50_um, hill, d_um);
+        match self {
+            AgentAction::Block { max_block } => 1.0 - max_block * occupancy,
+            AgentAction::Open { max_increase } => 1.0 + max_increase * occupancy,
         }
     }
 }
@@ -307,6 +337,7 @@ impl Protocol {
                     species,
                     target,
                     max_block,
+                    max_increase,
                     ic50_um,
                     hill,
                     dose_um,
@@ -327,7 +358,7 @@ impl Protocol {
                         event: i,
                         kind: LagKind::Agent {
                             species: sp,
-                            max_block: *max_block,
+                            action: AgentAction::of(*max_block, *max_increase),
                             ic50_um: *ic50_um,
                             hill: *hill,
                             dose_um: *dose_um,

@@ -501,6 +501,7 @@ pub fn new_event(s: &Scenario, kind: EventKind) -> Event {
                 species: pick_species(s, &["K+"]),
                 target: Default::default(),
                 max_block: 1.0,
+                max_increase: None,
                 ic50_um: 1.0,
                 hill: 1.0,
                 dose_um: 10.0,

@@ -203,6 +203,7 @@ mod tests {
             species: "K+".into(),
             target: Default::default(),
             max_block: 1.0,
+            max_increase: None,
             ic50_um: 1.0,
             hill: 1.0,
             dose_um: 10.0,

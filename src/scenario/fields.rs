@@ -832,6 +832,16 @@ pub static FIELDS: &[Field] = &[
         holder: Holder::Event(pick!(Event::Agent { max_block, .. } => max_block)),
     },
     Field {
+        path: "protocol[].max_increase",
+        unit: "",
+        label: "largest increase",
+        limits: Limits::NonNegative("the largest increase of an opener"),
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.01 },
+        span: Span::Fixed { lo: 0.0, hi: 10.0 },
+        holder: Holder::Event(pick!(Event::Agent { max_increase: Some(max_increase), .. } => max_increase)),
+    },
+    Field {
         path: "protocol[].ic50_um",
         unit: "µM",
         label: "IC50",

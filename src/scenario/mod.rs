@@ -209,8 +209,10 @@ pub enum Event {
         #[serde(default)]
         lag_ms: f64,
     },
-    /// A blocker applied inside `[from, until)`, blocking `max_block·d^n/(d^n + IC50^n)` of
-    /// its species' permeability, or of the pump's maximum current (`target: Pump`, no species).
+    /// A drug applied inside `[from, until)` on its species' permeability, or on the pump's
+    /// maximum current (`target: Pump`, no species). A blocker multiplies it by
+    /// `1 − max_block·occupancy`, an opener (`max_increase` given) by
+    /// `1 + max_increase·occupancy`, where occupancy is `dⁿ/(dⁿ + IC50ⁿ)`.
     Agent {
         label: String,
         #[serde(default, skip_serializing_if = "String::is_empty")]
@@ -219,6 +221,10 @@ pub enum Event {
         target: AgentTarget,
         #[serde(default = "one")]
         max_block: f64,
+        /// An opener's largest relative increase of permeability; exclusive with a `max_block`
+        /// other than its default (a compatible addition to format 1).
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        max_increase: Option<f64>,
         ic50_um: f64,
         #[serde(default = "one")]
         hill: f64,

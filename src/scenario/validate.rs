@@ -297,6 +297,20 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
                     format!("ends at {u} ms, before it starts ({from_ms} ms)"),
                 );
             }
+            // An opener that also names a block is told right after its increase's bounds.
+            if path == "protocol[].max_increase"
+                && let Event::Agent {
+                    max_block,
+                    max_increase: Some(_),
+                    ..
+                } = ev
+                && *max_block != 1.0
+            {
+                c.fail(
+                    format!("{p}.max_increase"),
+                    format!("an agent either blocks (max_block) or opens (max_increase), not both; this one also gives max_block: {max_block}"),
+                );
+            }
         });
         if let Event::InjectTrain {
             width_ms,
@@ -342,7 +356,17 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
             && s.run.sample_ms > 0.0
         {
             let n = (s.run.duration_ms / s.run.sample_ms).floor() + 1.0;
-            if n > MAX_OUTPUT_SAMPLES {
+            // The grid's last sample is at floor(duration/sample + 1e-9) intervals (model.md):
+            // with none, only the starting point would be recorded, a run that plots nothing.
+            if s.run.duration_ms > 0.0 && (s.run.duration_ms / s.run.sample_ms + 1e-9).floor() < 1.0 {
+                c.fail(
+                    "run.sample_ms",
+                    format!(
+                        "a sample interval of {} ms is longer than the run ({} ms), so only the starting point would be recorded; choose at most {} ms",
+                        s.run.sample_ms, s.run.duration_ms, s.run.duration_ms
+                    ),
+                );
+            } else if n > MAX_OUTPUT_SAMPLES {
                 c.fail(
                     "run.sample_ms",
                     format!("the run would write {n:.0} samples, more than the limit of 10 million; choose a larger sample interval or a shorter duration"),

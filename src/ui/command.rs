@@ -17,6 +17,9 @@ use crate::ui::state::prefs::{LowerPlot, Speed, ThemeChoice};
 pub enum Command {
     /// Change the scenario. Edits that would make it invalid are refused with the reason.
     Edit(Edit),
+    /// A typed entry, complete (Enter or its field left): applied like [`Command::Edit`], and
+    /// always its own undo step however quickly the next one follows.
+    Entry(Edit),
 
     /// Start a new scenario from the default cell (asks first when there are unsaved changes).
     New,
@@ -58,6 +61,8 @@ pub enum Command {
 
     /// What the plot under the membrane potential shows.
     SetLowerPlot(LowerPlot),
+    /// Width and height in pixels of the plots' PNG export.
+    SetPngSize([u32; 2]),
     SetTheme(ThemeChoice),
     /// Scale the whole interface up for a projector.
     SetLargeText(bool),

@@ -19,7 +19,8 @@ enum Action {
     SaveAs,
     Open,
     Presentation,
-    LeavePresentation,
+    /// Esc: closes what is on top (a dialog, the key list, About), else leaves presentation.
+    Close,
     Shortcuts,
     KeepTrace,
     Analysis,
@@ -117,10 +118,10 @@ const BINDINGS: &[Binding] = &[
         outside_text: false,
     },
     Binding {
-        action: Action::LeavePresentation,
+        action: Action::Close,
         keys: &[(NONE, Key::Escape)],
         shown: "Esc",
-        what: "Leave presentation",
+        what: "Close a question, this list or About; leave presentation",
         outside_text: true,
     },
     Binding {
@@ -138,8 +139,12 @@ pub struct KeyContext {
     pub presenting: bool,
     /// The list of keys is on screen.
     pub overlay_open: bool,
-    /// A dialog waits for an answer: keys must not act behind it.
+    /// A dialog waits for an answer: keys must not act behind it (Esc cancels it).
     pub dialog_open: bool,
+    /// The offer to restore a crashed session's scenario: only its buttons answer it.
+    pub offer_open: bool,
+    /// The About window is open.
+    pub about_open: bool,
     /// The analysis window is open.
     pub analysis_open: bool,
 }
@@ -175,19 +180,28 @@ pub fn read(ctx: &Context, kc: KeyContext) -> Vec<Command> {
             if !*repeat && let Some(cmd) = command(b.action, kc) {
                 out.push(cmd);
             }
-            false
+            // Esc stays in the input: a field that just lost the keyboard to it must still see
+            // that its entry was abandoned, not completed.
+            b.action == Action::Close
         });
     });
     out
 }
 
 fn command(a: Action, kc: KeyContext) -> Option<Command> {
-    if kc.dialog_open {
+    // The modal layers, topmost first: Esc closes the top one, other keys wait behind it.
+    if kc.offer_open {
         return None;
     }
+    if kc.dialog_open {
+        return (a == Action::Close).then_some(Command::Dismiss);
+    }
     if kc.overlay_open {
-        // The overlay closes itself on Esc; F1 and `?` close it too.
-        return (a == Action::Shortcuts).then_some(Command::ShowShortcuts(false));
+        // F1 and `?` close the list too.
+        return matches!(a, Action::Shortcuts | Action::Close).then_some(Command::ShowShortcuts(false));
+    }
+    if kc.about_open && a == Action::Close {
+        return Some(Command::ShowAbout(false));
     }
     Some(match a {
         Action::RunPause => Command::RunPause,
@@ -198,8 +212,8 @@ fn command(a: Action, kc: KeyContext) -> Option<Command> {
         Action::SaveAs => Command::SaveAs,
         Action::Open => Command::Open,
         Action::Presentation => Command::SetPresentation(!kc.presenting),
-        Action::LeavePresentation if kc.presenting => Command::SetPresentation(false),
-        Action::LeavePresentation => return None,
+        Action::Close if kc.presenting => Command::SetPresentation(false),
+        Action::Close => return None,
         Action::Shortcuts => Command::ShowShortcuts(true),
         Action::KeepTrace => Command::Analysis(AnalysisCommand::Keep),
         Action::Analysis => Command::Analysis(AnalysisCommand::Show(!kc.analysis_open)),
@@ -287,7 +301,12 @@ mod tests {
             command(Action::Shortcuts, overlay),
             Some(Command::ShowShortcuts(false))
         );
-        assert_eq!(command(Action::LeavePresentation, KeyContext::default()), None);
+        assert_eq!(
+            command(Action::Close, overlay),
+            Some(Command::ShowShortcuts(false))
+        );
+        assert_eq!(command(Action::Close, dialog), Some(Command::Dismiss));
+        assert_eq!(command(Action::Close, KeyContext::default()), None);
         let presenting = KeyContext {
             presenting: true,
             ..KeyContext::default()

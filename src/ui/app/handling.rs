@@ -11,9 +11,11 @@ use super::App;
 use crate::scenario;
 use crate::ui::analysis::{AnalysisCommand, AnalysisTab};
 use crate::ui::command::{Command, FilePurpose};
-use crate::ui::dialogs::export::{ExportKind, Shown};
+use crate::ui::dialogs::export::{self, ExportKind, Shown};
+use crate::ui::dialogs::figure;
 use crate::ui::dialogs::files::Chosen;
 use crate::ui::dialogs::{Dialog, Pending};
+use crate::ui::panels::plots::{PlotInput, Plots};
 use crate::ui::panels::presentation;
 use crate::ui::state::document::{Document, Origin};
 use crate::ui::state::prefs::{self, Prefs};
@@ -23,15 +25,8 @@ impl App {
     /// Applies one command now, as the end of a frame does.
     pub fn apply(&mut self, cmd: Command, ctx: &egui::Context) {
         match cmd {
-            Command::Edit(edit) => match self.checked.take(&self.doc, &edit) {
-                Ok(next) => {
-                    if edit.is_discrete() {
-                        self.undo.add_undo(self.doc.version());
-                    }
-                    self.doc.change(next);
-                }
-                Err(reason) => self.set_notice(format!("Not changed: {}", reason.message)),
-            },
+            Command::Edit(edit) => self.edit(edit, false),
+            Command::Entry(edit) => self.edit(edit, true),
             Command::New => self.guarded(Pending::New, ctx),
             Command::Open => self.guarded(Pending::Open, ctx),
             Command::OpenPath(p) => self.guarded(Pending::OpenPath(p), ctx),
@@ -86,6 +81,7 @@ impl App {
             Command::Restart => self.runtime.restart(self.doc.scenario()),
             Command::SetSpeed(s) => self.set_prefs(|p| p.speed = s),
             Command::SetLowerPlot(l) => self.set_prefs(|p| p.lower_plot = l),
+            Command::SetPngSize(size) => self.set_prefs(|p| p.png_size_px = size),
             Command::SetTheme(t) => self.set_prefs(|p| p.theme = t),
             Command::SetLargeText(on) => self.set_prefs(|p| p.large_text = on),
             Command::SetShowIv(on) => self.set_prefs(|p| p.show_iv = on),
@@ -112,6 +108,20 @@ impl App {
         // The run follows every change of the scenario, whatever caused it.
         self.runtime.follow(self.doc.revision(), self.doc.scenario());
         self.apply_theme(ctx);
+    }
+
+    /// Applies `edit` when it leaves the scenario valid; a discrete edit or a completed `entry`
+    /// is its own undo step (a drag's stream of edits becomes one once it settles).
+    fn edit(&mut self, edit: scenario::Edit, entry: bool) {
+        match self.checked.take(&self.doc, &edit) {
+            Ok(next) => {
+                if entry || edit.is_discrete() {
+                    self.undo.add_undo(self.doc.version());
+                }
+                self.doc.change(next);
+            }
+            Err(reason) => self.set_notice(format!("Not changed: {}", reason.message)),
+        }
     }
 
     fn set_prefs(&mut self, change: impl FnOnce(&mut Prefs)) {
@@ -259,7 +269,9 @@ impl App {
             }
             None => (&[][..], &[][..], 0),
         };
-        if n == 0 && kind != ExportKind::MetricsCsv && self.analysis.kept.traces.is_empty() {
+        // The plots are worth a picture before a run too (the reversal lines, the protocol).
+        let needs_trace = !matches!(kind, ExportKind::MetricsCsv | ExportKind::Png);
+        if n == 0 && needs_trace && self.analysis.kept.traces.is_empty() {
             self.set_notice("Nothing to export: the run could not start");
             return;
         }
@@ -280,9 +292,36 @@ impl App {
                 .collect(),
             metrics_csv: self.analysis.kept.metrics_csv(),
         };
-        if let Some(done) = self.exporter.start(kind, path, &shown, ctx) {
-            self.export_done(done);
-        }
+        let done = export::export(kind, path, &shown, || self.plots_png(ctx));
+        self.export_done(done);
+    }
+
+    /// The two plots alone, drawn apart from the window at the chosen size in its present look,
+    /// with the whole run in view, as PNG bytes.
+    fn plots_png(&self, ctx: &egui::Context) -> Result<Vec<u8>, String> {
+        let gate_names = self
+            .runtime
+            .run()
+            .map(|r| r.model().gate_names.clone())
+            .unwrap_or_default();
+        let input = PlotInput {
+            scenario: self.doc.scenario(),
+            rest: self.readouts.rest.as_ref().ok(),
+            trace: self.runtime.trace(),
+            shown_len: self.runtime.shown_len(),
+            shown_ms: self.runtime.shown_ms(),
+            derived: &self.runtime.derived,
+            gate_names: &gate_names,
+            lower: self.prefs.lower_plot,
+            generation: self.runtime.generation,
+            kept: &self.analysis.kept.traces,
+        };
+        let mut plots = Plots::default();
+        let style = ctx.global_style();
+        let picture = figure::draw(self.prefs.png_size_px, style.visuals.dark_mode, style, |ui| {
+            plots.show(ui, &input, None);
+        });
+        export::encode_png(picture.width, picture.height, &picture.to_rgba8())
     }
 
     /// Keeps the shown part of the run as a reference trace and shows it in the comparison.

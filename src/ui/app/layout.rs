@@ -39,7 +39,6 @@ impl App {
             presentation,
             shortcuts_open,
             side,
-            plot_rect,
             offer,
             analysis,
             ..
@@ -135,7 +134,7 @@ impl App {
                 });
         }
 
-        let central = egui::CentralPanel::default().show(ui, |ui| {
+        egui::CentralPanel::default().show(ui, |ui| {
             let gate_names = runtime
                 .run()
                 .map(|r| r.model().gate_names.clone())
@@ -152,9 +151,8 @@ impl App {
                 generation: runtime.generation,
                 kept: &analysis.kept.traces,
             };
-            plots.show(ui, &input, &mut commands);
+            plots.show(ui, &input, Some(&mut commands));
         });
-        *plot_rect = central.response.rect;
         if analysis.open {
             analysis.show(ui, scenario, runtime.shown_len() > 0, &mut commands);
         }

@@ -16,7 +16,6 @@ use crate::autosave::Autosave;
 use crate::scenario::{self, Scenario};
 use crate::ui::analysis::Analysis;
 use crate::ui::command::Command;
-use crate::ui::dialogs::export::Exporter;
 use crate::ui::dialogs::files::FileChooser;
 use crate::ui::dialogs::restore::{Autosaver, Offer};
 use crate::ui::dialogs::{Dialog, Pending};
@@ -112,9 +111,6 @@ pub struct App {
     shortcuts_open: bool,
     /// The side panel: current–voltage view or notes.
     side: Side,
-    exporter: Exporter,
-    /// The central plot area as last drawn, in points (what a PNG export shows).
-    plot_rect: egui::Rect,
     autosaver: Option<Autosaver>,
     /// What a crashed session left, until the user restores or discards it.
     offer: Option<Offer>,
@@ -165,8 +161,6 @@ impl App {
             presentation: Presentation::default(),
             shortcuts_open: false,
             side: Side::default(),
-            exporter: Exporter::default(),
-            plot_rect: egui::Rect::NOTHING,
             autosaver: None,
             offer: None,
             analysis: Analysis::default(),
@@ -293,9 +287,6 @@ impl eframe::App for App {
         if let Some(answer) = self.files.poll() {
             self.chosen(answer, ctx);
         }
-        if let Some(done) = self.exporter.poll(self.plot_rect, ctx.pixels_per_point()) {
-            self.export_done(done);
-        }
         self.autosave_tick(ctx);
         if self.presentation.on {
             // The window may have been resized or moved to the projector.
@@ -327,11 +318,14 @@ impl eframe::App for App {
         let keys = KeyContext {
             presenting: self.presentation.on,
             overlay_open: self.shortcuts_open,
-            dialog_open: self.dialog.is_some() || self.offer.is_some(),
+            dialog_open: self.dialog.is_some(),
+            offer_open: self.offer.is_some(),
+            about_open: self.about_open,
             analysis_open: self.analysis.open,
         };
         let mut commands = shortcuts::read(&ctx, keys);
         commands.append(&mut self.draw(ui));
+        commands.extend(crate::ui::widgets::finish_unseen_entry(&ctx));
         commands.append(&mut self.queued);
         for cmd in commands {
             self.apply(cmd, &ctx);
@@ -359,6 +353,11 @@ impl eframe::App for App {
 
 /// Presentation, exports and autosave.
 impl App {
+    /// The two plot areas (potential above, the lower plot below) as last drawn, in points.
+    pub fn plot_frames(&self) -> Option<[egui::Rect; 2]> {
+        self.plots.frames()
+    }
+
     /// Whether the window is in presentation.
     pub fn presenting(&self) -> bool {
         self.presentation.on

@@ -2,6 +2,7 @@
 //! a typed path when no file dialog can be shown, and the About window.
 
 pub mod export;
+pub mod figure;
 pub mod files;
 pub mod restore;
 

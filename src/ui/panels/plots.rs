@@ -51,6 +51,14 @@ pub struct Plots {
     v_min: f64,
     v_max: f64,
     lines: HashMap<String, Decimator>,
+    /// Widths of the two plots' potential and lower y axes as last drawn, points. Each plot's
+    /// axis is made as wide as the wider of the two, so their time axes start at the same pixel
+    /// (their tick labels differ: "-100" against "0.5" or "1e-7").
+    axis_w: [f32; 2],
+    /// What the widths were measured for; a different lower plot or text size starts over.
+    axis_for: Option<(LowerPlot, u32)>,
+    /// The two plot areas as last drawn (upper, lower), in points.
+    frames: Option<[egui::Rect; 2]>,
 }
 
 /// The decimated points of one line, reusing its decimator while the view is unchanged.
@@ -92,7 +100,9 @@ impl Plots {
         (self.v_min <= self.v_max).then_some((self.v_min, self.v_max))
     }
 
-    pub fn show(&mut self, ui: &mut Ui, input: &PlotInput, commands: &mut Vec<Command>) {
+    /// Draws both plots; with `controls`, the choice of the lower plot between them (a figure
+    /// for export has none).
+    pub fn show(&mut self, ui: &mut Ui, input: &PlotInput, controls: Option<&mut Vec<Command>>) {
         let link = Id::unique("permeant time axis");
         let duration = input.scenario.run.duration_ms.max(1e-6);
         let total = ui.available_height();
@@ -100,43 +110,36 @@ impl Plots {
         let upper_h = ((total - selector_h) * 0.58).max(120.0);
 
         let (y_lo, y_hi) = self.potential_range(input);
-        Plot::new("potential plot")
+        let text_size = ui
+            .style()
+            .text_styles
+            .get(&egui::TextStyle::Body)
+            .map_or(0, |f| (f.size * 8.0) as u32);
+        if self.axis_for != Some((input.lower, text_size)) {
+            self.axis_for = Some((input.lower, text_size));
+            self.axis_w = [0.0; 2];
+        }
+        let axis_w = self.axis_w[0].max(self.axis_w[1]).max(40.0);
+        let left = ui.cursor().left();
+        let upper = Plot::new("potential plot")
             .height(upper_h)
             .default_x_bounds(0.0, duration)
             .default_y_bounds(y_lo, y_hi)
             .link_axis(link, [true, false])
             .link_cursor(link, [true, false])
             .y_axis_label("Membrane potential (mV)")
-            .y_axis_min_width(40.0)
+            .y_axis_min_width(axis_w)
             .x_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
             .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
             .x_axis_formatter(nice_label)
             .y_axis_formatter(nice_label)
             .label_formatter(|h| hover_label(h, "ms", "mV"))
             .show(ui, |pui| potential_items(&mut self.lines, pui, input));
+        self.axis_w[0] = upper.response.rect.left() - left;
 
-        // Wrapped: with large text and the volume views the choices outgrow a narrow plot.
-        ui.horizontal_wrapped(|ui| {
-            // Clear of the lower plot's rotated axis label, which can be taller than its plot.
-            ui.add_space(ui.spacing().interact_size.y * 1.5);
-            ui.label(RichText::new("Below:").small());
-            let tracked = !input.scenario.cell.volume.is_fixed();
-            for choice in LowerPlot::ALL
-                .into_iter()
-                .filter(|c| tracked || !c.needs_tracked_volume())
-            {
-                if ui
-                    .selectable_label(input.lower == choice, choice.label())
-                    .clicked()
-                    && input.lower != choice
-                {
-                    commands.push(Command::SetLowerPlot(choice));
-                }
-            }
-            if input.lower == LowerPlot::Currents {
-                ui.label(RichText::new("outward current positive").small().weak());
-            }
-        });
+        if let Some(commands) = controls {
+            lower_choice(ui, input, commands);
+        }
 
         // A volume view chosen for another cell shows currents while this cell's volume is fixed.
         let view = match input.lower {
@@ -157,7 +160,7 @@ impl Plots {
             .link_cursor(link, [true, false])
             .x_axis_label("Time (ms)")
             .y_axis_label(y_label)
-            .y_axis_min_width(40.0)
+            .y_axis_min_width(axis_w)
             .x_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
             .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
             .x_axis_formatter(nice_label)
@@ -169,13 +172,25 @@ impl Plots {
         if input.lower == LowerPlot::Permeabilities {
             lower = lower.y_axis_formatter(|mark, _| format_power_of_ten(mark.value));
         }
-        lower.show(ui, |pui| match view {
+        let left = ui.cursor().left();
+        let shown = lower.show(ui, |pui| match view {
             LowerPlot::Currents => current_items(&mut self.lines, pui, input),
             LowerPlot::Permeabilities => permeability_items(&mut self.lines, pui, input),
             LowerPlot::Gates => gate_items(&mut self.lines, pui, input),
             LowerPlot::Volume => volume_items(&mut self.lines, pui, input),
             LowerPlot::Osmolarity => osmolarity_items(&mut self.lines, pui, input),
         });
+        self.axis_w[1] = shown.response.rect.left() - left;
+        self.frames = Some([upper.response.rect, shown.response.rect]);
+        if self.axis_w[0] != self.axis_w[1] {
+            // Widened next frame: draw it then.
+            ui.ctx().request_repaint();
+        }
+    }
+
+    /// The plot areas (upper, lower) as last drawn, in points.
+    pub fn frames(&self) -> Option<[egui::Rect; 2]> {
+        self.frames
     }
 
     /// The automatic V range: the trace so far, the GHK potential, the resting potential and
@@ -212,6 +227,33 @@ impl Plots {
         let pad = ((hi - lo) * 0.08).max(5.0);
         (lo - pad, hi + pad)
     }
+}
+
+/// The choice of what the lower plot shows, between the two plots.
+fn lower_choice(ui: &mut Ui, input: &PlotInput, commands: &mut Vec<Command>) {
+    // Wrapped, never wider than the plots: a row wider than the panel would widen the lower
+    // plot past the upper one (and past the window's edge with large text).
+    ui.horizontal_wrapped(|ui| {
+        // Clear of the lower plot's rotated axis label, which can be taller than its plot.
+        ui.add_space(ui.spacing().interact_size.y * 1.5);
+        ui.label(RichText::new("Below:").small());
+        let tracked = !input.scenario.cell.volume.is_fixed();
+        for choice in LowerPlot::ALL
+            .into_iter()
+            .filter(|c| tracked || !c.needs_tracked_volume())
+        {
+            if ui
+                .selectable_label(input.lower == choice, choice.label())
+                .clicked()
+                && input.lower != choice
+            {
+                commands.push(Command::SetLowerPlot(choice));
+            }
+        }
+        if input.lower == LowerPlot::Currents {
+            ui.label(RichText::new("outward current positive").small().weak());
+        }
+    });
 }
 
 /// The hover text of a plot: the nearest item's name, then both coordinates with units.

@@ -288,6 +288,7 @@ mod tests {
             species: "K+".into(),
             target: Default::default(),
             max_block: 0.8,
+            max_increase: None,
             ic50_um: 3.0,
             hill: 1.0,
             dose_um: 10.0,

@@ -63,6 +63,7 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
                 ed.commands.push(Command::SaveAs);
             }
             ui.menu_button("Export", |ui| {
+                png_size(ui, info.prefs.png_size_px, ed.commands);
                 for kind in ExportKind::ALL {
                     if ui.button(kind.menu_label()).clicked() {
                         ed.commands.push(Command::Export(kind));
@@ -210,5 +211,21 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
             let title = ed.scenario.title.clone();
             ed.text(ui, "title", &title, "Scenario title", width, Edit::Title);
         });
+    });
+}
+
+/// The PNG export's size in pixels, picked where the export is chosen.
+fn png_size(ui: &mut Ui, size: [u32; 2], commands: &mut Vec<Command>) {
+    ui.horizontal(|ui| {
+        ui.label("PNG size");
+        let mut next = size;
+        let w = ui.add(egui::DragValue::new(&mut next[0]).range(200..=8000).suffix(" px"));
+        w.widget_info(|| egui::WidgetInfo::labeled(egui::Role::SpinButton, true, "PNG width (px)"));
+        ui.label("×");
+        let h = ui.add(egui::DragValue::new(&mut next[1]).range(200..=8000).suffix(" px"));
+        h.widget_info(|| egui::WidgetInfo::labeled(egui::Role::SpinButton, true, "PNG height (px)"));
+        if next != size {
+            commands.push(Command::SetPngSize(next));
+        }
     });
 }

@@ -106,7 +106,12 @@ pub struct Prefs {
     /// path this version does not know is left out rather than losing every preference.
     #[serde(deserialize_with = "known_addresses")]
     pub pins: Vec<Address>,
+    /// Width and height in pixels of the plots' PNG export.
+    pub png_size_px: [u32; 2],
 }
+
+/// The PNG export's size until the user picks another: sharp on a slide or a page.
+pub const DEFAULT_PNG_SIZE_PX: [u32; 2] = [1600, 900];
 
 impl Default for Prefs {
     fn default() -> Self {
@@ -117,6 +122,7 @@ impl Default for Prefs {
             lower_plot: LowerPlot::Currents,
             show_iv: true,
             pins: Vec::new(),
+            png_size_px: DEFAULT_PNG_SIZE_PX,
         }
     }
 }

@@ -1,7 +1,8 @@
 //! Input widgets that check values as they are typed. A number shows as a small button with its
 //! unit: drag it (on a log scale for quantities that span decades) or click it to type. Every
-//! candidate value is checked against the whole scenario; an invalid one is outlined in red
-//! with the reason in a tooltip, and the scenario keeps its last valid value.
+//! keystroke is checked against the whole scenario; an invalid entry is outlined in red with the
+//! reason in a tooltip. A typed entry is applied only when complete (Enter or the field left),
+//! as one undo step; a refused one leaves the previous value, with the reason in the status line.
 
 use egui::{Color32, Id, Response, Role, Sense, Stroke, StrokeKind, TextEdit, Ui, WidgetInfo, vec2};
 
@@ -35,6 +36,45 @@ pub struct Editing<'a> {
 struct Typing {
     text: String,
     error: Option<String>,
+}
+
+/// The entry being typed, kept where the app finds it after the frame: a click that hides its
+/// field (another editor tab) takes the keyboard away in a frame that no longer draws the field,
+/// which then cannot complete the entry itself.
+#[derive(Clone)]
+struct OpenEntry {
+    id: Id,
+    /// What completing it does (apply it or say why not), if anything.
+    then: Option<Command>,
+}
+
+impl OpenEntry {
+    fn slot() -> Id {
+        Id::unique("permeant open entry")
+    }
+
+    fn keep(ctx: &egui::Context, id: Id, then: Option<Command>) {
+        ctx.data_mut(|d| d.insert_temp(Self::slot(), OpenEntry { id, then }));
+    }
+
+    fn close(ctx: &egui::Context) {
+        ctx.data_mut(|d| d.remove::<OpenEntry>(Self::slot()));
+    }
+}
+
+/// Completes the entry whose field lost the keyboard without being drawn this frame (call after
+/// the panels): what it does, unless Esc abandoned it.
+pub fn finish_unseen_entry(ctx: &egui::Context) -> Option<Command> {
+    let open: OpenEntry = ctx.data_mut(|d| d.get_temp(OpenEntry::slot()))?;
+    if ctx.memory(|m| m.has_focus(open.id)) {
+        return None;
+    }
+    OpenEntry::close(ctx);
+    ctx.data_mut(|d| d.remove_temp::<Typing>(open.id));
+    if ctx.input(|i| i.key_pressed(egui::Key::Escape)) {
+        return None;
+    }
+    open.then
 }
 
 /// Draws the red outline and attaches the reason.
@@ -216,35 +256,35 @@ impl Editing<'_> {
             if fresh {
                 select_all(ui, id, &typing.text);
             }
+            // Each keystroke is only checked, so the reason shows while typing; the entry is
+            // applied once, when it is complete (Enter or the field left), so a refused entry
+            // never leaves its last valid prefix in force.
             if response.changed() {
-                let checked = style
-                    .parse(&typing.text)
-                    .map_err(|e| e.to_string())
-                    .and_then(|v| {
-                        self.check(&Edit::Number(field, v))
-                            .map(|()| v)
-                            .map_err(|p| p.message)
-                    });
-                match checked {
-                    Ok(v) => {
-                        typing.error = None;
-                        if v != value {
-                            self.push(Edit::Number(field, v));
-                        }
-                    }
-                    Err(reason) => typing.error = Some(reason),
-                }
+                typing.error = self.check_typed(field, &typing.text).err();
             }
             let error = typing.error.clone();
             if response.lost_focus() {
                 ui.data_mut(|d| d.remove_temp::<Typing>(id));
+                OpenEntry::close(ui.ctx());
+                if !ui.input(|i| i.key_pressed(egui::Key::Escape)) {
+                    self.finish_entry(field, value, &typing.text);
+                }
             } else {
+                let then = self.entry_outcome(field, value, &typing.text);
+                OpenEntry::keep(ui.ctx(), id, then);
                 ui.data_mut(|d| d.insert_temp(id, typing));
             }
             set_accessible_name(ui, id, &name);
             mark_invalid(ui, response, &error)
         } else {
-            ui.data_mut(|d| d.remove_temp::<Typing>(id));
+            // Focus taken elsewhere since the last frame (a click on another widget): the entry
+            // is complete, unless it was Esc.
+            if let Some(left) = ui.data_mut(|d| d.remove_temp::<Typing>(id)) {
+                OpenEntry::close(ui.ctx());
+                if !ui.input(|i| i.key_pressed(egui::Key::Escape)) {
+                    self.finish_entry(field, value, &left.text);
+                }
+            }
             let shown = if unit.is_empty() {
                 style.format(value)
             } else {
@@ -314,6 +354,45 @@ impl Editing<'_> {
         }
     }
 
+    /// The value `text` would set at `field`, or why it cannot.
+    fn check_typed(&mut self, field: Address, text: &str) -> Result<f64, String> {
+        let v = field.field().style.parse(text).map_err(|e| e.to_string())?;
+        self.check(&Edit::Number(field, v))
+            .map(|()| v)
+            .map_err(|p| p.message)
+    }
+
+    /// A completed entry at `field` (which held `value`): applied as one undo step when it is
+    /// valid; otherwise the field keeps `value` and the status line says why.
+    fn finish_entry(&mut self, field: Address, value: f64, text: &str) {
+        if let Some(cmd) = self.entry_outcome(field, value, text) {
+            self.commands.push(cmd);
+        }
+    }
+
+    /// What completing the entry `text` at `field` (which held `value`) does: apply it, say why
+    /// not, or nothing (the value it had).
+    fn entry_outcome(&mut self, field: Address, value: f64, text: &str) -> Option<Command> {
+        match self.check_typed(field, text) {
+            Ok(v) if v != value => Some(Command::Entry(Edit::Number(field, v))),
+            Ok(_) => None,
+            Err(reason) => {
+                let style = field.field().style;
+                let unit = field.field().unit;
+                let kept = if unit.is_empty() {
+                    style.format(value)
+                } else {
+                    format!("{} {unit}", style.format(value))
+                };
+                Some(Command::Notice(format!(
+                    "{}: “{}” not taken, because {reason}; it stays {kept}.",
+                    capitalized(&field.label(self.scenario)),
+                    text.trim()
+                )))
+            }
+        }
+    }
+
     /// A number's right-click menu: show it as a big slider in presentation, or stop.
     fn pin_menu(&mut self, response: &Response, address: Address) {
         let pinned = self.pinned.contains(&address);
@@ -345,32 +424,56 @@ impl Editing<'_> {
     ) -> Response {
         let id = ui.scope_id().with(("text", id_salt));
         let focused = ui.memory(|m| m.has_focus(id));
-        let mut typing: Typing = if focused {
-            ui.data_mut(|d| d.get_temp(id)).unwrap_or_else(|| Typing {
-                text: current.to_string(),
-                error: None,
-            })
-        } else {
-            Typing {
-                text: current.to_string(),
-                error: None,
+        let escaped = ui.input(|i| i.key_pressed(egui::Key::Escape));
+        let stored: Option<Typing> = ui.data_mut(|d| d.get_temp(id));
+        // Applied once, when complete (Enter, or focus taken elsewhere), as one undo step; Esc
+        // leaves the text as it was.
+        let outcome = |ed: &mut Self, text: &str| {
+            if text == current {
+                return None;
             }
+            let edit = make(text.to_string());
+            Some(match ed.check(&edit) {
+                Ok(()) => Command::Entry(edit),
+                Err(reason) => Command::Notice(format!(
+                    "{name}: “{text}” not taken, because {}; it stays “{current}”.",
+                    reason.message
+                )),
+            })
+        };
+        let ctx = ui.ctx().clone();
+        let finish = |ed: &mut Self, text: &str| {
+            OpenEntry::close(&ctx);
+            if !escaped && let Some(cmd) = outcome(ed, text) {
+                ed.commands.push(cmd);
+            }
+        };
+        let mut typing = match stored {
+            Some(t) if focused => t,
+            Some(left) => {
+                finish(self, &left.text);
+                ui.data_mut(|d| d.remove_temp::<Typing>(id));
+                Typing {
+                    text: current.to_string(),
+                    error: None,
+                }
+            }
+            None => Typing {
+                text: current.to_string(),
+                error: None,
+            },
         };
         let response = ui.add(TextEdit::singleline(&mut typing.text).id(id).desired_width(width));
         if response.changed() {
-            let edit = make(typing.text.clone());
-            match self.check(&edit) {
-                Ok(()) => {
-                    typing.error = None;
-                    if typing.text != current {
-                        self.push(edit);
-                    }
-                }
-                Err(reason) => typing.error = Some(reason.message),
-            }
+            typing.error = self.check(&make(typing.text.clone())).err().map(|p| p.message);
         }
         let error = typing.error.clone();
+        if response.lost_focus() {
+            finish(self, &typing.text);
+        }
         if response.has_focus() {
+            let then = outcome(self, &typing.text);
+            OpenEntry::keep(ui.ctx(), id, then);
             ui.data_mut(|d| d.insert_temp(id, typing));
         } else {
             ui.data_mut(|d| d.remove_temp::<Typing>(id));

@@ -1,0 +1,247 @@
+//! The window as its users meet it (issue 13), driven through egui_kittest on the real app:
+//! typed entries applied only when complete, Esc closing what it opens, the plots' shared time
+//! axis, the plot-only PNG export at a chosen size. `run_steps` is used wherever a frame count
+//! matters (a running simulation never settles).
+
+use egui::Key;
+use egui_kittest::Harness;
+use egui_kittest::kittest::Queryable;
+use permeant::ui::{App, AppOptions, Command};
+
+/// The real app at the size the issue was tried at, keeping nothing on disk.
+fn harness() -> Harness<'static, App> {
+    Harness::builder()
+        .with_size(egui::vec2(1280.0, 720.0))
+        .build_eframe(|cc| App::new(cc, AppOptions::default()))
+}
+
+/// Clicks the number field `label`, types `text` over its value and returns nothing yet.
+fn type_into(h: &mut Harness<'_, App>, label: &str, text: &str) {
+    h.get_by_label(label).click();
+    h.run_steps(2);
+    h.get_by_label(label).type_text(text);
+    h.run_steps(2);
+}
+
+// Point 1: typing −300 into the temperature used to leave −3 °C in force (the last valid
+// prefix), because every keystroke was applied.
+#[test]
+fn a_refused_temperature_reverts_to_the_previous_value_with_the_reason() {
+    let mut h = harness();
+    h.run_steps(2);
+    let before = h.state().scenario().temperature_c;
+    type_into(&mut h, "temperature (°C)", "-300");
+    // Nothing is applied while the entry is incomplete, not even the valid prefix "-3".
+    assert_eq!(h.state().scenario().temperature_c, before);
+    h.key_press(Key::Enter);
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().temperature_c, before);
+    assert!(!h.state().document().is_dirty());
+    let notice = h.state().notice().unwrap_or_default().to_string();
+    assert!(
+        notice.contains("-300") && notice.contains("°C") && notice.contains("stays 37 °C"),
+        "{notice}"
+    );
+    // The field shows the value in force again.
+    assert!(h.query_by_label_contains("temperature (°C)").is_some());
+}
+
+// Point 1: a million milliseconds in Duration used to leave 100 000 ms (its last valid prefix).
+#[test]
+fn a_refused_duration_leaves_the_duration_it_had() {
+    let mut h = harness();
+    h.run_steps(2);
+    h.get_by_label("Protocol").click();
+    h.run_steps(2);
+    let before = h.state().scenario().run.duration_ms;
+    type_into(&mut h, "run duration (ms)", "1000000000");
+    h.key_press(Key::Enter);
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().run.duration_ms, before);
+    let notice = h.state().notice().unwrap_or_default().to_string();
+    assert!(
+        notice.contains("1000000000") && notice.contains("10 million") && notice.contains("stays 200 ms"),
+        "{notice}"
+    );
+}
+
+// Point 1: an accepted entry is applied once, on Enter, and is one undo step; two entries in
+// quick succession are two steps.
+#[test]
+fn each_accepted_entry_is_applied_on_enter_as_one_undo_step() {
+    let mut h = harness();
+    h.run_steps(2);
+    type_into(&mut h, "K+ outside (mM)", "25");
+    assert_eq!(
+        h.state().scenario().species[0].outside_mm,
+        5.0,
+        "not while typing"
+    );
+    h.key_press(Key::Enter);
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().species[0].outside_mm, 25.0);
+    type_into(&mut h, "K+ outside (mM)", "40");
+    h.key_press(Key::Enter);
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().species[0].outside_mm, 40.0);
+    h.state_mut().queue(Command::Undo);
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().species[0].outside_mm, 25.0);
+    h.state_mut().queue(Command::Undo);
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().species[0].outside_mm, 5.0);
+    assert!(!h.state().document().is_dirty());
+}
+
+// Point 1: Esc abandons an entry; leaving the field by a click elsewhere completes it.
+#[test]
+fn escape_abandons_an_entry_and_a_click_elsewhere_completes_it() {
+    let mut h = harness();
+    h.run_steps(2);
+    type_into(&mut h, "K+ outside (mM)", "25");
+    h.key_press(Key::Escape);
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().species[0].outside_mm, 5.0);
+    type_into(&mut h, "K+ outside (mM)", "30");
+    h.get_by_label("Protocol").click();
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().species[0].outside_mm, 30.0);
+}
+
+// Point 1: a name is a typed entry too: applied when complete.
+#[test]
+fn a_scenario_title_is_applied_when_the_entry_is_complete() {
+    let mut h = harness();
+    h.run_steps(2);
+    h.get_by_label("Scenario title").click();
+    h.run_steps(2);
+    let before = h.state().scenario().title.clone();
+    h.get_by_label("Scenario title").type_text(": bath K+ raised");
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().title, before);
+    h.key_press(Key::Enter);
+    h.run_steps(2);
+    assert!(h.state().scenario().title.ends_with(": bath K+ raised"));
+}
+
+// Point 12: Esc used to be taken as "leave presentation" before the list, About or the
+// question could see it, so none of them closed.
+#[test]
+fn escape_closes_the_key_list_about_and_the_unsaved_question() {
+    let mut h = harness();
+    h.run_steps(2);
+    h.key_press(Key::F1);
+    h.run_steps(2);
+    assert!(h.query_by_label("Keyboard shortcuts").is_some());
+    h.key_press(Key::Escape);
+    h.run_steps(2);
+    assert!(h.query_by_label("Keyboard shortcuts").is_none());
+
+    h.state_mut().queue(Command::ShowAbout(true));
+    h.run_steps(3);
+    assert!(h.query_by_label_contains("CODATA 2018").is_some());
+    h.key_press(Key::Escape);
+    h.run_steps(3);
+    assert!(h.query_by_label_contains("CODATA 2018").is_none());
+
+    type_into(&mut h, "K+ outside (mM)", "25");
+    h.key_press(Key::Enter);
+    h.run_steps(2);
+    h.state_mut().queue(Command::New);
+    h.run_steps(3);
+    assert!(matches!(
+        h.state().dialog(),
+        Some(permeant::ui::dialogs::Dialog::Unsaved { .. })
+    ));
+    h.key_press(Key::Escape);
+    h.run_steps(2);
+    assert!(h.state().dialog().is_none());
+    // Cancelled: the edited scenario is still there, unsaved.
+    assert_eq!(h.state().scenario().species[0].outside_mm, 25.0);
+    assert!(h.state().document().is_dirty());
+}
+
+/// Left and right edges of the two plot areas, in points.
+fn plot_edges(h: &Harness<'_, App>) -> ([f32; 2], [f32; 2]) {
+    let [upper, lower] = h.state().plot_frames().expect("the plots were drawn");
+    ([upper.left(), lower.left()], [upper.right(), lower.right()])
+}
+
+// Point 12: the two plots' y axes were as wide as their own tick labels ("-100" above, "0.5" or
+// "1e-7" below), so the time axes were offset by 5–8 px and spikes did not line up with their
+// currents.
+#[test]
+fn both_plots_share_the_same_time_axis_pixels_for_every_lower_plot_and_text_size() {
+    use permeant::ui::prefs::LowerPlot;
+    let mut h = harness();
+    h.state_mut()
+        .queue(Command::OpenExample("excitable-cell-pulse-train.ron".into()));
+    h.run_steps(3);
+    for large in [false, true] {
+        h.state_mut().queue(Command::SetLargeText(large));
+        for lower in LowerPlot::ALL {
+            h.state_mut().queue(Command::SetLowerPlot(lower));
+            h.run_steps(4);
+            let (lefts, rights) = plot_edges(&h);
+            assert!(
+                (lefts[0] - lefts[1]).abs() < 0.5 && (rights[0] - rights[1]).abs() < 0.5,
+                "{lower:?}, large text {large}: left {lefts:?}, right {rights:?}"
+            );
+        }
+    }
+}
+
+/// Width, height and 8-bit RGBA pixels of a PNG file.
+fn read_png(path: &std::path::Path) -> (u32, u32, Vec<u8>) {
+    let file = std::fs::File::open(path).expect("the PNG was written");
+    let mut reader = png::Decoder::new(std::io::BufReader::new(file))
+        .read_info()
+        .expect("a PNG");
+    let mut buf = vec![0; reader.output_buffer_size().expect("a size")];
+    let info = reader.next_frame(&mut buf).expect("a frame");
+    buf.truncate(info.buffer_size());
+    (info.width, info.height, buf)
+}
+
+// Point 12: the PNG was a crop of a screenshot (498×666 at 1280×720) that included widgets, and
+// needed a painted frame (none comes in a headless test, so no file was written at all).
+#[test]
+fn the_png_holds_the_plots_alone_at_the_size_the_user_picks() {
+    use permeant::ui::export::ExportKind;
+    let dir = tempfile::tempdir().expect("a temporary directory");
+    let mut h = harness();
+    h.state_mut()
+        .queue(Command::OpenExample("excitable-cell-pulse-train.ron".into()));
+    h.run_steps(3);
+    assert_eq!(h.state().prefs().png_size_px, [1600, 900], "the default size");
+    let path = dir.path().join("plots.png");
+    h.state_mut()
+        .queue(Command::ExportTo(ExportKind::Png, path.clone()));
+    h.run_steps(2);
+    assert!(
+        h.state().notice().is_some_and(|n| n.starts_with("Exported")),
+        "{:?}",
+        h.state().notice()
+    );
+    let (w, ht, rgba) = read_png(&path);
+    assert_eq!((w, ht), (1600, 900));
+    // Every pixel is opaque, and the picture is not one flat colour: plots were drawn.
+    assert!(rgba.chunks(4).all(|p| p[3] == 255));
+    let first = &rgba[..4];
+    let differing = rgba.chunks(4).filter(|p| *p != first).count();
+    assert!(
+        differing > 1600 * 900 / 50,
+        "{differing} pixels differ from the corner"
+    );
+    // The lower-plot choice (a row of buttons between the plots) is a control, not a figure:
+    // a figure drawn for export has none.
+    assert!(h.state().notice().is_some_and(|n| n.starts_with("Exported")));
+
+    h.state_mut().queue(Command::SetPngSize([800, 450]));
+    let small = dir.path().join("small.png");
+    h.state_mut()
+        .queue(Command::ExportTo(ExportKind::Png, small.clone()));
+    h.run_steps(2);
+    let (w, ht, _) = read_png(&small);
+    assert_eq!((w, ht), (800, 450));
+}
