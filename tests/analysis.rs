@@ -965,3 +965,58 @@ fn sodium_blocker_dose_response_silences_an_excitable_cell() {
     // it lies inside it by construction); that it exists is what is checked.
     assert!(dr.half_effect_dose_um.is_some(), "{:?}", dr.points);
 }
+
+#[test]
+fn an_openers_dose_response_follows_ghk_with_the_opened_permeability() {
+    // An opener multiplies its species' permeability by 1 + max_increase·dⁿ/(dⁿ + EC50ⁿ)
+    // (scenario-format.md; Hill–Langmuir occupancy, Hill 1910, common practice). On a passive
+    // cell the steady state at each dose is then the GHK voltage (Goldman 1943; Hodgkin & Katz
+    // 1949) of the opened permeabilities, computed here independently of the program.
+    let mut s = passive(37.0, 0.05, 0.45);
+    s.protocol = vec![Event::Agent {
+        label: "K opener".into(),
+        species: "K+".into(),
+        max_block: 1.0,
+        max_increase: Some(4.0),
+        ic50_um: 2.0,
+        hill: 1.5,
+        dose_um: 1.0,
+        from_ms: 50.0,
+        until_ms: None,
+        onset_ms: 0.0,
+        washout_ms: 0.0,
+    }];
+    let dr =
+        dose_response(&s, "K opener", 0.01, 100.0, 5, None, &SweepControl::default()).expect("dose-response");
+    let mut previous = f64::INFINITY;
+    for p in &dr.points {
+        let mut ions = ions(&s);
+        ions[0].p_cm_per_s *= 1.0 + 4.0 * reference::fraction_blocked(1.0, 2.0, 1.5, p.dose_um);
+        let want = ghk_voltage_mv(&ions, 37.0);
+        let got = p.resting_mv.expect("defined");
+        assert!(
+            (got - want).abs() < SOLVED_MV,
+            "at {} µM: {got} vs {want} mV",
+            p.dose_um
+        );
+        // More open K+ channels pull the cell towards E_K: each dose hyperpolarizes further.
+        assert!(got < previous, "at {} µM", p.dose_um);
+        previous = got;
+    }
+    // The scan of the dose (what the window's scan tab runs) gives the same potentials.
+    let scanned = sweep(
+        &s,
+        &Vary::DoseUm("K opener".into()),
+        &SweepRange {
+            from: 0.01,
+            to: 100.0,
+            points: 5,
+            log: true,
+        },
+        &SweepControl::default(),
+    )
+    .expect("scan");
+    for (a, b) in scanned.iter().zip(&dr.points) {
+        assert_eq!(a.resting_mv, b.resting_mv);
+    }
+}

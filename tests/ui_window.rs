@@ -245,3 +245,41 @@ fn the_png_holds_the_plots_alone_at_the_size_the_user_picks() {
     let (w, ht, _) = read_png(&small);
     assert_eq!((w, ht), (800, 450));
 }
+
+// Point 9: an agent could only block. Now the editor turns it into an opener, whose largest
+// increase is typed like any number, and the scenario holds `max_increase`.
+#[test]
+fn an_agent_becomes_an_opener_in_the_editor() {
+    use permeant::scenario::Event;
+    let mut h = harness();
+    h.run_steps(2);
+    h.get_by_label("Protocol").click();
+    h.run_steps(2);
+    h.get_by_label("+ Add event").click();
+    h.run_steps(2);
+    h.get_by_label("Drug (blocker or opener)").click();
+    h.run_steps(2);
+    let action = |h: &Harness<'_, App>| match h.state().scenario().protocol.first() {
+        Some(Event::Agent {
+            max_block,
+            max_increase,
+            ..
+        }) => (*max_block, *max_increase),
+        other => panic!("expected an agent, got {other:?}"),
+    };
+    assert_eq!(action(&h), (1.0, None));
+    h.get_by_label("opener").click();
+    h.run_steps(2);
+    assert_eq!(action(&h), (1.0, Some(1.0)));
+    assert!(h.query_by_label("event 1 largest block").is_none());
+    type_into(&mut h, "event 1 largest increase", "3");
+    h.key_press(Key::Enter);
+    h.run_steps(2);
+    assert_eq!(action(&h), (1.0, Some(3.0)));
+    h.state_mut().queue(Command::Undo);
+    h.run_steps(2);
+    assert_eq!(action(&h), (1.0, Some(1.0)));
+    h.get_by_label("blocker").click();
+    h.run_steps(2);
+    assert_eq!(action(&h), (1.0, None));
+}

@@ -30,7 +30,7 @@ impl EventKind {
         match self {
             EventKind::PermeabilityScale => "Permeability step",
             EventKind::BathChange => "Bath exchange",
-            EventKind::Agent => "Blocking agent",
+            EventKind::Agent => "Drug (blocker or opener)",
             EventKind::Inject => "Current pulse",
             EventKind::InjectTrain => "Pulse train",
         }
@@ -167,6 +167,12 @@ pub enum Edit {
         index: usize,
         open_ended: bool,
     },
+    /// Make the agent at `index` an opener (`true`, doubling the permeability at most, and no
+    /// block) or a blocker (`false`, blocking fully at most).
+    AgentOpens {
+        index: usize,
+        opens: bool,
+    },
 }
 
 impl Edit {
@@ -296,6 +302,18 @@ impl Edit {
             Edit::EventLabel { index, label } => {
                 if let Some(Event::Agent { label: l, .. }) = s.protocol.get_mut(*index) {
                     *l = label.clone();
+                }
+            }
+            Edit::AgentOpens { index, opens } => {
+                if let Some(Event::Agent {
+                    max_block,
+                    max_increase,
+                    ..
+                }) = s.protocol.get_mut(*index)
+                    && max_increase.is_some() != *opens
+                {
+                    *max_block = 1.0;
+                    *max_increase = opens.then_some(1.0);
                 }
             }
             Edit::EventOpenEnded { index, open_ended } => {
@@ -631,6 +649,28 @@ mod tests {
         let (from, until) = s.protocol[0].span_ms();
         assert!(until.is_some_and(|u| u > from));
         assert!(valid(&s));
+        // A blocker made an opener and back: always one of the two, valid either way.
+        let agent = |s: &Scenario| match &s.protocol[0] {
+            Event::Agent {
+                max_block,
+                max_increase,
+                ..
+            } => (*max_block, *max_increase),
+            _ => panic!("the agent"),
+        };
+        Edit::AgentOpens {
+            index: 0,
+            opens: true,
+        }
+        .apply(&mut s);
+        assert_eq!(agent(&s), (1.0, Some(1.0)));
+        assert!(valid(&s));
+        Edit::AgentOpens {
+            index: 0,
+            opens: false,
+        }
+        .apply(&mut s);
+        assert_eq!(agent(&s), (1.0, None));
         Edit::MoveEventUp(0).apply(&mut s);
         Edit::AddEvent(EventKind::Inject).apply(&mut s);
         Edit::MoveEventUp(1).apply(&mut s);

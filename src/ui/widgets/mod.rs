@@ -188,6 +188,14 @@ impl Editing<'_> {
         }
     }
 
+    /// Leaves the number of the table row at `path` out of [`Editing::others`]: it means
+    /// nothing here (an opener's `max_block`, which stays at its default).
+    pub fn leave_out(&mut self, path: &str, at: &[usize]) {
+        if let Some(a) = Address::of(path, at) {
+            self.drawn.push(a);
+        }
+    }
+
     /// Rows of a two-column grid: each label beside the number of the table row at its path
     /// (list indices left out; these are numbers of the scenario's top level, cell, pump or run).
     pub fn rows(&mut self, ui: &mut Ui, rows: &[(&str, &str)]) {

@@ -142,12 +142,24 @@ fn event_card(ui: &mut Ui, i: usize, e: &Event, ed: &mut Editing) {
                             pair(ui, ed, "Exchange τ", "protocol[].lag_ms");
                             ui.end_row();
                         }
-                        Event::Agent { until_ms, .. } => {
+                        Event::Agent {
+                            until_ms,
+                            max_increase,
+                            ..
+                        } => {
                             pair(ui, ed, "Dose", "protocol[].dose_um");
                             pair(ui, ed, "IC50", "protocol[].ic50_um");
                             ui.end_row();
                             pair(ui, ed, "Hill", "protocol[].hill");
-                            pair(ui, ed, "Largest block", "protocol[].max_block");
+                            let opens = max_increase.is_some();
+                            if opens {
+                                pair(ui, ed, "Largest increase", "protocol[].max_increase");
+                                ed.leave_out("protocol[].max_block", &[i]);
+                            } else {
+                                pair(ui, ed, "Largest block", "protocol[].max_block");
+                            }
+                            ui.end_row();
+                            action_choice(ui, ed, i, opens);
                             ui.end_row();
                             pair(ui, ed, "From", "protocol[].from_ms");
                             until(ui, ed, i, until_ms.is_some());
@@ -180,6 +192,37 @@ fn event_card(ui: &mut Ui, i: usize, e: &Event, ed: &mut Editing) {
 }
 
 /// "Until" of a step or agent: a time, or to the end of the run.
+/// Whether the agent at `i` blocks its species' permeability or opens (increases) it.
+fn action_choice(ui: &mut Ui, ed: &mut Editing, i: usize, opens: bool) {
+    ui.label("Acts as");
+    ui.horizontal(|ui| {
+        for (choice, label, hover) in [
+            (
+                false,
+                "blocker",
+                "Multiplies the permeability by 1 − largest block × occupancy",
+            ),
+            (
+                true,
+                "opener",
+                "Multiplies the permeability by 1 + largest increase × occupancy",
+            ),
+        ] {
+            if ui
+                .selectable_label(opens == choice, label)
+                .on_hover_text(hover)
+                .clicked()
+                && opens != choice
+            {
+                ed.push(Edit::AgentOpens {
+                    index: i,
+                    opens: choice,
+                });
+            }
+        }
+    });
+}
+
 fn until(ui: &mut Ui, ed: &mut Editing, i: usize, has_end: bool) {
     ui.label("Until");
     ui.horizontal(|ui| {
