@@ -283,3 +283,42 @@ fn an_agent_becomes_an_opener_in_the_editor() {
     h.run_steps(2);
     assert_eq!(action(&h), (1.0, None));
 }
+
+// Point 2: after a zoom or a drag the plots kept their old time range when the duration
+// changed, with nothing saying so. They follow the run until zoomed, and "Fit view" (marked
+// while zoomed) shows the whole run again.
+#[test]
+fn the_time_axis_follows_the_duration_until_zoomed_and_fit_view_resets_it() {
+    let mut h = harness();
+    h.run_steps(3);
+    let duration = |h: &Harness<'_, App>| h.state().scenario().run.duration_ms;
+    let range = |h: &Harness<'_, App>| h.state().plot_t_ms().expect("drawn");
+    assert_eq!(range(&h), (0.0, duration(&h)));
+    h.state_mut().queue(Command::Edit(permeant::ui::Edit::Number(
+        permeant::scenario::Address::of("run.duration_ms", &[]).expect("a row"),
+        500.0,
+    )));
+    h.run_steps(3);
+    assert_eq!(range(&h), (0.0, 500.0));
+    assert!(h.query_by_label("Fit view (zoomed)").is_none());
+    // Drag the upper plot sideways: the view moves and stays.
+    let [upper, _] = h.state().plot_frames().expect("drawn");
+    h.drag_at(upper.center());
+    h.run_steps(1);
+    h.hover_at(upper.center() + egui::vec2(-120.0, 0.0));
+    h.run_steps(1);
+    h.drop_at(upper.center() + egui::vec2(-120.0, 0.0));
+    h.run_steps(3);
+    let moved = range(&h);
+    assert!(moved.0 > 1.0, "{moved:?}");
+    h.state_mut().queue(Command::Edit(permeant::ui::Edit::Number(
+        permeant::scenario::Address::of("run.duration_ms", &[]).expect("a row"),
+        800.0,
+    )));
+    h.run_steps(3);
+    assert_eq!(range(&h), moved, "a moved view stays where the user put it");
+    h.get_by_label("Fit view (zoomed)").click();
+    h.run_steps(3);
+    assert_eq!(range(&h), (0.0, 800.0));
+    assert!(h.query_by_label("Fit view (zoomed)").is_none());
+}

@@ -358,6 +358,11 @@ impl App {
         self.plots.frames()
     }
 
+    /// The time range (ms) the plots showed in the last frame.
+    pub fn plot_t_ms(&self) -> Option<(f64, f64)> {
+        self.plots.shown_t_ms()
+    }
+
     /// Whether the window is in presentation.
     pub fn presenting(&self) -> bool {
         self.presentation.on

@@ -59,6 +59,14 @@ pub struct Plots {
     axis_for: Option<(LowerPlot, u32)>,
     /// The two plot areas as last drawn (upper, lower), in points.
     frames: Option<[egui::Rect; 2]>,
+    /// Whether the user zoomed or moved a plot, so the view no longer follows the run (egui_plot
+    /// keeps its default bounds only as where a double-click goes back to, so following the
+    /// run's duration and potential range is done here, frame by frame).
+    zoomed: bool,
+    /// "Fit view" was asked for: both plots show the whole run again on the next frame.
+    fit: bool,
+    /// The time range the plots showed last, ms.
+    shown_t_ms: Option<(f64, f64)>,
 }
 
 /// The decimated points of one line, reusing its decimator while the view is unchanged.
@@ -120,6 +128,7 @@ impl Plots {
             self.axis_w = [0.0; 2];
         }
         let axis_w = self.axis_w[0].max(self.axis_w[1]).max(40.0);
+        let follow = !self.zoomed || std::mem::take(&mut self.fit);
         let left = ui.cursor().left();
         let upper = Plot::new("potential plot")
             .height(upper_h)
@@ -134,11 +143,27 @@ impl Plots {
             .x_axis_formatter(nice_label)
             .y_axis_formatter(nice_label)
             .label_formatter(|h| hover_label(h, "ms", "mV"))
-            .show(ui, |pui| potential_items(&mut self.lines, pui, input));
+            .show(ui, |pui| {
+                if follow {
+                    pui.set_plot_bounds_x(0.0..=duration);
+                    pui.set_plot_bounds_y(y_lo..=y_hi);
+                }
+                potential_items(&mut self.lines, pui, input);
+            });
         self.axis_w[0] = upper.response.rect.left() - left;
+        let upper_bounds = *upper.transform.bounds();
+        self.shown_t_ms = Some((upper_bounds.min()[0], upper_bounds.max()[0]));
+        let near = |a: f64, b: f64| (a - b).abs() <= 1e-9 * (a.abs() + b.abs()).max(1e-9);
+        let upper_home = near(upper_bounds.min()[0], 0.0)
+            && near(upper_bounds.max()[0], duration)
+            && near(upper_bounds.min()[1], y_lo)
+            && near(upper_bounds.max()[1], y_hi);
 
-        if let Some(commands) = controls {
-            lower_choice(ui, input, commands);
+        if let Some(commands) = controls
+            && lower_choice(ui, input, self.zoomed, commands)
+        {
+            self.fit = true;
+            ui.ctx().request_repaint();
         }
 
         // A volume view chosen for another cell shows currents while this cell's volume is fixed.
@@ -173,19 +198,35 @@ impl Plots {
             lower = lower.y_axis_formatter(|mark, _| format_power_of_ten(mark.value));
         }
         let left = ui.cursor().left();
-        let shown = lower.show(ui, |pui| match view {
-            LowerPlot::Currents => current_items(&mut self.lines, pui, input),
-            LowerPlot::Permeabilities => permeability_items(&mut self.lines, pui, input),
-            LowerPlot::Gates => gate_items(&mut self.lines, pui, input),
-            LowerPlot::Volume => volume_items(&mut self.lines, pui, input),
-            LowerPlot::Osmolarity => osmolarity_items(&mut self.lines, pui, input),
+        let shown = lower.show(ui, |pui| {
+            // Not when the upper plot was just moved: the lower one takes its time range.
+            if follow && upper_home {
+                pui.set_plot_bounds_x(0.0..=duration);
+            }
+            match view {
+                LowerPlot::Currents => current_items(&mut self.lines, pui, input),
+                LowerPlot::Permeabilities => permeability_items(&mut self.lines, pui, input),
+                LowerPlot::Gates => gate_items(&mut self.lines, pui, input),
+                LowerPlot::Volume => volume_items(&mut self.lines, pui, input),
+                LowerPlot::Osmolarity => osmolarity_items(&mut self.lines, pui, input),
+            }
         });
+        // A view away from the whole run was zoomed or moved by the pointer: it stays until
+        // "Fit view" (or a double-click) brings it home.
+        let lower_bounds = shown.transform.bounds();
+        self.zoomed =
+            !(upper_home && near(lower_bounds.min()[0], 0.0) && near(lower_bounds.max()[0], duration));
         self.axis_w[1] = shown.response.rect.left() - left;
         self.frames = Some([upper.response.rect, shown.response.rect]);
         if self.axis_w[0] != self.axis_w[1] {
             // Widened next frame: draw it then.
             ui.ctx().request_repaint();
         }
+    }
+
+    /// The time range (ms) the plots showed last.
+    pub fn shown_t_ms(&self) -> Option<(f64, f64)> {
+        self.shown_t_ms
     }
 
     /// The plot areas (upper, lower) as last drawn, in points.
@@ -229,8 +270,10 @@ impl Plots {
     }
 }
 
-/// The choice of what the lower plot shows, between the two plots.
-fn lower_choice(ui: &mut Ui, input: &PlotInput, commands: &mut Vec<Command>) {
+/// The choice of what the lower plot shows, between the two plots, and "Fit view" (whether
+/// it was clicked is returned): marked while a zoom or move keeps the view from following the run.
+fn lower_choice(ui: &mut Ui, input: &PlotInput, zoomed: bool, commands: &mut Vec<Command>) -> bool {
+    let mut fit = false;
     // Wrapped, never wider than the plots: a row wider than the panel would widen the lower
     // plot past the upper one (and past the window's edge with large text).
     ui.horizontal_wrapped(|ui| {
@@ -253,7 +296,19 @@ fn lower_choice(ui: &mut Ui, input: &PlotInput, commands: &mut Vec<Command>) {
         if input.lower == LowerPlot::Currents {
             ui.label(RichText::new("outward current positive").small().weak());
         }
+        let label = if zoomed {
+            RichText::new("Fit view (zoomed)").strong().color(ui.visuals().warn_fg_color)
+        } else {
+            RichText::new("Fit view")
+        };
+        let hover = if zoomed {
+            "The plots were zoomed or moved, so their time axis no longer follows the run. Show the whole run again (or double-click a plot)."
+        } else {
+            "Show the whole run (the plots follow it until you zoom or drag them)."
+        };
+        fit = ui.button(label).on_hover_text(hover).clicked();
     });
+    fit
 }
 
 /// The hover text of a plot: the nearest item's name, then both coordinates with units.
