@@ -322,3 +322,38 @@ fn the_time_axis_follows_the_duration_until_zoomed_and_fit_view_resets_it() {
     assert_eq!(range(&h), (0.0, 800.0));
     assert!(h.query_by_label("Fit view (zoomed)").is_none());
 }
+
+// Point 3: a reversal potential that moves (here E K+ under a bath change) was drawn only along
+// the trace: absent before a run, and after one only where samples were shown. Every reversal
+// line now spans the whole time axis before, during and after a run.
+#[test]
+fn every_reversal_line_spans_the_whole_time_axis_before_and_after_a_run() {
+    use permeant::ui::prefs::Speed;
+    let mut h = harness();
+    h.state_mut()
+        .queue(Command::OpenExample("raised-bath-potassium.ron".into()));
+    h.run_steps(3);
+    let duration = h.state().scenario().run.duration_ms;
+    let covers = |h: &Harness<'_, App>, name: &str| {
+        let spans = h.state().reversal_spans();
+        let found = spans.iter().find(|(n, ..)| n == name);
+        assert!(found.is_some(), "no {name} line in {spans:?}");
+        found.is_some_and(|(_, from, to)| *from <= 0.0 && *to >= duration)
+    };
+    for name in ["E K+", "E Na+", "E Cl-"] {
+        assert!(covers(&h, name), "{name} before a run");
+    }
+    h.state_mut().queue(Command::SetSpeed(Speed::Fastest));
+    h.state_mut().queue(Command::RunPause);
+    for _ in 0..200 {
+        h.run_steps(1);
+        if h.state().runtime().is_finished() {
+            break;
+        }
+    }
+    assert!(h.state().runtime().is_finished());
+    h.run_steps(2);
+    for name in ["E K+", "E Na+", "E Cl-"] {
+        assert!(covers(&h, name), "{name} after the run");
+    }
+}

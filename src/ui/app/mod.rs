@@ -358,6 +358,11 @@ impl App {
         self.plots.frames()
     }
 
+    /// Each reversal line of the potential plot as last drawn: name and time span (ms).
+    pub fn reversal_spans(&self) -> &[(String, f64, f64)] {
+        self.plots.reversal_spans()
+    }
+
     /// The time range (ms) the plots showed in the last frame.
     pub fn plot_t_ms(&self) -> Option<(f64, f64)> {
         self.plots.shown_t_ms()

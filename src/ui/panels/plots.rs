@@ -67,6 +67,8 @@ pub struct Plots {
     fit: bool,
     /// The time range the plots showed last, ms.
     shown_t_ms: Option<(f64, f64)>,
+    /// Each reversal line as last drawn: its name and the time span (ms) it covers.
+    reversal_spans: Vec<(String, f64, f64)>,
 }
 
 /// The decimated points of one line, reusing its decimator while the view is unchanged.
@@ -148,7 +150,7 @@ impl Plots {
                     pui.set_plot_bounds_x(0.0..=duration);
                     pui.set_plot_bounds_y(y_lo..=y_hi);
                 }
-                potential_items(&mut self.lines, pui, input);
+                self.reversal_spans = potential_items(&mut self.lines, pui, input);
             });
         self.axis_w[0] = upper.response.rect.left() - left;
         let upper_bounds = *upper.transform.bounds();
@@ -222,6 +224,11 @@ impl Plots {
             // Widened next frame: draw it then.
             ui.ctx().request_repaint();
         }
+    }
+
+    /// Each reversal line as last drawn: its name ("E K+") and the time span (ms) it covers.
+    pub fn reversal_spans(&self) -> &[(String, f64, f64)] {
+        &self.reversal_spans
     }
 
     /// The time range (ms) the plots showed last.
@@ -448,7 +455,13 @@ fn protocol_bands(pui: &mut PlotUi, input: &PlotInput, dark: bool) {
     }
 }
 
-fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+/// Draws the potential plot's items; returns each reversal line's name and the span it covers.
+fn potential_items(
+    lines: &mut HashMap<String, Decimator>,
+    pui: &mut PlotUi,
+    input: &PlotInput,
+) -> Vec<(String, f64, f64)> {
+    let mut spans = Vec::new();
     let dark = pui.ctx().global_style().visuals.dark_mode;
     protocol_bands(pui, input, dark);
     let bounds = pui.plot_bounds();
@@ -458,28 +471,40 @@ fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, inp
             let c = species_color(i);
             // A species whose concentrations change in the run gets its reversal potential
             // drawn along time; the others keep the file's value as a horizontal line.
-            let along = input
-                .derived
-                .reversal_mv
-                .get(i)
-                .filter(|_| input.derived.varying.get(i) == Some(&true));
-            let (e_label, line_at) = match along {
-                Some(col) => {
-                    let points = series(lines, pui, input, col, format!("E {}", row.name))
-                        .map(|l| l.color(c).width(1.5));
-                    let last = col[..input.shown_len.min(col.len())]
-                        .iter()
-                        .rev()
-                        .find(|e| e.is_finite())
-                        .copied();
+            // Before a run (nothing shown yet) it starts as the file's value across the axis;
+            // after the shown part it goes on at its last value, so it spans the whole axis.
+            let name = format!("E {}", row.name);
+            let shown = input.trace.map_or(0, |t| input.shown_len.min(t.len()));
+            let along =
+                input.derived.reversal_mv.get(i).filter(|col| {
+                    input.derived.varying.get(i) == Some(&true) && shown > 0 && col.len() >= shown
+                });
+            let (e_label, line_at) = match (along, input.trace) {
+                (Some(col), Some(trace)) => {
+                    let points = series(lines, pui, input, col, name.clone()).map(|l| l.color(c).width(1.5));
+                    let last = col[..shown].iter().rev().find(|e| e.is_finite()).copied();
                     if let Some(line) = points {
                         pui.line(line.style(LineStyle::dashed_loose()));
                     }
+                    let t_last = trace.t_ms[shown - 1];
+                    let end = x_right.max(input.scenario.run.duration_ms);
+                    if let Some(e) = last
+                        && end > t_last
+                    {
+                        pui.line(
+                            Line::new(name.clone(), vec![[t_last, e], [end, e]])
+                                .color(c)
+                                .width(1.5)
+                                .style(LineStyle::dashed_loose()),
+                        );
+                    }
+                    spans.push((name.clone(), trace.t_ms[0], end));
                     (last, None)
                 }
-                None => (row.reversal_mv, row.reversal_mv),
+                _ => (row.reversal_mv, row.reversal_mv),
             };
             if let Some(e) = line_at {
+                spans.push((name.clone(), f64::NEG_INFINITY, f64::INFINITY));
                 pui.hline(
                     HLine::new(format!("E {}", row.name), e)
                         .color(c)
@@ -531,6 +556,7 @@ fn potential_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, inp
                 .width(1.0),
         );
     }
+    spans
 }
 
 /// The visible kept traces, each thinned to the visible range like the live trace.
