@@ -976,6 +976,7 @@ fn an_openers_dose_response_follows_ghk_with_the_opened_permeability() {
     s.protocol = vec![Event::Agent {
         label: "K opener".into(),
         species: "K+".into(),
+        target: permeant::scenario::AgentTarget::Permeability,
         max_block: 1.0,
         max_increase: Some(4.0),
         ic50_um: 2.0,
