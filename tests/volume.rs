@@ -261,6 +261,8 @@ fn pump_leak(pump: f64, block: Option<f64>, duration_ms: f64, water: &str) -> Sc
 
 /// The cell of [`pump_leak`] with the protocol `protocol`.
 fn pump_leak_with(pump: f64, protocol: &str, duration_ms: f64, water: &str) -> Scenario {
+    // 10 s samples, or the run's two ends when it is shorter (a longer interval is refused).
+    let sample_ms = duration_ms.min(10000.0);
     scenario(&format!(
         r#"(
     format: 1,
@@ -275,7 +277,7 @@ fn pump_leak_with(pump: f64, protocol: &str, duration_ms: f64, water: &str) -> S
         max_current_ua_per_cm2: {pump:?}, half_saturation_inside_mm: 10.0, hill_inside: 1.0,
         half_saturation_outside_mm: 1.5, hill_outside: 1.0)),
     protocol: [{protocol}],
-    run: (duration_ms: {duration_ms:?}, sample_ms: 10000.0),
+    run: (duration_ms: {duration_ms:?}, sample_ms: {sample_ms:?}),
 )"#
     ))
 }
