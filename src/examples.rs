@@ -5,12 +5,24 @@
 /// `(file name, file text)` of every `.ron` file in `scenarios/`, sorted by file name.
 pub const EXAMPLES: &[(&str, &str)] = &[
     (
+        "bi-ionic-reversal.ron",
+        include_str!("../scenarios/bi-ionic-reversal.ron"),
+    ),
+    (
         "calcium-permeability-pulse.ron",
         include_str!("../scenarios/calcium-permeability-pulse.ron"),
     ),
     (
         "chloride-substitution.ron",
         include_str!("../scenarios/chloride-substitution.ron"),
+    ),
+    (
+        "current-injection-rheobase.ron",
+        include_str!("../scenarios/current-injection-rheobase.ron"),
+    ),
+    (
+        "delayed-potassium-activation-family.ron",
+        include_str!("../scenarios/delayed-potassium-activation-family.ron"),
     ),
     (
         "donnan-equilibrium.ron",
@@ -23,6 +35,10 @@ pub const EXAMPLES: &[(&str, &str)] = &[
     (
         "hypo-osmotic-swelling.ron",
         include_str!("../scenarios/hypo-osmotic-swelling.ron"),
+    ),
+    (
+        "potassium-blocker-fraction-blocked.ron",
+        include_str!("../scenarios/potassium-blocker-fraction-blocked.ron"),
     ),
     (
         "potassium-blocker-washin.ron",

@@ -13,6 +13,7 @@ use common::cells::{hh_channels, species};
 use common::reference::{
     self, ghk_voltage_mv, potential_carrying_mv, slope_conductance_ms_per_cm2, zero_current_mv,
 };
+use common::rng::{Rng, assert_honest_errors};
 use common::{reference_ions as ions, valid};
 
 /// A potential the program solves for against a closed form or the tests' own bisection: the
@@ -174,26 +175,6 @@ fn log_values(from: f64, to: f64, n: usize) -> Vec<f64> {
     }
     .values()
     .expect("range")
-}
-
-/// A tiny deterministic generator (xorshift64*) with Box–Muller normals, so noisy fits are
-/// reproducible without a dependency.
-struct Rng(u64);
-impl Rng {
-    fn new(seed: u64) -> Self {
-        Rng(seed.wrapping_mul(0x9E37_79B9_7F4A_7C15) | 1)
-    }
-    fn uniform(&mut self) -> f64 {
-        self.0 ^= self.0 >> 12;
-        self.0 ^= self.0 << 25;
-        self.0 ^= self.0 >> 27;
-        let x = self.0.wrapping_mul(0x2545_F491_4F6C_DD1D);
-        ((x >> 11) as f64 + 0.5) / (1u64 << 53) as f64
-    }
-    fn normal(&mut self) -> f64 {
-        let (u1, u2) = (self.uniform(), self.uniform());
-        (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
-    }
 }
 
 fn names(v: &[&str]) -> Vec<String> {
@@ -570,14 +551,7 @@ fn noisy_fits_have_honest_standard_errors() {
             }
         }
     }
-    for (c, n) in within_one.iter().enumerate() {
-        let f = *n as f64 / trials as f64;
-        // 60 trials at p = 0.68: the binomial spread is ±0.06, so 0.5–0.85 is a wide margin.
-        assert!(
-            (0.5..=0.85).contains(&f),
-            "parameter {c}: {n} of {trials} within one SE"
-        );
-    }
+    assert_honest_errors(&within_one, trials);
 }
 
 /// The resting ratio quoted for the squid giant axon, P_K : P_Na : P_Cl = 1 : 0.04 : 0.45

@@ -376,6 +376,7 @@ fn a_cell_at_rest_without_protocol_stays_flat_in_few_steps() {
     // And every bundled cell with its protocol and concentration tracking taken away.
     for (_, mut s) in bundled() {
         s.protocol.clear();
+        s.run.family = None;
         s.cell.track_concentrations = false;
         s.cell.volume = Volume::Fixed;
         s.run.duration_ms = 1000.0;

@@ -5,11 +5,14 @@
 use std::path::{Path, PathBuf};
 
 mod common;
-use common::reference::{Ion, fraction_blocked, zero_current_mv};
+use common::reference::{Ion, fraction_blocked, nernst_mv, rt_over_f_mv, zero_current_mv};
 use common::valid;
+use permeant::analysis::family::{FamilyTable, Measure, analyse, run_family};
+use permeant::analysis::metrics::SpikeSettings;
 use permeant::analysis::rest_report;
+use permeant::analysis::sweep::SweepControl;
 use permeant::engine::{Run, SolverSettings};
-use permeant::scenario::{Event, Scenario, Start, Valid, read_file};
+use permeant::scenario::{Event, RunMode, Scenario, Start, Valid, read_file};
 
 /// model.md's accuracy of a trace at every output sample.
 const ACCURACY_MV: f64 = 0.01;
@@ -116,7 +119,11 @@ fn every_bundled_scenario_reads_validates_and_rests() {
         let rest = report
             .resting_mv()
             .unwrap_or_else(|| panic!("{name}: no resting potential: {:?}", report.steady.resting_mv));
-        assert!(RESTING_RANGE_MV.contains(&rest), "{name}: rests at {rest} mV");
+        // A clamped cell is held wherever the experiment needs (bi-ionic solutions rest far
+        // from any physiological potential).
+        if s.run.mode == RunMode::CurrentClamp {
+            assert!(RESTING_RANGE_MV.contains(&rest), "{name}: rests at {rest} mV");
+        }
         assert!(report.ghk_mv.is_ok(), "{name}: {:?}", report.ghk_mv);
     }
 }
@@ -161,7 +168,16 @@ fn every_bundled_run_is_modest_and_starts_at_rest() {
             tr.v_mv().iter().all(|v| v.is_finite() && v.abs() < 200.0),
             "{name}"
         );
-        if s.run.start == Start::Rest {
+        if let RunMode::VoltageClamp { holding_mv, .. } = s.run.mode {
+            // clamp-and-volume.md: a clamped run starts at its holding potential (or on the
+            // command in force at t = 0).
+            let first = s.protocol.iter().any(|e| e.span_ms().0 == 0.0);
+            assert!(
+                first || tr.v_mv()[0] == holding_mv,
+                "{name}: starts at {}",
+                tr.v_mv()[0]
+            );
+        } else if s.run.start == Start::Rest {
             let rest = rest_report(&s)
                 .ok()
                 .and_then(|x| x.resting_mv())
@@ -350,4 +366,101 @@ fn pump_example_clears_its_sodium_load() {
     let ghk = report.ghk_mv.clone().expect("defined");
     let rest = report.resting_mv().expect("defined");
     assert!(ghk - rest > 5.0, "pump hyperpolarization {} mV", ghk - rest);
+}
+
+// ---------------------------------------------------------------------------------------------
+// The families of voltage clamp and current injection (clamp-and-volume.md)
+
+/// The file's own family, run and measured.
+fn file_family(name: &str, measures: &[Measure]) -> FamilyTable {
+    let s = by_name(name).into_inner();
+    let family = s
+        .run
+        .family
+        .clone()
+        .unwrap_or_else(|| panic!("{name}: no family"));
+    let values = family.values().unwrap_or_else(|e| panic!("{name}: {e}"));
+    let runs = run_family(
+        &s,
+        family.field(),
+        &values,
+        &SolverSettings::default(),
+        &SweepControl::default(),
+    )
+    .unwrap_or_else(|e| panic!("{name}: {e}"));
+    analyse(&runs, measures, SpikeSettings::default())
+}
+
+#[test]
+fn the_activation_family_reverses_at_e_k_and_activates_with_depolarization() {
+    let s = by_name("delayed-potassium-activation-family.ron");
+    let t = file_family(
+        "delayed-potassium-activation-family.ron",
+        &[Measure::Late {
+            from_ms: 40.0,
+            until_ms: 45.0,
+        }],
+    );
+    // Only potassium is permeant, so the current reverses at its Nernst potential (Nernst 1889):
+    // the interpolated crossing lies between the two levels around it.
+    let k = &s.species[0];
+    let e_k = nernst_mv(k.charge, k.inside_mm, k.outside_mm, s.temperature_c);
+    let e = t.reversal_mv.expect("reverses");
+    assert!((e - e_k).abs() < 10.0, "{e} vs {e_k}");
+    // Hodgkin & Huxley 1952: n∞ rises with V, so G/G_max is a rising sigmoid.
+    let b = t.boltzmann.expect("fitted");
+    assert!(b.slope_mv > 0.0 && b.se_v_half_mv < 5.0, "{b:?}");
+}
+
+#[test]
+fn the_blocker_family_blocks_half_the_current_at_its_ic50() {
+    let t = file_family(
+        "potassium-blocker-fraction-blocked.ron",
+        &[Measure::Late {
+            from_ms: 40.0,
+            until_ms: 45.0,
+        }],
+    );
+    // The Hill equation (Hill 1910) with the file's own IC50, Hill coefficient and full block.
+    for (d, b) in t.values.iter().zip(&t.blocked) {
+        let want = fraction_blocked(1.0, 3.0, 1.0, *d);
+        let got = b.expect("a control current");
+        assert!((got - want).abs() < 1e-4, "{d} µM: {got} vs {want}");
+    }
+}
+
+#[test]
+fn the_bi_ionic_family_gives_back_its_permeability_ratio() {
+    let s = by_name("bi-ionic-reversal.ron");
+    let t = file_family(
+        "bi-ionic-reversal.ron",
+        &[Measure::Late {
+            from_ms: 5.0,
+            until_ms: 10.0,
+        }],
+    );
+    let e = t.reversal_mv.expect("reverses");
+    // Hille, Ion Channels of Excitable Membranes: P_K/P_Na = ([Na]_i/[K]_o)·e^(F·E_rev/RT).
+    let ratio = (150.0 / 150.0) * (e / rt_over_f_mv(s.temperature_c)).exp();
+    let want = s.species[0].permeability_cm_per_s / s.species[1].permeability_cm_per_s;
+    // 5 mV between levels: the straight line misses the curved I–V by under 0.5 %.
+    assert!((ratio / want - 1.0).abs() < 5e-3, "{ratio} vs {want}");
+}
+
+#[test]
+fn the_injection_family_has_a_rheobase_where_its_notes_say() {
+    let t = file_family(
+        "current-injection-rheobase.ron",
+        &[Measure::Spikes {
+            from_ms: 10.0,
+            until_ms: 160.0,
+        }],
+    );
+    let first = t
+        .values
+        .iter()
+        .zip(&t.cells)
+        .find(|(_, c)| c[0].value.unwrap_or(0.0) >= 1.0)
+        .map(|(v, _)| *v);
+    assert_eq!(first, Some(4.5));
 }

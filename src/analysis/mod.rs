@@ -2,6 +2,7 @@
 //! metrics. Every front end (window, command line) computes through these.
 
 pub mod decimate;
+pub mod family;
 pub mod fit;
 pub mod metrics;
 pub mod rest;

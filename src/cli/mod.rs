@@ -2,6 +2,7 @@
 //! Each subcommand lives in its own file and is a thin front over the core.
 
 mod check;
+mod family;
 mod fit;
 mod output;
 mod rest;
@@ -55,6 +56,8 @@ enum Command {
     Scan(sweep::Args),
     /// Fit permeability ratios (relative to the first species) to measured potentials.
     Fit(fit::Args),
+    /// One run per value of one number (by its field path), in parallel, each measured.
+    Family(family::Args),
 }
 
 /// Parses the arguments, runs, and turns the outcome into command-line.md's exit status.
@@ -83,6 +86,7 @@ pub fn main() -> ExitCode {
         Some(Command::Check(a)) => check::run(a),
         Some(Command::Scan(a)) => sweep::run(a),
         Some(Command::Fit(a)) => fit::run(a),
+        Some(Command::Family(a)) => family::run(a),
         None => not_a_command(cli.file.as_deref()).and_then(|()| open_window(cli.file)),
     };
     match result {
@@ -104,7 +108,7 @@ fn is_bad_input(e: &anyhow::Error) -> bool {
 }
 
 /// The names a user types as the first word.
-const COMMANDS: [&str; 6] = ["rest", "run", "check", "scan", "fit", "help"];
+const COMMANDS: [&str; 7] = ["rest", "run", "check", "scan", "fit", "family", "help"];
 
 /// A first word that names no file but is close to a command (`permeant chek`) is a mistyped
 /// command, not a scenario for the window to open.
@@ -181,6 +185,50 @@ pub fn title_line(title: &str) -> String {
 /// The width of a report's name column: its longest name, and at least the word "species".
 pub fn name_width<'a>(names: impl Iterator<Item = &'a str>) -> usize {
     names.map(|n| n.chars().count()).max().unwrap_or(0).max(7)
+}
+
+/// Runs `work` with a control that counts finished items; while it runs, and when stderr is a
+/// terminal, a line on stderr says how many of `n` `items` are done (command-line.md: long runs
+/// print progress).
+pub fn with_progress<T>(
+    n: usize,
+    items: &str,
+    work: impl FnOnce(&crate::analysis::sweep::SweepControl) -> T,
+) -> T {
+    use std::io::IsTerminal;
+    use std::sync::Arc;
+    use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+    let progress = Arc::new(AtomicUsize::new(0));
+    let control = crate::analysis::sweep::SweepControl {
+        progress: Some(progress.clone()),
+        cancel: None,
+    };
+    let done = AtomicBool::new(false);
+    std::thread::scope(|scope| {
+        if std::io::stderr().is_terminal() {
+            let done = &done;
+            scope.spawn(move || {
+                let mut shown = false;
+                loop {
+                    std::thread::sleep(std::time::Duration::from_millis(250));
+                    if done.load(Ordering::Relaxed) {
+                        break;
+                    }
+                    note_inline(&format!(
+                        "\rpermeant: {} of {n} {items}",
+                        progress.load(Ordering::Relaxed)
+                    ));
+                    shown = true;
+                }
+                if shown {
+                    note("");
+                }
+            });
+        }
+        let r = work(&control);
+        done.store(true, Ordering::Relaxed);
+        r
+    })
 }
 
 /// Reads a scenario, turning its error into bad input (exit 2).

@@ -1,17 +1,13 @@
 //! `permeant scan FILE --vary WHAT --from A --to B --points N [--log] [--csv OUT] [--json]`:
 //! the GHK and steady-state potentials across a range of one input, on every core.
 
-use std::io::IsTerminal;
 use std::path::PathBuf;
-use std::sync::Arc;
-use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
-use std::time::Duration;
 
 use serde::Serialize;
 
 use super::output::{Output, check_distinct, remove_temporaries_on_interrupt};
 use super::readable;
-use crate::analysis::sweep::{NernstLine, SweepControl, SweepPoint, SweepRange, Vary, nernst_line, sweep};
+use crate::analysis::sweep::{NernstLine, SweepPoint, SweepRange, Vary, nernst_line, sweep};
 use crate::physics::Undefined;
 
 #[derive(Debug, clap::Args)]
@@ -91,45 +87,15 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         log: a.log,
     };
 
-    let progress = Arc::new(AtomicUsize::new(0));
-    let control = SweepControl {
-        progress: Some(progress.clone()),
-        cancel: None,
-    };
-    let done = Arc::new(AtomicBool::new(false));
-    let points = std::thread::scope(|scope| {
-        if std::io::stderr().is_terminal() {
-            let (progress, done, n) = (progress.clone(), done.clone(), a.points);
-            scope.spawn(move || {
-                let mut shown = false;
-                loop {
-                    std::thread::sleep(Duration::from_millis(250));
-                    if done.load(Ordering::Relaxed) {
-                        break;
-                    }
-                    super::note_inline(&format!(
-                        "\rpermeant: {} of {n} points",
-                        progress.load(Ordering::Relaxed)
-                    ));
-                    shown = true;
-                }
-                if shown {
-                    super::note("");
-                }
-            });
-        }
-        let r = sweep(&s, &vary, &range, &control);
-        done.store(true, Ordering::Relaxed);
-        r
-    })
-    .map_err(|e| {
-        let msg = in_file(&e);
-        if e.is_bad_input() {
-            super::bad(msg)
-        } else {
-            anyhow::anyhow!(msg)
-        }
-    })?;
+    let points = super::with_progress(a.points, "points", |control| sweep(&s, &vary, &range, control))
+        .map_err(|e| {
+            let msg = in_file(&e);
+            if e.is_bad_input() {
+                super::bad(msg)
+            } else {
+                anyhow::anyhow!(msg)
+            }
+        })?;
 
     report_undefined(&vary, &points);
     if let Some(out) = &csv_out {

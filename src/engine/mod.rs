@@ -3,6 +3,7 @@
 //! ([`rosenbrock`]) — on one shared driver ([`stepper`]), and a streaming run that advances in
 //! bounded chunks ([`run`]).
 
+pub mod clamp;
 pub mod dopri5;
 pub mod model;
 pub mod protocol;
@@ -11,6 +12,7 @@ pub mod run;
 pub mod stepper;
 pub mod volume;
 
+pub use clamp::Clamp;
 pub use model::{GateKind, Model, Readout, SampleCurrents, StateId, Workspace};
 pub use protocol::{Lag, LagId, LagKind};
 pub use run::{Budget, Progress, Run, SolverSettings, Trace};

@@ -13,6 +13,7 @@ use crate::physics::{Conditions, GatedChannel, IvCurves, Kinetics, Membrane, Pum
 use crate::scenario::{Start, Valid};
 
 use super::EngineError;
+use super::clamp::Clamp;
 use super::protocol::{Lag, LagId, LagKind, Protocol};
 use super::stepper::System;
 use super::volume::VolumeModel;
@@ -82,6 +83,8 @@ pub struct Model {
     channel_labels: Vec<String>,
     /// The tracked volume, if any (it implies tracked concentrations, held as amounts).
     pub volume: Option<VolumeModel>,
+    /// The voltage clamp, `None` in current clamp.
+    pub clamp: Option<Clamp>,
 }
 
 // The model is shared read-only (a sweep's threads, a window frame and a run at once): keep it so.
@@ -98,6 +101,11 @@ pub struct Workspace {
     seg_command: Vec<f64>,
     seg_tau: Vec<f64>,
     seg_inject: f64,
+    /// The clamp's command at `seg_t0_ms` and its slope, and the time of the present evaluation.
+    seg_command_mv: f64,
+    seg_slope_mv_per_ms: f64,
+    seg_t0_ms: f64,
+    t_ms: f64,
     cond: Conditions,
     currents: Vec<f64>,
 }
@@ -112,6 +120,12 @@ pub struct SampleCurrents {
     pub net_ua_per_cm2: f64,
     /// Injected current (depolarizing positive).
     pub inject_ua_per_cm2: f64,
+    /// In voltage clamp, the recorded current (outward positive): the ionic current under an
+    /// ideal clamp, the pipette current through the series resistance otherwise; 0 in current
+    /// clamp.
+    pub clamp_ua_per_cm2: f64,
+    /// In voltage clamp, the command potential; the membrane potential in current clamp.
+    pub command_mv: f64,
 }
 
 /// Reusable buffers for reading a stored sample: its conditions and its currents.
@@ -219,6 +233,7 @@ impl Model {
             start: s.run.start,
             channel_labels,
             volume,
+            clamp: Clamp::new(s),
         }
     }
 
@@ -229,6 +244,10 @@ impl Model {
             seg_command: vec![0.0; n_lags],
             seg_tau: vec![0.0; n_lags],
             seg_inject: 0.0,
+            seg_command_mv: 0.0,
+            seg_slope_mv_per_ms: 0.0,
+            seg_t0_ms: 0.0,
+            t_ms: 0.0,
             cond: Conditions::with_species(self.species_count()),
             currents: vec![0.0; self.species_count()],
         }
@@ -382,6 +401,17 @@ impl Model {
             }
         }
         ws.seg_inject = self.inject_at(t_ms);
+        if let Some(c) = &self.clamp {
+            let (v, slope) = c.command(t_ms);
+            ws.seg_command_mv = v;
+            ws.seg_slope_mv_per_ms = slope;
+            ws.seg_t0_ms = t_ms;
+            ws.t_ms = t_ms;
+            if c.series_mohm_cm2.is_none() {
+                // The ideal clamp sets V: each segment starts on its command exactly.
+                y[0] = v;
+            }
+        }
     }
 
     /// Lags at their t = 0 commands, written into `y`.
@@ -449,7 +479,21 @@ impl Model {
             .membrane
             .currents(v, &y[g0..g0 + ng], &ws.cond, &mut ws.currents);
         let net: f64 = ws.currents.iter().sum::<f64>() + pump;
-        dy[0] = (ws.seg_inject - net) / self.membrane.capacitance_uf_per_cm2;
+        dy[0] = match &self.clamp {
+            None => (ws.seg_inject - net) / self.membrane.capacitance_uf_per_cm2,
+            // Ideal: V follows the command, linear within a segment.
+            Some(Clamp {
+                series_mohm_cm2: None,
+                ..
+            }) => ws.seg_slope_mv_per_ms,
+            Some(Clamp {
+                series_mohm_cm2: Some(r),
+                ..
+            }) => {
+                let v_cmd = ws.seg_command_mv + ws.seg_slope_mv_per_ms * (ws.t_ms - ws.seg_t0_ms);
+                (Clamp::pipette_ua_per_cm2(*r, v_cmd, v) - net) / self.membrane.capacitance_uf_per_cm2
+            }
+        };
         self.membrane
             .gate_derivatives(v, &y[g0..g0 + ng], &mut dy[g0..g0 + ng]);
         let lo = self.lag_offset();
@@ -547,6 +591,16 @@ impl Model {
         c.inject_ua_per_cm2 = inject;
         r.volume_rel = self.volume_rel(y);
         r.osm_in_mosm = self.osm_in_mosm(y);
+        (c.command_mv, c.clamp_ua_per_cm2) = match &self.clamp {
+            None => (y[0], 0.0),
+            Some(clamp) => {
+                let v_cmd = clamp.command(t_ms).0;
+                match clamp.series_mohm_cm2 {
+                    None => (v_cmd, c.net_ua_per_cm2),
+                    Some(r) => (v_cmd, Clamp::pipette_ua_per_cm2(r, v_cmd, y[0])),
+                }
+            }
+        };
     }
 
     /// The gates of the state `y`.
@@ -598,9 +652,11 @@ impl Model {
     /// The initial state of a run (model.md "Time-varying inputs" and `run.start`).
     pub fn initial_state(&self) -> Result<Vec<f64>, EngineError> {
         let mut y = self.start_inputs();
-        let v = match self.start {
-            Start::Voltage(v) => v,
-            Start::Rest => self
+        let v = match (&self.clamp, self.start) {
+            // A clamped cell starts with everything at its steady state at the holding potential.
+            (Some(c), _) => c.holding_mv,
+            (None, Start::Voltage(v)) => v,
+            (None, Start::Rest) => self
                 .steady_state_at_start()
                 .resting_mv
                 .map_err(|reason| EngineError::NoRestingState { reason })?,
@@ -614,7 +670,8 @@ impl Model {
 
 impl System for Model {
     type Workspace = Workspace;
-    fn derivatives(&self, ws: &mut Workspace, _t: f64, y: &[f64], dy: &mut [f64]) {
+    fn derivatives(&self, ws: &mut Workspace, t: f64, y: &[f64], dy: &mut [f64]) {
+        ws.t_ms = t;
         Model::derivatives(self, ws, y, dy);
     }
 }

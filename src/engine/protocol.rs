@@ -269,6 +269,7 @@ impl Protocol {
         let mut lags: Vec<Lag> = Vec::new();
         let mut pulses = Vec::new();
         let mut bath_lag: Vec<Option<usize>> = vec![None; s.species.len()];
+        let mut edges = Vec::new();
         for (i, ev) in s.protocol.iter().enumerate() {
             let species_of = |name: &str| s.species_index(name);
             match ev {
@@ -393,6 +394,10 @@ impl Protocol {
                     period_ms: *period_ms,
                     count: *count,
                 }),
+                // Voltage-clamp commands act through the model's clamp; only their edges are here.
+                Event::Step { .. } | Event::Ramp { .. } => {
+                    edges.extend(super::clamp::command_edges(ev).into_iter().flatten());
+                }
             }
         }
         for l in &mut lags {
@@ -401,7 +406,6 @@ impl Protocol {
                 changes.sort_by(|a, b| a.0.total_cmp(&b.0));
             }
         }
-        let mut edges = Vec::new();
         for l in &lags {
             l.edges(&mut edges);
         }

@@ -1,7 +1,8 @@
-//! CSV of a run's samples: `time_ms,v_mv`, each species' current, the pump current, then every
-//! other state component (gates, lagged inputs, tracked concentrations), and with a tracked
-//! volume `volume_rel` and `osm_in_mosm` last (the inside amounts written as the concentrations
-//! they make, `inside_mm:<species>`). Also the one home of
+//! CSV of a run's samples: `time_ms,v_mv`, in voltage clamp the recorded current
+//! `i_total_ua_per_cm2`, each species' current, the pump current, then every other state
+//! component (gates, lagged inputs, tracked concentrations), with a tracked volume
+//! `volume_rel` and `osm_in_mosm` (the inside amounts written as the concentrations they make,
+//! `inside_mm:<species>`), and in voltage clamp the command `v_command_mv` last. Also the one home of
 //! CSV quoting ([`quote`]) and number formatting ([`push_number`], [`number`]) for every CSV the
 //! program writes.
 //!
@@ -160,6 +161,10 @@ pub fn header_of(model: &Model, trace: &Trace, columns: Columns) -> Vec<String> 
     if columns == Columns::Potential {
         return h;
     }
+    if model.clamp.is_some() {
+        // Under an ideal clamp the ionic current; the capacitive current of a step is not in it.
+        h.push(CLAMP_CURRENT.into());
+    }
     h.extend(model.species_names.iter().map(|n| format!("i_ua_per_cm2:{n}")));
     if model.membrane.pump.is_some() {
         h.push("i_pump_ua_per_cm2".into());
@@ -181,8 +186,16 @@ pub fn header_of(model: &Model, trace: &Trace, columns: Columns) -> Vec<String> 
             }
         }
     }
+    if model.clamp.is_some() {
+        h.push(COMMAND.into());
+    }
     h
 }
+
+/// The recorded current of a voltage-clamp run (clamp-and-volume.md).
+pub const CLAMP_CURRENT: &str = "i_total_ua_per_cm2";
+/// The command potential of a voltage-clamp run.
+pub const COMMAND: &str = "v_command_mv";
 
 /// Writes the header line.
 pub fn write_header(w: &mut impl Write, model: &Model, trace: &Trace) -> io::Result<()> {
@@ -227,6 +240,7 @@ impl RowWriter {
     /// Writes every sample now held in `trace` as a row.
     pub fn write_rows(&mut self, w: &mut impl Write, model: &Model, trace: &Trace) -> io::Result<()> {
         let has_pump = model.membrane.pump.is_some();
+        let clamped = model.clamp.is_some();
         self.y.resize(trace.columns.len(), 0.0);
         self.text.clear();
         // Room for every row at once, most numbers taking under 24 bytes.
@@ -247,6 +261,10 @@ impl RowWriter {
             push_number(t, trace.t_ms[k]);
             t.push(b',');
             push_number(t, self.y[0]);
+            if clamped {
+                t.push(b',');
+                push_number(t, self.readout.currents.clamp_ua_per_cm2);
+            }
             for &c in &self.readout.currents.species_ua_per_cm2 {
                 t.push(b',');
                 push_number(t, c);
@@ -281,6 +299,10 @@ impl RowWriter {
                         push_number(t, self.readout.osm_in_mosm);
                     }
                 }
+            }
+            if clamped {
+                t.push(b',');
+                push_number(t, self.readout.currents.command_mv);
             }
             t.push(b'\n');
         }

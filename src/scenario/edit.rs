@@ -4,7 +4,7 @@
 //! an event) and the renaming of a species wherever it is named.
 
 use super::fields::Address;
-use super::{Channel, Event, Gate, Kinetics, Problem, Pump, Scenario, Species, Start, Valid};
+use super::{Channel, Event, Gate, Kinetics, Problem, Pump, RunMode, Scenario, Species, Start, Valid};
 
 /// The kinds of protocol event a user can add.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -14,9 +14,14 @@ pub enum EventKind {
     Agent,
     Inject,
     InjectTrain,
+    /// Voltage clamp only.
+    Step,
+    /// Voltage clamp only.
+    Ramp,
 }
 
 impl EventKind {
+    /// The kinds a current-clamp run takes.
     pub const ALL: [EventKind; 5] = [
         EventKind::PermeabilityScale,
         EventKind::BathChange,
@@ -24,6 +29,23 @@ impl EventKind {
         EventKind::Inject,
         EventKind::InjectTrain,
     ];
+    /// The kinds a voltage-clamp run takes: commands instead of injected current.
+    pub const CLAMP: [EventKind; 5] = [
+        EventKind::PermeabilityScale,
+        EventKind::BathChange,
+        EventKind::Agent,
+        EventKind::Step,
+        EventKind::Ramp,
+    ];
+
+    /// The kinds a run in `mode` takes.
+    pub fn for_mode(mode: &RunMode) -> &'static [EventKind; 5] {
+        if mode.is_current_clamp() {
+            &Self::ALL
+        } else {
+            &Self::CLAMP
+        }
+    }
 
     /// The name shown in menus and event headers.
     pub fn label(self) -> &'static str {
@@ -33,6 +55,8 @@ impl EventKind {
             EventKind::Agent => "Drug (blocker or opener)",
             EventKind::Inject => "Current pulse",
             EventKind::InjectTrain => "Pulse train",
+            EventKind::Step => "Command step",
+            EventKind::Ramp => "Command ramp",
         }
     }
 
@@ -43,6 +67,8 @@ impl EventKind {
             Event::Agent { .. } => EventKind::Agent,
             Event::Inject { .. } => EventKind::Inject,
             Event::InjectTrain { .. } => EventKind::InjectTrain,
+            Event::Step { .. } => EventKind::Step,
+            Event::Ramp { .. } => EventKind::Ramp,
         }
     }
 }
@@ -123,6 +149,11 @@ pub enum Edit {
     Volume(super::Volume),
     /// Start at rest or held at a potential (see [`held_start`] for the usual one).
     Start(Start),
+    /// Current or voltage clamp. Events of the other mode (injected current in voltage clamp,
+    /// commands in current clamp) are removed with it; undo brings them back.
+    Mode(RunMode),
+    /// Run the scenario as a family of runs over one number, or once.
+    Family(Option<super::Family>),
     /// Add the default pump or remove the pump.
     Pump(bool),
     PumpExports(String),
@@ -225,6 +256,12 @@ impl Edit {
             Edit::TrackConcentrations(on) => s.cell.track_concentrations = *on,
             Edit::Volume(v) => s.cell.volume = v.clone(),
             Edit::Start(start) => s.run.start = *start,
+            Edit::Mode(mode) => {
+                let clamp = !mode.is_current_clamp();
+                s.protocol.retain(|e| e.clamp_only().is_none_or(|c| c == clamp));
+                s.run.mode = *mode;
+            }
+            Edit::Family(family) => s.run.family = family.clone(),
             Edit::Pump(on) => {
                 s.pump = if *on { Some(default_pump(s)) } else { None };
             }
@@ -324,6 +361,9 @@ impl Edit {
                     })
                     | Some(Event::Agent {
                         from_ms, until_ms, ..
+                    })
+                    | Some(Event::Step {
+                        from_ms, until_ms, ..
                     }) => {
                         *until_ms = if *open_ended {
                             None
@@ -371,7 +411,7 @@ pub fn rename_references(s: &mut Scenario, old: &str, new: &str) {
             Event::PermeabilityScale { species, .. }
             | Event::BathChange { species, .. }
             | Event::Agent { species, .. } => fix(species),
-            Event::Inject { .. } | Event::InjectTrain { .. } => {}
+            Event::Inject { .. } | Event::InjectTrain { .. } | Event::Step { .. } | Event::Ramp { .. } => {}
         }
     }
 }
@@ -540,6 +580,17 @@ pub fn new_event(s: &Scenario, kind: EventKind) -> Event {
             period_ms: round_ms((d * 0.1).max(2.0)),
             count: 3,
             from_ms: start,
+        },
+        EventKind::Step => Event::Step {
+            to_mv: 0.0,
+            from_ms: start,
+            until_ms: Some(end),
+        },
+        EventKind::Ramp => Event::Ramp {
+            from_mv: -100.0,
+            to_mv: 40.0,
+            from_ms: start,
+            until_ms: end,
         },
     }
 }

@@ -21,6 +21,17 @@ pub enum Wording {
 }
 
 impl Event {
+    /// Whether the event is a voltage-clamp command (`Step`, `Ramp`), allowed only in voltage
+    /// clamp, or an injected current (`Inject`, `InjectTrain`), allowed only in current clamp;
+    /// `None` for events of either mode.
+    pub fn clamp_only(&self) -> Option<bool> {
+        match self {
+            Event::Step { .. } | Event::Ramp { .. } => Some(true),
+            Event::Inject { .. } | Event::InjectTrain { .. } => Some(false),
+            _ => None,
+        }
+    }
+
     /// The kind's name as written in the file.
     pub fn kind(&self) -> &'static str {
         match self {
@@ -29,6 +40,8 @@ impl Event {
             Event::Agent { .. } => "Agent",
             Event::Inject { .. } => "Inject",
             Event::InjectTrain { .. } => "InjectTrain",
+            Event::Step { .. } => "Step",
+            Event::Ramp { .. } => "Ramp",
         }
     }
 
@@ -42,7 +55,11 @@ impl Event {
                 target: super::AgentTarget::Permeability,
                 ..
             } => Some(species),
-            Event::Agent { .. } | Event::Inject { .. } | Event::InjectTrain { .. } => None,
+            Event::Agent { .. }
+            | Event::Inject { .. }
+            | Event::InjectTrain { .. }
+            | Event::Step { .. }
+            | Event::Ramp { .. } => None,
         }
     }
 
@@ -54,7 +71,13 @@ impl Event {
             }
             | Event::Agent {
                 from_ms, until_ms, ..
+            }
+            | Event::Step {
+                from_ms, until_ms, ..
             } => (from_ms, until_ms),
+            Event::Ramp {
+                from_ms, until_ms, ..
+            } => (from_ms, Some(until_ms)),
             Event::BathChange { at_ms, .. } => (at_ms, None),
             Event::Inject {
                 from_ms, until_ms, ..
@@ -142,6 +165,12 @@ impl Event {
                 count,
                 ..
             } => format!("{count} × {amplitude_ua_per_cm2} µA/cm²"),
+            Event::Step { to_mv, .. } if standalone => format!("clamp to {to_mv} mV"),
+            Event::Step { to_mv, .. } => format!("→ {to_mv} mV"),
+            Event::Ramp { from_mv, to_mv, .. } if standalone => {
+                format!("ramp {from_mv} → {to_mv} mV")
+            }
+            Event::Ramp { from_mv, to_mv, .. } => format!("{from_mv} → {to_mv} mV"),
         }
     }
 }

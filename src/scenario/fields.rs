@@ -19,8 +19,8 @@ use serde::{Deserialize, Deserializer, Serialize, Serializer};
 
 use super::validate::{MAX_DURATION_MS, MAX_GATE_POWER};
 use super::{
-    Cell, Channel, Event, Gate, Impermeant, Kinetics, Pump, RunSettings, Scenario, Species, Start, Volume,
-    Water,
+    Cell, Channel, Event, Family, Gate, Impermeant, Kinetics, Pump, RunMode, RunSettings, Scenario, Species,
+    Start, Volume, Water,
 };
 
 /// One number of the scenario format: one row of [`FIELDS`].
@@ -313,6 +313,8 @@ pub enum Holder {
     /// `protocol[i]`
     Event(Pick<Event>),
     Run(Pick<RunSettings>),
+    /// `run.family.values[i]`
+    FamilyValue(Pick<f64>),
 }
 
 /// The kinds of [`Holder`], in the order the file has them.
@@ -326,6 +328,7 @@ pub enum Part {
     Gate,
     Event,
     Run,
+    FamilyValue,
 }
 
 impl Holder {
@@ -339,6 +342,7 @@ impl Holder {
             Holder::Gate(_) => Part::Gate,
             Holder::Event(_) => Part::Event,
             Holder::Run(_) => Part::Run,
+            Holder::FamilyValue(_) => Part::FamilyValue,
         }
     }
 }
@@ -357,6 +361,10 @@ macro_rules! reach {
             Holder::Gate(p) => (p.$call)($s.channels.$get(i)?.gates.$get(j)?),
             Holder::Event(p) => (p.$call)($s.protocol.$get(i)?),
             Holder::Run(p) => (p.$call)(& $($mut)? $s.run),
+            Holder::FamilyValue(p) => match & $($mut)? $s.run.family {
+                Some(Family::Values { values, .. }) => (p.$call)(values.$get(i)?),
+                _ => None,
+            },
         }
     }};
 }
@@ -384,6 +392,16 @@ const POTENTIAL_SPAN: Span = Span::Fixed {
     lo: -150.0,
     hi: 100.0,
 };
+/// Command and holding potentials a clamp accepts, mV (as a held start's).
+const CLAMP_POTENTIAL_LIMITS: Limits = Limits::Range {
+    lo: -1000.0,
+    hi: 1000.0,
+    nonzero: false,
+    outside: |v| format!("a command potential of {v} mV is outside ±1000 mV"),
+};
+/// Largest series-resistance compensation: below 1, or no resistance would be left.
+pub const MAX_COMPENSATION: f64 = 0.99;
+
 /// Span of a Hill coefficient or q10 slider.
 const COEFFICIENT_SPAN: Span = Span::Fixed { lo: 0.5, hi: 5.0 };
 
@@ -909,6 +927,26 @@ pub static FIELDS: &[Field] = &[
         )),
     },
     Field {
+        path: "protocol[].from_mv",
+        unit: "mV",
+        label: "ramp start potential",
+        limits: CLAMP_POTENTIAL_LIMITS,
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: POTENTIAL_SPAN,
+        holder: Holder::Event(pick!(Event::Ramp { from_mv, .. } => from_mv)),
+    },
+    Field {
+        path: "protocol[].to_mv",
+        unit: "mV",
+        label: "command potential",
+        limits: CLAMP_POTENTIAL_LIMITS,
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: POTENTIAL_SPAN,
+        holder: Holder::Event(pick!(Event::Step { to_mv, .. } | Event::Ramp { to_mv, .. } => to_mv)),
+    },
+    Field {
         path: "protocol[].from_ms",
         unit: "ms",
         label: "start",
@@ -920,7 +958,9 @@ pub static FIELDS: &[Field] = &[
             Event::PermeabilityScale { from_ms, .. }
             | Event::Agent { from_ms, .. }
             | Event::Inject { from_ms, .. }
-            | Event::InjectTrain { from_ms, .. } => from_ms
+            | Event::InjectTrain { from_ms, .. }
+            | Event::Step { from_ms, .. }
+            | Event::Ramp { from_ms, .. } => from_ms
         )),
     },
     Field {
@@ -934,8 +974,9 @@ pub static FIELDS: &[Field] = &[
         // A step or agent that lasts to the end of the run has no end time to read or set.
         holder: Holder::Event(pick!(
             Event::PermeabilityScale { until_ms: Some(until_ms), .. }
-            | Event::Agent { until_ms: Some(until_ms), .. } => until_ms,
-            Event::Inject { until_ms, .. } => until_ms,
+            | Event::Agent { until_ms: Some(until_ms), .. }
+            | Event::Step { until_ms: Some(until_ms), .. } => until_ms,
+            Event::Inject { until_ms, .. } | Event::Ramp { until_ms, .. } => until_ms,
         )),
     },
     Field {
@@ -1067,6 +1108,94 @@ pub static FIELDS: &[Field] = &[
         // Only a run held at a potential has one; `start: Rest` has no number.
         holder: Holder::Run(pick!(RunSettings { start: Start::Voltage(v), .. } => v)),
     },
+    Field {
+        path: "run.mode.holding_mv",
+        unit: "mV",
+        label: "holding potential",
+        limits: CLAMP_POTENTIAL_LIMITS,
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: POTENTIAL_SPAN,
+        holder: Holder::Run(
+            pick!(RunSettings { mode: RunMode::VoltageClamp { holding_mv, .. }, .. } => holding_mv),
+        ),
+    },
+    Field {
+        path: "run.mode.series_resistance_mohm",
+        unit: "MΩ",
+        label: "series resistance",
+        limits: Limits::NonNegative("a series resistance"),
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: Span::Fixed { lo: 0.0, hi: 30.0 },
+        holder: Holder::Run(pick!(
+            RunSettings { mode: RunMode::VoltageClamp { series_resistance_mohm, .. }, .. } => series_resistance_mohm
+        )),
+    },
+    Field {
+        path: "run.mode.compensation",
+        unit: "",
+        label: "series-resistance compensation",
+        limits: Limits::Range {
+            lo: 0.0,
+            hi: MAX_COMPENSATION,
+            nonzero: false,
+            outside: |k| {
+                format!(
+                    "compensation is a fraction from 0 to {MAX_COMPENSATION} (full compensation, 1, would leave no resistance to clamp through; got {k})"
+                )
+            },
+        },
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.005 },
+        span: Span::Fixed {
+            lo: 0.0,
+            hi: MAX_COMPENSATION,
+        },
+        holder: Holder::Run(pick!(
+            RunSettings { mode: RunMode::VoltageClamp { compensation, .. }, .. } => compensation
+        )),
+    },
+    Field {
+        path: "run.family.from",
+        unit: "",
+        label: "family: first value",
+        limits: Limits::Finite,
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: Span::Symmetric,
+        holder: Holder::Run(pick!(RunSettings { family: Some(Family::Range { from, .. }), .. } => from)),
+    },
+    Field {
+        path: "run.family.to",
+        unit: "",
+        label: "family: last value",
+        limits: Limits::Finite,
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: Span::Symmetric,
+        holder: Holder::Run(pick!(RunSettings { family: Some(Family::Range { to, .. }), .. } => to)),
+    },
+    Field {
+        path: "run.family.step",
+        unit: "",
+        label: "family: step",
+        limits: Limits::Positive("the family's step"),
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: Span::Auto,
+        holder: Holder::Run(pick!(RunSettings { family: Some(Family::Range { step, .. }), .. } => step)),
+    },
+    Field {
+        path: "run.family.values[]",
+        unit: "",
+        label: "family value",
+        limits: Limits::Finite,
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: Span::Symmetric,
+        holder: Holder::FamilyValue(pick!(v => v)),
+    },
 ];
 
 /// Most list indices a path holds (`channels[i].gates[j]`).
@@ -1149,6 +1278,7 @@ impl Address {
         };
         match self.field.holder.part() {
             Part::Scenario | Part::Cell | Part::Run => label.to_string(),
+            Part::FamilyValue => format!("{label} {}", i + 1),
             Part::Species => {
                 let name = s
                     .species
@@ -1193,6 +1323,11 @@ pub fn addresses(s: &Scenario) -> Vec<Address> {
         out.extend(numbers_of(s, Part::Event, &[i]));
     }
     out.extend(numbers_of(s, Part::Run, &[]));
+    if let Some(Family::Values { values, .. }) = &s.run.family {
+        for i in 0..values.len() {
+            out.extend(numbers_of(s, Part::FamilyValue, &[i]));
+        }
+    }
     out
 }
 
@@ -1401,11 +1536,28 @@ mod tests {
             .into_inner()
     }
 
+    /// The numbers only voltage clamp and families have (a clamp file cannot hold injected
+    /// current, so they are in files of their own).
+    fn rich_clamp() -> Vec<Scenario> {
+        [
+            include_str!("../../tests/data/every-clamp-number.ron"),
+            include_str!("../../tests/data/every-family-range.ron"),
+        ]
+        .iter()
+        .map(|text| {
+            crate::scenario::from_str(text, "clamp.ron")
+                .unwrap_or_else(|e| panic!("{e}"))
+                .into_inner()
+        })
+        .collect()
+    }
+
     fn scenarios() -> Vec<(String, Scenario)> {
         let mut out = vec![
             ("rich".to_string(), rich()),
             ("default".into(), Scenario::new_default()),
         ];
+        out.extend(rich_clamp().into_iter().map(|s| ("rich clamp".to_string(), s)));
         for (file, text) in crate::examples::EXAMPLES {
             let s = crate::scenario::from_str(text, file).unwrap_or_else(|e| panic!("{e}"));
             out.push((file.to_string(), s.into_inner()));
@@ -1470,8 +1622,10 @@ mod tests {
             assert_eq!(table_numbers(&s), serde_numbers(&s), "{name}");
         }
         // The rich scenario reaches every row.
-        let s = rich();
-        let used: Vec<&str> = addresses(&s).iter().map(|a| a.field().path).collect();
+        let mut used: Vec<&str> = addresses(&rich()).iter().map(|a| a.field().path).collect();
+        for s in rich_clamp() {
+            used.extend(addresses(&s).iter().map(|a| a.field().path));
+        }
         for f in FIELDS {
             assert!(
                 used.contains(&f.path),

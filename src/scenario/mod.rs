@@ -6,6 +6,7 @@
 
 mod edit;
 mod events;
+mod family;
 pub mod fields;
 mod read;
 mod save;
@@ -21,6 +22,7 @@ pub use edit::{
     rename_references,
 };
 pub use events::{Interval, Wording};
+pub use family::{FamilyError, MAX_FAMILY_RUNS, member, range_values};
 pub use fields::{Address, AddressError, Drag, Span, Style};
 pub use read::{Location, Problem, ScenarioError, from_str, read_file};
 pub(crate) use save::through_links;
@@ -251,6 +253,20 @@ pub enum Event {
         count: u32,
         from_ms: f64,
     },
+    /// Voltage clamp only: command `to_mv` inside `[from, until)` (`None` = to the end).
+    Step {
+        to_mv: f64,
+        from_ms: f64,
+        #[serde(default)]
+        until_ms: Option<f64>,
+    },
+    /// Voltage clamp only: command rising linearly from `from_mv` to `to_mv` inside `[from, until)`.
+    Ramp {
+        from_mv: f64,
+        to_mv: f64,
+        from_ms: f64,
+        until_ms: f64,
+    },
 }
 
 fn one() -> f64 {
@@ -273,6 +289,54 @@ pub struct RunSettings {
     pub sample_ms: f64,
     #[serde(default = "default_start")]
     pub start: Start,
+    /// Current clamp (the default, written nowhere) or voltage clamp (clamp-and-volume.md).
+    #[serde(default, skip_serializing_if = "RunMode::is_current_clamp")]
+    pub mode: RunMode,
+    /// One number varied over values, one run per value (clamp-and-volume.md, "Families").
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub family: Option<Family>,
+}
+
+/// What holds the membrane: the cell itself, or a voltage-clamp amplifier.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+pub enum RunMode {
+    /// V follows the membrane equation; `Inject`/`InjectTrain` events apply.
+    #[default]
+    CurrentClamp,
+    /// V is held at a command: `holding_mv` outside every `Step`/`Ramp`. With a series
+    /// resistance (MΩ, whole cell) V lags the command; `compensation` (0 ≤ k < 1) removes
+    /// that fraction of it.
+    VoltageClamp {
+        holding_mv: f64,
+        #[serde(default)]
+        series_resistance_mohm: f64,
+        #[serde(default)]
+        compensation: f64,
+    },
+}
+
+impl RunMode {
+    pub fn is_current_clamp(&self) -> bool {
+        matches!(self, RunMode::CurrentClamp)
+    }
+}
+
+/// One number of the scenario (by its field path) and the values it takes, one run each.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(untagged)]
+pub enum Family {
+    /// The listed values, in order.
+    Values {
+        field: fields::Address,
+        values: Vec<f64>,
+    },
+    /// `from`, `from + step`, … up to `to` (inclusive, within rounding).
+    Range {
+        field: fields::Address,
+        from: f64,
+        to: f64,
+        step: f64,
+    },
 }
 
 fn default_sample_ms() -> f64 {
@@ -357,6 +421,8 @@ impl Scenario {
                 duration_ms: 200.0,
                 sample_ms: 0.1,
                 start: Start::Rest,
+                mode: RunMode::CurrentClamp,
+                family: None,
             },
         }
     }

@@ -2,7 +2,7 @@
 //! gets", each reported with the field path it concerns.
 
 use super::fields::{self, Part};
-use super::{AgentTarget, Event, Problem, Scenario};
+use super::{AgentTarget, Event, FamilyError, Problem, Scenario};
 use std::collections::HashSet;
 
 /// Largest number of output samples a run may ask for.
@@ -238,11 +238,29 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
         );
     }
 
+    let clamp = !s.run.mode.is_current_clamp();
     let mut agents = HashSet::new();
     // Pulses of every train together: the stepper stops at each edge of each of them.
     let mut pulses_in_run = 0.0;
     for (i, ev) in s.protocol.iter().enumerate() {
         let p = format!("protocol[{i}]");
+        match ev.clamp_only() {
+            Some(true) if !clamp => c.fail(
+                p.clone(),
+                format!(
+                    "a {} command needs voltage clamp; set run.mode to VoltageClamp(holding_mv: …) or use Inject in current clamp",
+                    ev.kind()
+                ),
+            ),
+            Some(false) if clamp => c.fail(
+                p.clone(),
+                format!(
+                    "{} injects current, which voltage clamp does not take (the amplifier sets the potential); use Step or Ramp commands, or current clamp",
+                    ev.kind()
+                ),
+            ),
+            _ => {}
+        }
         match ev {
             Event::Agent {
                 species,
@@ -311,6 +329,17 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
                     format!("an agent either blocks (max_block) or opens (max_increase), not both; this one also gives max_block: {max_block}"),
                 );
             }
+            if path == "protocol[].until_ms"
+                && let Event::Ramp {
+                    from_ms, until_ms, ..
+                } = ev
+                && until_ms == from_ms
+            {
+                c.fail(
+                    format!("{p}.until_ms"),
+                    format!("a ramp needs time to run: it starts and ends at {from_ms} ms"),
+                );
+            }
         });
         if let Event::InjectTrain {
             width_ms,
@@ -374,6 +403,20 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
             }
         }
     });
+    if let Some(family) = &s.run.family {
+        if let Err(e) = family.check_field(s) {
+            c.fail(e.path(), e.to_string());
+        }
+        // A bad end or step is told by its row above; the count is told here.
+        if let Err(e @ (FamilyError::Empty | FamilyError::TooMany(_))) = family.values() {
+            c.fail(e.path(), e.to_string());
+        }
+        if let super::Family::Values { values, .. } = family {
+            for i in 0..values.len() {
+                c.numbers(s, Part::FamilyValue, &[i], alone);
+            }
+        }
+    }
     c.problems
 }
 

@@ -94,6 +94,8 @@ pub enum Command {
     /// Kept traces, sweeps, dose–response and fits (runtime state of the analysis window;
     /// never part of the scenario or of undo).
     Analysis(AnalysisCommand),
+    /// Stop the family of runs now being computed (until the next edit).
+    CancelFamily,
 }
 
 /// What a file dialog or typed path is for.

@@ -6,6 +6,7 @@ pub mod cells;
 pub mod cli;
 pub mod ode;
 pub mod reference;
+pub mod rng;
 
 use permeant::engine::{Run, SolverSettings};
 use permeant::scenario::{Scenario, Valid, validate};

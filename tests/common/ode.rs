@@ -52,6 +52,9 @@ pub fn reference_states(model: &Model, times: &[f64], tol: f64) -> Vec<Vec<f64>>
                 break;
             }
         }
+        // A sample on an edge takes the new segment's instant inputs, as the engine's does
+        // (under an ideal voltage clamp V itself steps to the new command).
+        model.begin_segment(&mut ws.borrow_mut(), t, &mut y);
         out.push(y.clone());
     }
     out

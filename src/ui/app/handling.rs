@@ -101,6 +101,7 @@ impl App {
                 self.export_to(kind, &path, ctx);
             }
             Command::Recover(restore) => self.recover(restore),
+            Command::CancelFamily => self.family.cancel(),
             Command::Analysis(AnalysisCommand::Keep) => self.keep_trace(),
             Command::Analysis(AnalysisCommand::ChooseFitData) => self.choose_file(FilePurpose::FitData, ctx),
             Command::Analysis(c) => self.analysis.apply(c, self.doc.scenario(), ctx),
@@ -315,6 +316,7 @@ impl App {
             lower: self.prefs.lower_plot,
             generation: self.runtime.generation,
             kept: &self.analysis.kept.traces,
+            family: self.family.result.as_ref(),
         };
         let mut plots = Plots::default();
         let style = ctx.global_style();

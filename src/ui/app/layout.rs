@@ -7,6 +7,7 @@ use super::App;
 use crate::ui::command::Command;
 use crate::ui::dialogs::{self, restore};
 use crate::ui::panels::editor::{self, EditorInfo};
+use crate::ui::panels::family as family_view;
 use crate::ui::panels::iv;
 use crate::ui::panels::notes::{self, SideTab};
 use crate::ui::panels::plots::PlotInput;
@@ -41,6 +42,7 @@ impl App {
             side,
             offer,
             analysis,
+            family,
             ..
         } = self;
         let scenario = doc.scenario();
@@ -126,10 +128,11 @@ impl App {
                 .size_range(180.0..=(width * 0.3).max(180.0))
                 .resizable(true)
                 .show(ui, |ui| {
-                    notes::tabs(ui, side);
+                    notes::tabs(ui, side, scenario.run.family.is_some());
                     match side.tab {
                         SideTab::Iv => iv::show(ui, runtime, readouts.rest.as_ref().ok()),
                         SideTab::Notes => notes::show(ui, side, scenario, &mut commands),
+                        SideTab::Family => family_view::show(ui, family, scenario, &mut commands),
                     }
                 });
         }
@@ -150,6 +153,7 @@ impl App {
                 lower: prefs.lower_plot,
                 generation: runtime.generation,
                 kept: &analysis.kept.traces,
+                family: family.result.as_ref(),
             };
             plots.show(ui, &input, Some(&mut commands));
         });

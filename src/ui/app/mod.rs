@@ -26,6 +26,7 @@ use crate::ui::panels::presentation::Presentation;
 use crate::ui::shortcuts::{self, KeyContext};
 use crate::ui::state::checks::Checked;
 use crate::ui::state::document::{Document, Version};
+use crate::ui::state::family::FamilyState;
 use crate::ui::state::prefs::{LowerPlot, Prefs, Store};
 use crate::ui::state::readouts::Readouts;
 use crate::ui::state::runtime::Runtime;
@@ -116,6 +117,8 @@ pub struct App {
     offer: Option<Offer>,
     /// Kept traces, sweeps, dose–response and fits: runtime state, never saved or undone.
     analysis: Analysis,
+    /// The family of runs of the scenario's `run.family`, recomputed for each revision.
+    family: FamilyState,
 }
 
 impl App {
@@ -164,6 +167,7 @@ impl App {
             autosaver: None,
             offer: None,
             analysis: Analysis::default(),
+            family: FamilyState::default(),
             timing: Timing {
                 started: options.started,
                 log: options.frame_log,
@@ -210,6 +214,11 @@ impl App {
     }
 
     /// The resting report shown in the editor, or why there is none.
+    /// The family of runs of the present scenario.
+    pub fn family(&self) -> &FamilyState {
+        &self.family
+    }
+
     pub fn rest(&self) -> &Result<RestReport, String> {
         &self.readouts.rest
     }
@@ -297,8 +306,9 @@ impl eframe::App for App {
         let behind = self
             .runtime
             .update_derived(self.prefs.lower_plot == LowerPlot::Permeabilities);
+        let family_running = self.family.refresh(&self.doc);
         // With the frame log on, frames are drawn continuously so that idle frames are measured too.
-        if self.runtime.running || behind || self.files.is_open() || self.timing.log {
+        if self.runtime.running || behind || family_running || self.files.is_open() || self.timing.log {
             ctx.request_repaint();
         }
         if let Some(notice) = &self.notice {

@@ -17,6 +17,8 @@ pub enum SideTab {
     #[default]
     Iv,
     Notes,
+    /// The family of runs: measured against the varied value.
+    Family,
 }
 
 /// The side panel's state.
@@ -40,9 +42,16 @@ impl Side {
 }
 
 /// The tab strip at the top of the side panel.
-pub fn tabs(ui: &mut Ui, side: &mut Side) {
+pub fn tabs(ui: &mut Ui, side: &mut Side, has_family: bool) {
+    if !has_family && side.tab == SideTab::Family {
+        side.tab = SideTab::Iv;
+    }
     ui.horizontal(|ui| {
-        for (tab, label) in [(SideTab::Iv, "Current–voltage"), (SideTab::Notes, "Notes")] {
+        let mut list = vec![(SideTab::Iv, "Current–voltage"), (SideTab::Notes, "Notes")];
+        if has_family {
+            list.push((SideTab::Family, "Family"));
+        }
+        for (tab, label) in list {
             if ui
                 .selectable_label(side.tab == tab, RichText::new(label).strong())
                 .clicked()

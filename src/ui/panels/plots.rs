@@ -5,16 +5,19 @@
 
 use egui::{Color32, Id, RichText, Ui};
 use egui_plot::{
-    Corner, HLine, HoverPosition, Legend, Line, LineStyle, Plot, PlotPoint, PlotUi, Span, Text, VLine,
+    Corner, HLine, HoverPosition, Legend, Line, LineStyle, Plot, PlotPoint, PlotUi, Points, Span, Text, VLine,
 };
 
 use crate::analysis::RestReport;
 use crate::analysis::decimate::Decimator;
+use crate::analysis::family::Member;
 use crate::engine::Trace;
 use crate::scenario::{Event, Interval, Scenario, Wording};
 use crate::ui::analysis::kept::KeptTrace;
 use crate::ui::command::Command;
 use crate::ui::panels::editor::protocol::{MAX_PULSES_DRAWN, event_color};
+use crate::ui::panels::family::MARKERS;
+use crate::ui::state::family::FamilyResult;
 use crate::ui::state::prefs::LowerPlot;
 use crate::ui::state::runtime::Derived;
 use crate::ui::theme::{band_fill, neutral_color, potential_color, species_color};
@@ -40,6 +43,61 @@ pub struct PlotInput<'a> {
     pub generation: u64,
     /// Kept traces, drawn under the live one when visible.
     pub kept: &'a [KeptTrace],
+    /// The family of runs, each drawn under the live run.
+    pub family: Option<&'a FamilyResult>,
+}
+
+/// Dash patterns of successive runs of a family, so that runs differ without colour.
+fn family_style(k: usize) -> LineStyle {
+    match k % 4 {
+        0 => LineStyle::Solid,
+        1 => LineStyle::dashed_loose(),
+        2 => LineStyle::dotted_loose(),
+        _ => LineStyle::dashed_dense(),
+    }
+}
+
+/// Every run of the family as lines of `pick`ed samples, named by their value, under the
+/// live run; a marker every so often on each line tells runs apart without colour.
+fn family_lines(
+    lines: &mut HashMap<String, Decimator>,
+    pui: &mut PlotUi,
+    input: &PlotInput,
+    what: &str,
+    pick: fn(&Member) -> &[f64],
+) {
+    let Some(f) = input.family else { return };
+    let range = visible_t(pui);
+    let cols = columns(pui);
+    let unit = f.runs.field.field().unit;
+    for (k, m) in f.runs.members.iter().enumerate() {
+        let y = pick(m);
+        let points = decimated(lines, &format!("family/{what}/{k}"), &m.t_ms, y, range, cols);
+        // Only the first and last runs are named, so the legend says which way the family
+        // goes without listing every run over the plot.
+        let last = f.runs.members.len() - 1;
+        let name = if k == 0 || k == last {
+            format!("{} {unit}", crate::report::csv::number(m.value))
+        } else {
+            String::new()
+        };
+        let color = species_color(k);
+        let n = m.t_ms.len().min(y.len());
+        let step = (n / 6).max(1);
+        let marks: Vec<[f64; 2]> = (step / 2..n).step_by(step).map(|i| [m.t_ms[i], y[i]]).collect();
+        pui.line(
+            Line::new(name.clone(), points)
+                .color(color)
+                .width(1.3)
+                .style(family_style(k)),
+        );
+        pui.points(
+            Points::new(String::new(), marks)
+                .shape(MARKERS[k % MARKERS.len()])
+                .radius(3.0)
+                .color(color),
+        );
+    }
 }
 
 /// What the plots keep between frames: the running V range and one [`Decimator`] per line,
@@ -256,6 +314,25 @@ impl Plots {
             take(a);
             take(b);
         }
+        // A clamped cell goes where its commands take it: the view holds them from the start.
+        if let crate::scenario::RunMode::VoltageClamp { holding_mv, .. } = input.scenario.run.mode {
+            take(holding_mv);
+            for e in &input.scenario.protocol {
+                match *e {
+                    Event::Step { to_mv, .. } => take(to_mv),
+                    Event::Ramp { from_mv, to_mv, .. } => {
+                        take(from_mv);
+                        take(to_mv);
+                    }
+                    _ => {}
+                }
+            }
+        }
+        if let Some(f) = input.family {
+            for m in &f.runs.members {
+                m.v_mv.iter().step_by(16).for_each(|v| take(*v));
+            }
+        }
         for m in input.kept.iter().filter(|k| k.visible).filter_map(|k| k.metrics) {
             take(m.peak_mv);
             take(m.trough_mv);
@@ -301,7 +378,16 @@ fn lower_choice(ui: &mut Ui, input: &PlotInput, zoomed: bool, commands: &mut Vec
             }
         }
         if input.lower == LowerPlot::Currents {
-            ui.label(RichText::new("outward current positive").small().weak());
+            let note = match input.scenario.run.mode {
+                crate::scenario::RunMode::VoltageClamp {
+                    series_resistance_mohm,
+                    ..
+                } if series_resistance_mohm <= 0.0 => {
+                    "outward current positive; ideal clamp: the capacitive current of a step is not shown"
+                }
+                _ => "outward current positive",
+            };
+            ui.label(RichText::new(note).small().weak());
         }
         let label = if zoomed {
             RichText::new("Fit view (zoomed)").strong().color(ui.visuals().warn_fg_color)
@@ -543,6 +629,14 @@ fn potential_items(
         }
     }
     kept_lines(lines, pui, input.kept);
+    family_lines(lines, pui, input, "v", |m| &m.v_mv);
+    let clamped = !input.scenario.run.mode.is_current_clamp();
+    if clamped
+        && let Some(line) = series(lines, pui, input, &input.derived.command_mv, "command".into())
+            .map(|l| l.color(neutral_color(dark)).width(1.4))
+    {
+        pui.line(line.style(LineStyle::dashed_dense()));
+    }
     if let Some(trace) = input.trace
         && let Some(line) = series(lines, pui, input, trace.v_mv(), "V".into())
             .map(|l| l.color(potential_color(dark)).width(2.0))
@@ -604,6 +698,17 @@ fn osmolarity_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, in
 fn current_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
     let dark = pui.ctx().global_style().visuals.dark_mode;
     let d = input.derived;
+    family_lines(lines, pui, input, "i", |m| &m.i_ua_per_cm2);
+    if let crate::scenario::RunMode::VoltageClamp {
+        series_resistance_mohm,
+        ..
+    } = input.scenario.run.mode
+        && series_resistance_mohm > 0.0
+        && let Some(line) = series(lines, pui, input, &d.clamp_ua_per_cm2, "I pipette".into())
+            .map(|l| l.color(neutral_color(dark)).width(2.0))
+    {
+        pui.line(line);
+    }
     for (i, (name, col)) in d.species.iter().zip(&d.currents_ua_per_cm2).enumerate() {
         if let Some(line) =
             series(lines, pui, input, col, format!("I {name}")).map(|l| l.color(species_color(i)).width(1.6))
@@ -617,7 +722,11 @@ fn current_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input
     {
         pui.line(line.style(LineStyle::dashed_dense()));
     }
-    if input.scenario.protocol.iter().any(|e| e.species().is_none())
+    if input
+        .scenario
+        .protocol
+        .iter()
+        .any(|e| e.clamp_only() == Some(false))
         && let Some(line) = series(lines, pui, input, &d.inject_ua_per_cm2, "injected".into())
             .map(|l| l.color(neutral_color(dark)).width(1.4))
     {

@@ -4,6 +4,7 @@
 
 pub mod checks;
 pub mod document;
+pub mod family;
 pub mod prefs;
 pub mod readouts;
 pub mod runtime;

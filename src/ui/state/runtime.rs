@@ -22,6 +22,9 @@ pub struct Derived {
     pub net_ua_per_cm2: Vec<f64>,
     /// Injected current, µA/cm² (depolarizing positive).
     pub inject_ua_per_cm2: Vec<f64>,
+    /// In voltage clamp, the recorded current (µA/cm², outward positive) and the command (mV).
+    pub clamp_ua_per_cm2: Vec<f64>,
+    pub command_mv: Vec<f64>,
     /// log10 of each species' total permeability (cm/s); not finite where it is 0.
     pub log10_p: Vec<Vec<f64>>,
     /// Each species' reversal potential at each sample, mV, for species whose concentrations
@@ -91,6 +94,8 @@ impl Derived {
             self.volume_rel.push(r.volume_rel);
             self.osm_in_mosm.push(r.osm_in_mosm);
             self.osm_out_mosm.push(r.conditions.outside_mm.iter().sum());
+            self.clamp_ua_per_cm2.push(c.clamp_ua_per_cm2);
+            self.command_mv.push(c.command_mv);
             if any_varying {
                 let (inside, outside) = (&r.conditions.inside_mm, &r.conditions.outside_mm);
                 let t_c = model.membrane.temperature_c;

@@ -417,6 +417,22 @@ impl Editing<'_> {
                 });
                 ui.close();
             }
+            let varied = self.scenario.run.family.as_ref().map(|f| f.field()) == Some(address);
+            if varied {
+                if ui.button("Run once again (no family)").clicked() {
+                    self.push_checked(Edit::Family(None));
+                    ui.close();
+                }
+            } else if !address.field().path.starts_with("run.family")
+                && let Some(value) = address.get(self.scenario)
+                && ui
+                    .button("Run a family over this number")
+                    .on_hover_text("One run per value, overlaid, measured in the side panel's Family tab")
+                    .clicked()
+            {
+                self.push_checked(Edit::Family(Some(family_over(address, value))));
+                ui.close();
+            }
         });
     }
 
@@ -573,4 +589,24 @@ pub fn color_swatch(ui: &mut Ui, color: Color32) -> Response {
     let (rect, response) = ui.allocate_exact_size(vec2(12.0, 12.0), Sense::hover());
     ui.painter().rect_filled(rect, 2.0, color);
     response
+}
+
+/// A first family over the number at `address`, around its present `value`: the usual step
+/// levels for a potential, else eleven values from 0 to twice the value (0 to 10 from 0).
+fn family_over(address: Address, value: f64) -> crate::scenario::Family {
+    let (from, to, step) = if address.field().unit == "mV" {
+        (-100.0, 40.0, 10.0)
+    } else if value > 0.0 {
+        (0.0, 2.0 * value, value / 5.0)
+    } else if value < 0.0 {
+        (2.0 * value, 0.0, -value / 5.0)
+    } else {
+        (0.0, 10.0, 1.0)
+    };
+    crate::scenario::Family::Range {
+        field: address,
+        from,
+        to,
+        step,
+    }
 }

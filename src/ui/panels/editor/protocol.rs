@@ -5,7 +5,7 @@ use egui::{Color32, Grid, Rect, RichText, Sense, Stroke, Ui, pos2, vec2};
 
 use super::EditorInfo;
 use crate::scenario::fields::Part;
-use crate::scenario::{Edit, Event, EventKind, Scenario, Start, Wording, held_start};
+use crate::scenario::{Edit, Event, EventKind, RunMode, Scenario, Start, Wording, held_start};
 use crate::ui::theme::{neutral_color, species_color};
 use crate::ui::widgets::Editing;
 
@@ -29,6 +29,44 @@ pub fn show(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
                 ui,
                 &[("Duration", "run.duration_ms"), ("Sample every", "run.sample_ms")],
             );
+            ui.label("Mode");
+            ui.horizontal(|ui| {
+                let clamped = !ed.scenario.run.mode.is_current_clamp();
+                if ui
+                    .radio(!clamped, "current clamp")
+                    .on_hover_text("The cell sets its own potential; current can be injected")
+                    .clicked()
+                    && clamped
+                {
+                    ed.push(Edit::Mode(RunMode::CurrentClamp));
+                }
+                if ui
+                    .radio(clamped, "voltage clamp")
+                    .on_hover_text(
+                        "An amplifier holds the potential at a command; the plots show the current it passes. \
+                         Injected-current events are removed (undo brings them back).",
+                    )
+                    .clicked()
+                    && !clamped
+                {
+                    ed.push(Edit::Mode(RunMode::VoltageClamp {
+                        holding_mv: -80.0,
+                        series_resistance_mohm: 0.0,
+                        compensation: 0.0,
+                    }));
+                }
+            });
+            ui.end_row();
+            if !ed.scenario.run.mode.is_current_clamp() {
+                ed.rows(
+                    ui,
+                    &[
+                        ("Holding", "run.mode.holding_mv"),
+                        ("Series resistance", "run.mode.series_resistance_mohm"),
+                        ("Compensation", "run.mode.compensation"),
+                    ],
+                );
+            }
             ui.label("Start");
             ui.horizontal(|ui| {
                 let at_rest = ed.scenario.run.start == Start::Rest;
@@ -70,7 +108,7 @@ pub fn show(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
         event_card(ui, i, &e, ed);
     }
     ui.menu_button("+ Add event", |ui| {
-        for k in EventKind::ALL {
+        for &k in EventKind::for_mode(&ed.scenario.run.mode) {
             if ui.button(k.label()).clicked() {
                 ed.push(Edit::AddEvent(k));
             }
@@ -183,6 +221,21 @@ fn event_card(ui: &mut Ui, i: usize, e: &Event, ed: &mut Editing) {
                             pair(ui, ed, "Period", "protocol[].period_ms");
                             ui.end_row();
                             pair(ui, ed, "First at", "protocol[].from_ms");
+                            ui.end_row();
+                        }
+                        Event::Step { until_ms, .. } => {
+                            pair(ui, ed, "Command", "protocol[].to_mv");
+                            ui.end_row();
+                            pair(ui, ed, "From", "protocol[].from_ms");
+                            until(ui, ed, i, until_ms.is_some());
+                            ui.end_row();
+                        }
+                        Event::Ramp { .. } => {
+                            pair(ui, ed, "Start at", "protocol[].from_mv");
+                            pair(ui, ed, "End at", "protocol[].to_mv");
+                            ui.end_row();
+                            pair(ui, ed, "From", "protocol[].from_ms");
+                            pair(ui, ed, "Until", "protocol[].until_ms");
                             ui.end_row();
                         }
                     }
