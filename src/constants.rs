@@ -28,3 +28,8 @@ pub fn rt_over_f_mv(temperature_c: f64) -> f64 {
 pub fn nernst_slope_mv_per_decade(temperature_c: f64, charge: i32) -> f64 {
     std::f64::consts::LN_10 * rt_over_f_mv(temperature_c) / f64::from(charge)
 }
+
+/// The Debye–Hückel limiting-law prefactor's constant part, K^(3/2)·(mol/L)^(−1/2): the
+/// parameter `A` of the Davies equation is this times `(ε_r · T)^(−3/2)` (solutions.md; the
+/// value follows from e, ε0, k and N_A, as in Robinson & Stokes, Electrolyte Solutions).
+pub const DEBYE_HUCKEL_A_FACTOR: f64 = 1.824_83e6;

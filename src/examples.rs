@@ -13,6 +13,10 @@ pub const EXAMPLES: &[(&str, &str)] = &[
         include_str!("../scenarios/calcium-permeability-pulse.ron"),
     ),
     (
+        "chloride-gluconate-silver-wire.ron",
+        include_str!("../scenarios/chloride-gluconate-silver-wire.ron"),
+    ),
+    (
         "chloride-substitution.ron",
         include_str!("../scenarios/chloride-substitution.ron"),
     ),
@@ -33,12 +37,20 @@ pub const EXAMPLES: &[(&str, &str)] = &[
         include_str!("../scenarios/excitable-cell-pulse-train.ron"),
     ),
     (
+        "gluconate-pipette-junction.ron",
+        include_str!("../scenarios/gluconate-pipette-junction.ron"),
+    ),
+    (
         "hypo-osmotic-swelling.ron",
         include_str!("../scenarios/hypo-osmotic-swelling.ron"),
     ),
     (
         "potassium-blocker-fraction-blocked.ron",
         include_str!("../scenarios/potassium-blocker-fraction-blocked.ron"),
+    ),
+    (
+        "nmdg-sodium-substitution.ron",
+        include_str!("../scenarios/nmdg-sodium-substitution.ron"),
     ),
     (
         "potassium-blocker-washin.ron",

@@ -19,5 +19,6 @@ pub mod palette;
 pub mod physics;
 pub mod report;
 pub mod scenario;
+pub mod solutions;
 #[cfg(feature = "gui")]
 pub mod ui;

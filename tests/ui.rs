@@ -215,7 +215,7 @@ fn the_examples_menu_opens_every_bundled_example() {
     h.state_mut()
         .queue(Command::OpenExample("excitable-cell-pulse-train.ron".into()));
     h.run_steps(2);
-    for tab in ["Cell", "Pump & channels", "Protocol"] {
+    for tab in ["Cell", "Pump & channels", "Protocol", "Solutions"] {
         h.get_by_label(tab).click();
         h.run_steps(2);
         h.check_accessibility();
@@ -249,7 +249,7 @@ fn every_number_of_a_scenario_can_be_edited_in_the_editor() {
         })
         .collect();
     assert!(missing.len() > 40, "{missing:?}");
-    for tab in ["Cell", "Pump & channels", "Protocol"] {
+    for tab in ["Cell", "Pump & channels", "Protocol", "Solutions"] {
         h.get_by_label(tab).click();
         h.run_steps(2);
         missing.retain(|name| h.query_all_by_label(name).next().is_none());
@@ -386,4 +386,76 @@ fn saving_writes_a_file_that_reopens_to_the_same_scenario() {
     h.run_steps(2);
     assert_eq!(h.state().scenario().species[1].inside_mm, 20.0);
     assert_eq!(h.state().document().path(), Some(saved.as_path()));
+}
+
+#[test]
+fn the_solutions_tab_edits_a_recipe_with_undo_and_the_cell_tab_marks_derived_numbers() {
+    let mut h = harness();
+    h.state_mut()
+        .queue(Command::OpenExample("gluconate-pipette-junction.ron".into()));
+    h.run_steps(2);
+    let k_before = h.state().scenario().species[0].inside_mm;
+    // The cell tab shows the derived concentration, not editable, with its reason.
+    h.get_by_label("Cell").click();
+    h.run_steps(2);
+    assert!(h.query_by_label(&format!("{k_before:.4}")).is_some());
+    h.get_by_label("Solutions").click();
+    h.run_steps(2);
+    // The junctions of the recording are listed with their offset.
+    h.get_by_label("Junctions of the recording");
+    assert!(h.query_by_label_contains("+15.").is_some());
+    // Search the table and add a compound to the pipette (the second solution).
+    h.get_by_label("search compounds for gluconate pipette").click();
+    h.run_steps(2);
+    h.get_by_label("search compounds for gluconate pipette")
+        .type_text("lic");
+    h.run_steps(2);
+    h.get_by_label("LiCl").click();
+    h.run_steps(2);
+    assert!(
+        h.state().scenario().solutions[1]
+            .parts
+            .contains(&("LiCl".to_string(), 1.0))
+    );
+    // One more mM of KCl in the pipette is one more mM of K+ in the cell.
+    h.state_mut().queue(Command::Edit(Edit::AddPart {
+        solution: 1,
+        compound: "KCl".into(),
+    }));
+    h.run_steps(2);
+    assert_eq!(h.state().scenario().species[0].inside_mm, k_before + 1.0);
+    // Remove a part, then undo all three steps.
+    h.state_mut()
+        .queue(Command::Edit(Edit::RemovePart { solution: 1, part: 4 }));
+    h.run_steps(2);
+    assert!(
+        h.state().scenario().solutions[1]
+            .parts
+            .iter()
+            .all(|p| p.0 != "sucrose")
+    );
+    for _ in 0..3 {
+        h.state_mut().queue(Command::Undo);
+        h.run_steps(1);
+    }
+    h.run_steps(2);
+    assert!(
+        h.state().scenario().solutions[1]
+            .parts
+            .iter()
+            .all(|p| p.0 != "LiCl")
+    );
+    assert_eq!(h.state().scenario().species[0].inside_mm, k_before);
+    assert!(
+        h.state().scenario().solutions[1]
+            .parts
+            .iter()
+            .any(|p| p.0 == "sucrose")
+    );
+    // The activities switch is one undoable edit that lowers what the cell sees.
+    h.get_by_label("Use activities (Davies) instead of concentrations")
+        .click();
+    h.run_steps(2);
+    assert!(h.state().scenario().activities);
+    assert!(h.state().scenario().species[0].inside_mm < k_before);
 }

@@ -40,6 +40,14 @@ pub enum SweepError {
         name: String,
         choices: String,
     },
+    #[error(
+        "{quantity}:{name}: the concentration comes from the solution \"{solution}\"; vary its recipe instead (replace:OLD:NEW)"
+    )]
+    FromSolution {
+        quantity: &'static str,
+        name: String,
+        solution: String,
+    },
     #[error("dose_um: no agent is labelled \"{label}\"; {choices}")]
     UnknownAgent { label: String, choices: String },
     #[error("the number of points must be at least 1 (got {0})")]
@@ -81,6 +89,15 @@ fn quoted_list<'a>(names: impl Iterator<Item = &'a str>) -> String {
     names.map(|n| format!("\"{n}\"")).collect::<Vec<_>>().join(", ")
 }
 
+/// The solution that gives the concentration `vary` would change, if one does.
+fn solution_of<'a>(vary: &Vary, s: &'a Scenario) -> Option<&'a str> {
+    match vary {
+        Vary::OutsideMm(_) => s.outside.as_deref(),
+        Vary::InsideMm(_) => s.inside.as_deref(),
+        _ => None,
+    }
+}
+
 impl Vary {
     /// Parses the command-line spelling and checks that the species or agent exists in `s`.
     pub fn parse(text: &str, s: &Scenario) -> Result<Vary, SweepError> {
@@ -105,6 +122,13 @@ impl Vary {
     fn target(&self, s: &Scenario) -> Result<usize, SweepError> {
         match self {
             Vary::TemperatureC => Ok(0),
+            Vary::OutsideMm(name) | Vary::InsideMm(name) if solution_of(self, s).is_some() => {
+                Err(SweepError::FromSolution {
+                    quantity: self.quantity(),
+                    name: name.clone(),
+                    solution: solution_of(self, s).unwrap_or_default().to_string(),
+                })
+            }
             Vary::OutsideMm(name) | Vary::InsideMm(name) | Vary::Permeability(name) => {
                 s.species_index(name).ok_or_else(|| SweepError::UnknownSpecies {
                     quantity: self.quantity().to_string(),

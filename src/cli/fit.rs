@@ -23,6 +23,10 @@ pub struct Args {
     /// Species whose permeability is fitted, relative to the scenario's first species.
     #[arg(long, value_name = "NAME[,NAME…]", value_delimiter = ',', required = true)]
     free: Vec<String>,
+    /// Subtract the recording's offset (liquid junction and reference electrode, from the
+    /// scenario's `inside` and `outside` solutions) from each measured potential first.
+    #[arg(long)]
+    correct_junction: bool,
     /// Print one JSON object instead of a table.
     #[arg(long)]
     json: bool,
@@ -79,8 +83,12 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     super::print_warnings(&a.file, &s);
     let vary =
         Vary::parse(&a.vary, &s).map_err(|e| super::bad(format!("{}: --vary: {e}", a.file.display())))?;
-    let points =
+    let mut points =
         read_points(&a.data).map_err(|e| super::bad(format!("{} (--data): {e}", a.data.display())))?;
+    if a.correct_junction {
+        crate::solutions::correct_points(&s, &vary, &mut points)
+            .map_err(|e| super::bad(format!("{}: --correct-junction: {e}", a.file.display())))?;
+    }
     let free: Vec<String> = a
         .free
         .iter()

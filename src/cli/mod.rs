@@ -5,8 +5,10 @@ mod check;
 mod family;
 mod fit;
 mod output;
+mod replace;
 mod rest;
 mod run;
+mod solutions;
 mod sweep;
 
 use std::path::PathBuf;
@@ -58,6 +60,8 @@ enum Command {
     Fit(fit::Args),
     /// One run per value of one number (by its field path), in parallel, each measured.
     Family(family::Args),
+    /// Each solution's ions and checks, and the junction potentials of the recording.
+    Solutions(solutions::Args),
 }
 
 /// Parses the arguments, runs, and turns the outcome into command-line.md's exit status.
@@ -87,6 +91,7 @@ pub fn main() -> ExitCode {
         Some(Command::Scan(a)) => sweep::run(a),
         Some(Command::Fit(a)) => fit::run(a),
         Some(Command::Family(a)) => family::run(a),
+        Some(Command::Solutions(a)) => solutions::run(a),
         None => not_a_command(cli.file.as_deref()).and_then(|()| open_window(cli.file)),
     };
     match result {
@@ -108,7 +113,16 @@ fn is_bad_input(e: &anyhow::Error) -> bool {
 }
 
 /// The names a user types as the first word.
-const COMMANDS: [&str; 7] = ["rest", "run", "check", "scan", "fit", "family", "help"];
+const COMMANDS: [&str; 8] = [
+    "rest",
+    "run",
+    "check",
+    "scan",
+    "fit",
+    "family",
+    "solutions",
+    "help",
+];
 
 /// A first word that names no file but is close to a command (`permeant chek`) is a mistyped
 /// command, not a scenario for the window to open.

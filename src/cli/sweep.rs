@@ -15,7 +15,8 @@ pub struct Args {
     /// The scenario file.
     file: PathBuf,
     /// What to vary: temperature_c, outside_mm:NAME, inside_mm:NAME, permeability:NAME (NAME a
-    /// species) or dose_um:LABEL (LABEL an agent).
+    /// species), dose_um:LABEL (LABEL an agent), or replace:OLD:NEW (compound OLD of the bath
+    /// solution replaced by NEW, the value being the mM of NEW).
     #[arg(long, value_name = "WHAT")]
     vary: String,
     /// First value of the range.
@@ -77,6 +78,25 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         None => None,
     };
     super::print_warnings(&a.file, &s);
+    if let Some(spec) = a.vary.strip_prefix("replace:") {
+        let range = SweepRange {
+            from: a.from,
+            to: a.to,
+            points: a.points,
+            log: a.log,
+        };
+        return super::replace::run(
+            &s,
+            super::replace::Request {
+                file: &a.file,
+                vary: &a.vary,
+                spec,
+                range,
+                csv: a.csv.as_deref(),
+                json: a.json,
+            },
+        );
+    }
     let in_file = |e: &dyn std::fmt::Display| format!("{}: {e}", a.file.display());
     let vary =
         Vary::parse(&a.vary, &s).map_err(|e| super::bad(format!("{}: --vary: {e}", a.file.display())))?;

@@ -85,6 +85,9 @@ pub struct Model {
     pub volume: Option<VolumeModel>,
     /// The voltage clamp, `None` in current clamp.
     pub clamp: Option<Clamp>,
+    /// What a recording adds to V over the run (junctions and reference), when the cell and
+    /// bath are solutions (solutions.md).
+    pub recording_offset: Option<crate::solutions::Offsets>,
 }
 
 // The model is shared read-only (a sweep's threads, a window frame and a run at once): keep it so.
@@ -234,6 +237,7 @@ impl Model {
             channel_labels,
             volume,
             clamp: Clamp::new(s),
+            recording_offset: crate::solutions::recording_offsets(s),
         }
     }
 

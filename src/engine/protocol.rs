@@ -262,6 +262,43 @@ pub struct Protocol {
     pub edges: Vec<f64>,
 }
 
+/// Adds one change of species `sp`'s bath, `(at ms, mM, lag ms)`, made by event `event`, to
+/// the species' bath input (made on its first change).
+fn bath_change(
+    lags: &mut Vec<Lag>,
+    bath_lag: &mut [Option<usize>],
+    s: &Valid,
+    sp: usize,
+    event: usize,
+    change: (f64, f64, f64),
+) {
+    let l = match bath_lag[sp] {
+        Some(l) => l,
+        None => {
+            lags.push(Lag {
+                id: LagId::Bath {
+                    species: s.species[sp].name.clone(),
+                },
+                event,
+                kind: LagKind::Bath {
+                    species: sp,
+                    file_mm: s.species[sp].outside_mm,
+                    changes: vec![],
+                },
+            });
+            bath_lag[sp] = Some(lags.len() - 1);
+            lags.len() - 1
+        }
+    };
+    if let Some(Lag {
+        kind: LagKind::Bath { changes, .. },
+        ..
+    }) = lags.get_mut(l)
+    {
+        changes.push(change);
+    }
+}
+
 impl Protocol {
     /// Compiles the protocol of a validated scenario. Validation has resolved every species
     /// name, so an event whose species is missing cannot occur; it would be skipped.
@@ -270,6 +307,8 @@ impl Protocol {
         let mut pulses = Vec::new();
         let mut bath_lag: Vec<Option<usize>> = vec![None; s.species.len()];
         let mut edges = Vec::new();
+        // Mixed once, and only for a protocol that exchanges whole solutions.
+        let mut plan = None;
         for (i, ev) in s.protocol.iter().enumerate() {
             let species_of = |name: &str| s.species_index(name);
             match ev {
@@ -307,30 +346,17 @@ impl Protocol {
                     lag_ms,
                 } => {
                     let Some(sp) = species_of(species) else { continue };
-                    let l = match bath_lag[sp] {
-                        Some(l) => l,
-                        None => {
-                            lags.push(Lag {
-                                id: LagId::Bath {
-                                    species: species.clone(),
-                                },
-                                event: i,
-                                kind: LagKind::Bath {
-                                    species: sp,
-                                    file_mm: s.species[sp].outside_mm,
-                                    changes: vec![],
-                                },
-                            });
-                            bath_lag[sp] = Some(lags.len() - 1);
-                            lags.len() - 1
-                        }
-                    };
-                    if let Some(Lag {
-                        kind: LagKind::Bath { changes, .. },
-                        ..
-                    }) = lags.get_mut(l)
-                    {
-                        changes.push((*at_ms, *outside_mm, *lag_ms));
+                    bath_change(&mut lags, &mut bath_lag, s, sp, i, (*at_ms, *outside_mm, *lag_ms));
+                }
+                Event::BathExchange {
+                    solution,
+                    at_ms,
+                    lag_ms,
+                } => {
+                    let plan = plan.get_or_insert_with(|| crate::solutions::plan(s));
+                    for sp in 0..s.species.len() {
+                        let mm = plan.value_of(s, solution, &s.species[sp].name);
+                        bath_change(&mut lags, &mut bath_lag, s, sp, i, (*at_ms, mm, *lag_ms));
                     }
                 }
                 Event::Agent {

@@ -1,4 +1,5 @@
-//! CSV of a run's samples: `time_ms,v_mv`, in voltage clamp the recorded current
+//! CSV of a run's samples: `time_ms,v_mv`, then `v_recorded_mv` (V plus the recording's offset)
+//! when the scenario's cell and bath are solutions, in voltage clamp the recorded current
 //! `i_total_ua_per_cm2`, each species' current, the pump current, then every other state
 //! component (gates, lagged inputs, tracked concentrations), with a tracked volume
 //! `volume_rel` and `osm_in_mosm` (the inside amounts written as the concentrations they make,
@@ -158,6 +159,9 @@ pub fn header(model: &Model, trace: &Trace) -> Vec<String> {
 /// Names of the `columns` chosen, in order.
 pub fn header_of(model: &Model, trace: &Trace, columns: Columns) -> Vec<String> {
     let mut h = vec!["time_ms".to_string(), "v_mv".to_string()];
+    if model.recording_offset.is_some() {
+        h.push("v_recorded_mv".into());
+    }
     if columns == Columns::Potential {
         return h;
     }
@@ -253,6 +257,10 @@ impl RowWriter {
                 push_number(t, trace.t_ms[k]);
                 t.push(b',');
                 push_number(t, trace.v_mv()[k]);
+                if let Some(offset) = &model.recording_offset {
+                    t.push(b',');
+                    push_number(t, trace.v_mv()[k] + offset.at(trace.t_ms[k]));
+                }
                 t.push(b'\n');
                 continue;
             }
@@ -261,6 +269,10 @@ impl RowWriter {
             push_number(t, trace.t_ms[k]);
             t.push(b',');
             push_number(t, self.y[0]);
+            if let Some(offset) = &model.recording_offset {
+                t.push(b',');
+                push_number(t, self.y[0] + offset.at(trace.t_ms[k]));
+            }
             if clamped {
                 t.push(b',');
                 push_number(t, self.readout.currents.clamp_ua_per_cm2);

@@ -89,7 +89,7 @@ pub fn event_spans(s: &Scenario) -> Vec<EventBand> {
             EventBand {
                 label: e.summary(Wording::Standalone),
                 from_ms,
-                until_ms: if matches!(e, Event::BathChange { .. }) {
+                until_ms: if matches!(e, Event::BathChange { .. } | Event::BathExchange { .. }) {
                     from_ms
                 } else {
                     end

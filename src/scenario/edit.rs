@@ -18,6 +18,8 @@ pub enum EventKind {
     Step,
     /// Voltage clamp only.
     Ramp,
+    /// Offered only where the scenario has solutions (it names one), so not in [`Self::ALL`].
+    BathExchange,
 }
 
 impl EventKind {
@@ -57,6 +59,7 @@ impl EventKind {
             EventKind::InjectTrain => "Pulse train",
             EventKind::Step => "Command step",
             EventKind::Ramp => "Command ramp",
+            EventKind::BathExchange => "Solution exchange",
         }
     }
 
@@ -69,6 +72,7 @@ impl EventKind {
             Event::InjectTrain { .. } => EventKind::InjectTrain,
             Event::Step { .. } => EventKind::Step,
             Event::Ramp { .. } => EventKind::Ramp,
+            Event::BathExchange { .. } => EventKind::BathExchange,
         }
     }
 }
@@ -204,6 +208,18 @@ pub enum Edit {
         index: usize,
         opens: bool,
     },
+    /// Add a compound to a solution's recipe (1 mM, to be set), or 1 mM more of one it has.
+    AddPart {
+        solution: usize,
+        compound: String,
+    },
+    /// Take a compound out of a solution's recipe.
+    RemovePart {
+        solution: usize,
+        part: usize,
+    },
+    /// Use activities (Davies) instead of concentrations.
+    Activities(bool),
 }
 
 impl Edit {
@@ -255,6 +271,22 @@ impl Edit {
             }
             Edit::TrackConcentrations(on) => s.cell.track_concentrations = *on,
             Edit::Volume(v) => s.cell.volume = v.clone(),
+            Edit::AddPart { solution, compound } => {
+                if let Some(x) = s.solutions.get_mut(*solution) {
+                    match x.parts.iter_mut().find(|p| p.0 == *compound) {
+                        Some(p) => p.1 += 1.0,
+                        None => x.parts.push((compound.clone(), 1.0)),
+                    }
+                }
+            }
+            Edit::RemovePart { solution, part } => {
+                if let Some(x) = s.solutions.get_mut(*solution)
+                    && *part < x.parts.len()
+                {
+                    x.parts.remove(*part);
+                }
+            }
+            Edit::Activities(on) => s.activities = *on,
             Edit::Start(start) => s.run.start = *start,
             Edit::Mode(mode) => {
                 let clamp = !mode.is_current_clamp();
@@ -411,7 +443,11 @@ pub fn rename_references(s: &mut Scenario, old: &str, new: &str) {
             Event::PermeabilityScale { species, .. }
             | Event::BathChange { species, .. }
             | Event::Agent { species, .. } => fix(species),
-            Event::Inject { .. } | Event::InjectTrain { .. } | Event::Step { .. } | Event::Ramp { .. } => {}
+            Event::Inject { .. }
+            | Event::InjectTrain { .. }
+            | Event::Step { .. }
+            | Event::Ramp { .. }
+            | Event::BathExchange { .. } => {}
         }
     }
 }
@@ -591,6 +627,19 @@ pub fn new_event(s: &Scenario, kind: EventKind) -> Event {
             to_mv: 40.0,
             from_ms: start,
             until_ms: end,
+        },
+        EventKind::BathExchange => Event::BathExchange {
+            // The first solution that is not the bath already.
+            solution: s
+                .solutions
+                .iter()
+                .map(|x| x.name.as_str())
+                .find(|n| Some(*n) != s.outside.as_deref())
+                .or(s.outside.as_deref())
+                .unwrap_or("bath")
+                .to_string(),
+            at_ms: start,
+            lag_ms: round_ms(d * 0.02).max(0.1),
         },
     }
 }

@@ -42,6 +42,7 @@ impl Event {
             Event::InjectTrain { .. } => "InjectTrain",
             Event::Step { .. } => "Step",
             Event::Ramp { .. } => "Ramp",
+            Event::BathExchange { .. } => "BathExchange",
         }
     }
 
@@ -59,7 +60,8 @@ impl Event {
             | Event::Inject { .. }
             | Event::InjectTrain { .. }
             | Event::Step { .. }
-            | Event::Ramp { .. } => None,
+            | Event::Ramp { .. }
+            | Event::BathExchange { .. } => None,
         }
     }
 
@@ -78,7 +80,7 @@ impl Event {
             Event::Ramp {
                 from_ms, until_ms, ..
             } => (from_ms, Some(until_ms)),
-            Event::BathChange { at_ms, .. } => (at_ms, None),
+            Event::BathChange { at_ms, .. } | Event::BathExchange { at_ms, .. } => (at_ms, None),
             Event::Inject {
                 from_ms, until_ms, ..
             } => (from_ms, Some(until_ms)),
@@ -171,6 +173,7 @@ impl Event {
                 format!("ramp {from_mv} → {to_mv} mV")
             }
             Event::Ramp { from_mv, to_mv, .. } => format!("{from_mv} → {to_mv} mV"),
+            Event::BathExchange { solution, .. } => format!("bath → {solution}"),
         }
     }
 }

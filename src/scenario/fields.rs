@@ -19,8 +19,8 @@ use serde::{Deserialize, Deserializer, Serialize, Serializer};
 
 use super::validate::{MAX_DURATION_MS, MAX_GATE_POWER};
 use super::{
-    Cell, Channel, Event, Family, Gate, Impermeant, Kinetics, Pump, RunMode, RunSettings, Scenario, Species,
-    Start, Volume, Water,
+    Cell, Channel, CompoundIon, Event, Family, Gate, Impermeant, Kinetics, Pump, Reference, RunMode,
+    RunSettings, Scenario, Solution, Species, Start, Volume, Water,
 };
 
 /// One number of the scenario format: one row of [`FIELDS`].
@@ -315,6 +315,12 @@ pub enum Holder {
     Run(Pick<RunSettings>),
     /// `run.family.values[i]`
     FamilyValue(Pick<f64>),
+    /// `compounds[i].ions[j]`
+    CompoundIon(Pick<CompoundIon>),
+    /// `solutions[i]`
+    Solution(Pick<Solution>),
+    /// `solutions[i].parts[j]`: a compound and its amount
+    SolutionPart(Pick<(String, f64)>),
 }
 
 /// The kinds of [`Holder`], in the order the file has them.
@@ -329,6 +335,9 @@ pub enum Part {
     Event,
     Run,
     FamilyValue,
+    CompoundIon,
+    Solution,
+    SolutionPart,
 }
 
 impl Holder {
@@ -343,6 +352,9 @@ impl Holder {
             Holder::Event(_) => Part::Event,
             Holder::Run(_) => Part::Run,
             Holder::FamilyValue(_) => Part::FamilyValue,
+            Holder::CompoundIon(_) => Part::CompoundIon,
+            Holder::Solution(_) => Part::Solution,
+            Holder::SolutionPart(_) => Part::SolutionPart,
         }
     }
 }
@@ -365,6 +377,9 @@ macro_rules! reach {
                 Some(Family::Values { values, .. }) => (p.$call)(values.$get(i)?),
                 _ => None,
             },
+            Holder::CompoundIon(p) => (p.$call)($s.compounds.$get(i)?.ions.$get(j)?),
+            Holder::Solution(p) => (p.$call)($s.solutions.$get(i)?),
+            Holder::SolutionPart(p) => (p.$call)($s.solutions.$get(i)?.parts.$get(j)?),
         }
     }};
 }
@@ -428,6 +443,85 @@ pub static FIELDS: &[Field] = &[
         drag: Drag::Linear { per_point: 0.1 },
         span: TEMPERATURE_SPAN,
         holder: Holder::Scenario(pick!(Scenario { temperature_c, .. } => temperature_c)),
+    },
+    Field {
+        path: "reference.kcl_mm",
+        unit: "mM",
+        label: "reference bridge KCl",
+        limits: Limits::Positive("the bridge's KCl concentration"),
+        style: Style::Plain,
+        drag: CONCENTRATION_DRAG,
+        span: Span::Auto,
+        holder: Holder::Scenario(
+            pick!(Scenario { reference: Some(Reference::Bridge { kcl_mm }), .. } => kcl_mm),
+        ),
+    },
+    Field {
+        path: "compounds[].ions[].charge",
+        unit: "",
+        label: "charge",
+        limits: Limits::Range {
+            lo: -3.0,
+            hi: 3.0,
+            nonzero: false,
+            outside: |z| format!("the charge must be a whole number from −3 to 3 (got {z})"),
+        },
+        style: Style::Whole,
+        drag: WHOLE_DRAG,
+        span: Span::Fixed { lo: -3.0, hi: 3.0 },
+        holder: Holder::CompoundIon(pick!(CompoundIon { charge, .. } => charge)),
+    },
+    Field {
+        path: "compounds[].ions[].count",
+        unit: "",
+        label: "ions per formula unit",
+        limits: Limits::Range {
+            lo: 1.0,
+            hi: f64::INFINITY,
+            nonzero: false,
+            outside: |_| "a compound gives at least 1 of each of its ions".into(),
+        },
+        style: Style::Whole,
+        drag: WHOLE_DRAG,
+        span: Span::Auto,
+        holder: Holder::CompoundIon(pick!(CompoundIon { count, .. } => count)),
+    },
+    Field {
+        path: "compounds[].ions[].conductivity",
+        unit: "S·cm²/mol",
+        label: "conductivity",
+        limits: Limits::Positive("a conductivity"),
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.1 },
+        span: Span::Auto,
+        holder: Holder::CompoundIon(
+            pick!(CompoundIon { conductivity: Some(conductivity), .. } => conductivity),
+        ),
+    },
+    Field {
+        path: "solutions[].parts[][1]",
+        unit: "mM",
+        label: "amount",
+        limits: Limits::NonNegative("an amount"),
+        style: Style::Plain,
+        drag: CONCENTRATION_DRAG,
+        span: Span::Auto,
+        holder: Holder::SolutionPart(pick!((_, mm) => mm)),
+    },
+    Field {
+        path: "solutions[].ph",
+        unit: "",
+        label: "pH",
+        limits: Limits::Range {
+            lo: 0.0,
+            hi: 14.0,
+            nonzero: false,
+            outside: |ph| format!("a pH of {ph} is outside 0–14"),
+        },
+        style: Style::Plain,
+        drag: Drag::Linear { per_point: 0.01 },
+        span: Span::Fixed { lo: 6.0, hi: 8.5 },
+        holder: Holder::Solution(pick!(Solution { ph: Some(ph), .. } => ph)),
     },
     Field {
         path: "cell.diameter_um",
@@ -832,7 +926,9 @@ pub static FIELDS: &[Field] = &[
         style: Style::Plain,
         drag: TIME_DRAG,
         span: Span::RunTime,
-        holder: Holder::Event(pick!(Event::BathChange { at_ms, .. } => at_ms)),
+        holder: Holder::Event(pick!(
+            Event::BathChange { at_ms, .. } | Event::BathExchange { at_ms, .. } => at_ms
+        )),
     },
     Field {
         path: "protocol[].max_block",
@@ -994,7 +1090,9 @@ pub static FIELDS: &[Field] = &[
         drag: TIME_CONSTANT_DRAG,
         span: Span::Auto,
         holder: Holder::Event(pick!(
-            Event::PermeabilityScale { lag_ms, .. } | Event::BathChange { lag_ms, .. } => lag_ms
+            Event::PermeabilityScale { lag_ms, .. }
+            | Event::BathChange { lag_ms, .. }
+            | Event::BathExchange { lag_ms, .. } => lag_ms
         )),
     },
     Field {
@@ -1290,6 +1388,29 @@ impl Address {
             Part::Channel => format!("{}: {label}", channel()),
             Part::Gate => format!("{} gate {}: {label}", channel(), j + 1),
             Part::Event => format!("event {} {label}", i + 1),
+            Part::CompoundIon => {
+                let name = s
+                    .compounds
+                    .get(i)
+                    .and_then(|c| c.ions.get(j))
+                    .map_or_else(|| format!("compound {} ion {}", i + 1, j + 1), |x| x.ion.clone());
+                format!("{name} {label}")
+            }
+            Part::Solution => {
+                let name = s
+                    .solutions
+                    .get(i)
+                    .map_or_else(|| format!("solution {}", i + 1), |x| x.name.clone());
+                format!("{name}: {label}")
+            }
+            Part::SolutionPart => {
+                let solution = s.solutions.get(i);
+                let name = solution.map_or_else(|| format!("solution {}", i + 1), |x| x.name.clone());
+                let compound = solution
+                    .and_then(|x| x.parts.get(j))
+                    .map_or_else(|| format!("part {}", j + 1), |x| x.0.clone());
+                format!("{name}: {compound}")
+            }
         }
     }
 }
@@ -1309,6 +1430,17 @@ pub fn addresses(s: &Scenario) -> Vec<Address> {
     let mut out: Vec<Address> = Vec::new();
     out.extend(numbers_of(s, Part::Scenario, &[]));
     out.extend(numbers_of(s, Part::Cell, &[]));
+    for (i, c) in s.compounds.iter().enumerate() {
+        for j in 0..c.ions.len() {
+            out.extend(numbers_of(s, Part::CompoundIon, &[i, j]));
+        }
+    }
+    for (i, x) in s.solutions.iter().enumerate() {
+        for j in 0..x.parts.len() {
+            out.extend(numbers_of(s, Part::SolutionPart, &[i, j]));
+        }
+        out.extend(numbers_of(s, Part::Solution, &[i]));
+    }
     for i in 0..s.species.len() {
         out.extend(numbers_of(s, Part::Species, &[i]));
     }
@@ -1412,8 +1544,16 @@ impl FromStr for Address {
                 rest = after;
             }
         }
+        // A tuple's member keeps its index in the row's path (`solutions[].parts[][1]`).
+        let member = || {
+            let last = at.last()?;
+            let cut = pattern.rfind("[]")?;
+            let p = format!("{}[{last}]{}", &pattern[..cut], &pattern[cut + 2..]);
+            field(&p).map(|f| f.at(&at[..at.len() - 1]))
+        };
         match field(&pattern) {
             Some(f) => Ok(f.at(&at)),
+            None if member().is_some() => member().ok_or_else(bad),
             None => {
                 let known: Vec<&'static str> = FIELDS.iter().map(|f| f.path).collect();
                 Err(AddressError::Unknown {

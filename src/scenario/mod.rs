@@ -9,6 +9,7 @@ mod events;
 mod family;
 pub mod fields;
 mod read;
+mod recipes;
 mod save;
 mod valid;
 mod validate;
@@ -24,7 +25,8 @@ pub use edit::{
 pub use events::{Interval, Wording};
 pub use family::{FamilyError, MAX_FAMILY_RUNS, member, range_values};
 pub use fields::{Address, AddressError, Drag, Span, Style};
-pub use read::{Location, Problem, ScenarioError, from_str, read_file};
+pub use read::{Location, Problem, ScenarioError, from_str, nearest_name, read_file};
+pub use recipes::{CompoundIon, DEFAULT_BRIDGE_KCL_MM, Reference, Solution, UserCompound};
 pub(crate) use save::through_links;
 pub use save::{
     Durability, pending_temporaries, save_atomic, to_ron, to_ron_string, write_atomic, write_atomic_with,
@@ -48,6 +50,20 @@ pub struct Scenario {
     pub temperature_c: f64,
     #[serde(default)]
     pub cell: Cell,
+    /// Solutions as recipes (solutions.md): all optional, so a file without them is unchanged.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub compounds: Vec<UserCompound>,
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub solutions: Vec<Solution>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inside: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub outside: Option<String>,
+    #[serde(default, skip_serializing_if = "is_false")]
+    pub activities: bool,
+    /// `None` is the default 3 M KCl bridge.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reference: Option<Reference>,
     pub species: Vec<Species>,
     #[serde(default)]
     pub pump: Option<Pump>,
@@ -60,6 +76,23 @@ pub struct Scenario {
 
 fn default_temperature_c() -> f64 {
     37.0
+}
+
+fn is_false(x: &bool) -> bool {
+    !*x
+}
+
+/// A concentration the file leaves out because a solution gives it (`inside`/`outside`);
+/// reading fills in the solution's value, saving leaves it out again. A not-a-number with its
+/// own bit pattern, so that a `NaN` written in a file is still told apart (and refused).
+pub(crate) const FROM_SOLUTION: f64 = f64::from_bits(0x7ff8_0000_5017_0000);
+
+fn from_solution() -> f64 {
+    FROM_SOLUTION
+}
+
+pub(crate) fn is_from_solution(x: &f64) -> bool {
+    x.to_bits() == FROM_SOLUTION.to_bits()
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -141,7 +174,9 @@ impl AgentTarget {
 pub struct Species {
     pub name: String,
     pub charge: i32,
+    #[serde(default = "from_solution", skip_serializing_if = "is_from_solution")]
     pub inside_mm: f64,
+    #[serde(default = "from_solution", skip_serializing_if = "is_from_solution")]
     pub outside_mm: f64,
     pub permeability_cm_per_s: f64,
 }
@@ -244,6 +279,14 @@ pub enum Event {
         amplitude_ua_per_cm2: f64,
         from_ms: f64,
         until_ms: f64,
+    },
+    /// Exchange the whole bath for the solution named `solution` from `at_ms`: every species'
+    /// outside concentration becomes that solution's, each through the lag (solutions.md).
+    BathExchange {
+        solution: String,
+        at_ms: f64,
+        #[serde(default)]
+        lag_ms: f64,
     },
     /// `count` rectangular pulses, one every `period_ms`.
     InjectTrain {
@@ -391,6 +434,12 @@ impl Scenario {
             notes: String::new(),
             temperature_c: 37.0,
             cell: Cell::default(),
+            compounds: vec![],
+            solutions: vec![],
+            inside: None,
+            outside: None,
+            activities: false,
+            reference: None,
             species: vec![
                 Species {
                     name: "K+".into(),

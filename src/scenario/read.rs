@@ -182,6 +182,14 @@ pub fn from_str(text: &str, file: &str) -> Result<Valid, ScenarioError> {
         });
     }
     let scenario: Scenario = ron::from_str(text).map_err(|e| syntax_error(file, text, &e))?;
+    let mut found = super::recipes::missing(&scenario);
+    found.extend(super::recipes::given_twice(&scenario));
+    if !found.is_empty() {
+        return Err(ScenarioError::Invalid {
+            file: file.into(),
+            problems: found,
+        });
+    }
     validate(scenario).map_err(|e| ScenarioError::Invalid {
         file: file.into(),
         problems: e.0,
@@ -207,6 +215,11 @@ fn place_name(outer: Option<&str>) -> &'static str {
         Some("Ramp") => "a Ramp command",
         Some("RunMode") | Some("VoltageClamp") => "run.mode",
         Some("Family") => "run.family",
+        Some("BathExchange") => "a BathExchange event",
+        Some("Solution") => "a solution",
+        Some("UserCompound") => "a compound",
+        Some("CompoundIon") => "an ion of a compound",
+        Some("Reference") => "reference",
         Some("Boltzmann") => "Boltzmann kinetics",
         Some("Event") => "the protocol",
         Some("Kinetics") => "gate kinetics",
@@ -216,6 +229,11 @@ fn place_name(outer: Option<&str>) -> &'static str {
 }
 
 /// The known name closest to `found`, if any is close enough to be a plausible misspelling.
+pub fn nearest_name<'a>(found: &str, known: &[&'a str]) -> Option<&'a str> {
+    nearest(found, known)
+}
+
+/// The known name closest to `found` (see [`nearest_name`]).
 pub(super) fn nearest<'a>(found: &str, known: &[&'a str]) -> Option<&'a str> {
     let found = found.to_lowercase();
     known

@@ -13,7 +13,7 @@ pub fn to_ron(s: &Scenario) -> Result<String, ron::Error> {
     let config = ron::ser::PrettyConfig::new()
         .indentor("    ".to_string())
         .struct_names(false);
-    let mut text = ron::ser::to_string_pretty(s, config)?;
+    let mut text = ron::ser::to_string_pretty(&*super::recipes::as_written(s), config)?;
     text.push('\n');
     Ok(text)
 }

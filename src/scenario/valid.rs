@@ -40,7 +40,8 @@ impl Invalid {
 }
 
 /// Checks every rule of scenario-format.md and, when none is broken, vouches for `s`.
-pub fn validate(s: Scenario) -> Result<Valid, Invalid> {
+pub fn validate(mut s: Scenario) -> Result<Valid, Invalid> {
+    crate::solutions::fill_species(&mut s);
     let found = problems(&s);
     if found.is_empty() {
         Ok(Valid(s))

@@ -377,6 +377,8 @@ pub fn problems(s: &Scenario) -> Vec<Problem> {
         }
     }
 
+    c.problems.extend(super::recipes::problems(s));
+
     c.numbers(s, Part::Run, &[], |c, path| {
         // The number of samples is told right after the sample interval's own bounds.
         if path == "run.sample_ms"
@@ -434,5 +436,6 @@ pub fn warnings(s: &Scenario) -> Vec<Problem> {
             ),
         });
     }
+    w.extend(super::recipes::warnings(s));
     w
 }

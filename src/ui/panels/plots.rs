@@ -313,6 +313,13 @@ impl Plots {
         if let Some((a, b)) = self.v_range(input) {
             take(a);
             take(b);
+            // The recorded potential is V shifted by each offset in force.
+            if let Some(o) = crate::solutions::recording_offsets(input.scenario) {
+                for off in std::iter::once(o.start_mv).chain(o.changes.iter().map(|c| c.1)) {
+                    take(a + off);
+                    take(b + off);
+                }
+            }
         }
         // A clamped cell goes where its commands take it: the view holds them from the start.
         if let crate::scenario::RunMode::VoltageClamp { holding_mv, .. } = input.scenario.run.mode {
@@ -481,10 +488,12 @@ fn bands(s: &Scenario) -> Vec<Band> {
     let mut out: Vec<Band> = Vec::new();
     for (k, e) in s.protocol.iter().enumerate() {
         let intervals = match e {
-            Event::BathChange { at_ms, lag_ms, .. } => vec![Interval {
-                from_ms: at_ms.min(d),
-                until_ms: (at_ms + (3.0 * lag_ms).max(d / 200.0)).min(d),
-            }],
+            Event::BathChange { at_ms, lag_ms, .. } | Event::BathExchange { at_ms, lag_ms, .. } => {
+                vec![Interval {
+                    from_ms: at_ms.min(d),
+                    until_ms: (at_ms + (3.0 * lag_ms).max(d / 200.0)).min(d),
+                }]
+            }
             _ => e.intervals(d, MAX_PULSES_DRAWN),
         };
         for (j, span) in intervals.into_iter().enumerate() {
@@ -642,6 +651,25 @@ fn potential_items(
             .map(|l| l.color(potential_color(dark)).width(2.0))
     {
         pui.line(line);
+    }
+    // What an amplifier would show (V plus the junction and reference offset in force), when
+    // the cell and bath are solutions; its legend entry hides or shows it.
+    if let Some(trace) = input.trace
+        && let Some(offsets) = crate::solutions::recording_offsets(input.scenario)
+    {
+        let n = input.shown_len.min(trace.len());
+        let recorded: Vec<f64> = trace.t_ms[..n]
+            .iter()
+            .zip(trace.v_mv())
+            .map(|(t, v)| v + offsets.at(*t))
+            .collect();
+        if let Some(line) = series(lines, pui, input, &recorded, "V recorded".into()) {
+            pui.line(
+                line.color(potential_color(dark).gamma_multiply(0.6))
+                    .width(1.5)
+                    .style(egui_plot::LineStyle::dashed_loose()),
+            );
+        }
     }
     if input.shown_ms > 0.0 {
         pui.vline(

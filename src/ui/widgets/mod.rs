@@ -155,6 +155,11 @@ impl Editing<'_> {
         self.commands.push(Command::Edit(edit));
     }
 
+    /// Counts `field` as drawn (shown some other way), so [`Editing::others`] leaves it out.
+    pub fn mark_drawn(&mut self, field: Address) {
+        self.drawn.push(field);
+    }
+
     /// Whether `edit` would leave the scenario valid, or the first reason it would not.
     pub fn check(&mut self, edit: &Edit) -> Result<(), Problem> {
         self.checked.check(self.doc, edit)

@@ -6,6 +6,7 @@ use egui::{Grid, RichText, ScrollArea, Ui};
 
 pub mod channels;
 pub mod protocol;
+pub mod solutions;
 
 use crate::analysis::RestReport;
 use crate::scenario::Edit;
@@ -20,6 +21,7 @@ pub enum EditorTab {
     Cell,
     Channels,
     Protocol,
+    Solutions,
 }
 
 /// What the editor shows besides the scenario.
@@ -36,6 +38,7 @@ pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editin
             (EditorTab::Cell, "Cell"),
             (EditorTab::Channels, "Pump & channels"),
             (EditorTab::Protocol, "Protocol"),
+            (EditorTab::Solutions, "Solutions"),
         ] {
             if ui
                 .selectable_label(*tab == t, RichText::new(label).strong())
@@ -52,6 +55,7 @@ pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editin
             EditorTab::Cell => cell_tab(ui, info, ed),
             EditorTab::Channels => channels::show(ui, ed),
             EditorTab::Protocol => protocol::show(ui, info, ed),
+            EditorTab::Solutions => solutions::show(ui, ed),
         });
 }
 
@@ -78,7 +82,7 @@ fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
                 ],
             );
         });
-    ed.others(ui, "cell", Part::Scenario, &[]);
+    ed.others(ui, "scenario", Part::Scenario, &[]);
     ed.others(ui, "cell", Part::Cell, &[]);
     let mut track = ed.scenario.cell.track_concentrations;
     if ui
@@ -191,8 +195,17 @@ fn species_grid(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
                     move |name| Edit::SpeciesName { index: i, name },
                 );
                 ed.number(ui, "species[].charge", &[i], 22.0);
-                ed.number(ui, "species[].inside_mm", &[i], 56.0);
-                ed.number(ui, "species[].outside_mm", &[i], 56.0);
+                for (path, from) in [
+                    ("species[].inside_mm", ed.scenario.inside.clone()),
+                    ("species[].outside_mm", ed.scenario.outside.clone()),
+                ] {
+                    match from {
+                        Some(solution) => solutions::derived_number(ui, ed, path, i, &solution),
+                        None => {
+                            ed.number(ui, path, &[i], 56.0);
+                        }
+                    }
+                }
                 ed.number(ui, "species[].permeability_cm_per_s", &[i], 70.0);
                 let row = report.and_then(|r| r.species.get(i));
                 let rel = row.and_then(|r| r.relative_permeability);

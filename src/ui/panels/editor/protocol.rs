@@ -180,6 +180,16 @@ fn event_card(ui: &mut Ui, i: usize, e: &Event, ed: &mut Editing) {
                             pair(ui, ed, "Exchange τ", "protocol[].lag_ms");
                             ui.end_row();
                         }
+                        Event::BathExchange { solution, .. } => {
+                            ui.label("New bath");
+                            ui.label(RichText::new(solution).strong()).on_hover_text(
+                                "The solution the whole bath is exchanged for (Solutions tab)",
+                            );
+                            pair(ui, ed, "At", "protocol[].at_ms");
+                            ui.end_row();
+                            pair(ui, ed, "Exchange τ", "protocol[].lag_ms");
+                            ui.end_row();
+                        }
                         Event::Agent {
                             until_ms,
                             max_increase,

@@ -1,0 +1,108 @@
+//! `permeant scan FILE --vary replace:OLD:NEW …`: an equimolar replacement in the bath
+//! solution, with each point's junction potential (solutions.md, "Outputs").
+
+use std::path::Path;
+
+use serde::Serialize;
+
+use crate::analysis::sweep::{SweepControl, SweepRange};
+use crate::scenario::Valid;
+use crate::solutions::replace::{Replace, ReplacePoint};
+
+#[derive(Serialize)]
+struct PointJson {
+    value: f64,
+    ghk_mv: Option<f64>,
+    resting_mv: Option<f64>,
+    ljp_mv: Option<f64>,
+}
+
+#[derive(Serialize)]
+struct ScanJson<'a> {
+    vary: &'a str,
+    points: Vec<PointJson>,
+}
+
+/// What `scan` asked for, when `--vary` is a replacement.
+pub struct Request<'a> {
+    pub file: &'a Path,
+    pub vary: &'a str,
+    pub spec: &'a str,
+    pub range: SweepRange,
+    pub csv: Option<&'a Path>,
+    pub json: bool,
+}
+
+pub fn run(s: &Valid, q: Request<'_>) -> anyhow::Result<()> {
+    let in_file = |e: &dyn std::fmt::Display| format!("{}: --vary: {e}", q.file.display());
+    let r = Replace::parse(q.spec, s).map_err(|e| super::bad(in_file(&e)))?;
+    let points = r.scan(s, &q.range, &SweepControl::default()).map_err(|e| {
+        if e.is_bad_input() {
+            super::bad(in_file(&e))
+        } else {
+            anyhow::anyhow!(in_file(&e))
+        }
+    })?;
+    if let Some(path) = q.csv {
+        crate::scenario::write_atomic(path, csv(&points).as_bytes())
+            .map_err(|e| super::bad(format!("cannot write {}: {e}", path.display())))?;
+    }
+    if q.json {
+        let j = ScanJson {
+            vary: q.vary,
+            points: points
+                .iter()
+                .map(|p| PointJson {
+                    value: p.value,
+                    ghk_mv: p.ghk_mv,
+                    resting_mv: p.resting_mv,
+                    ljp_mv: p.ljp_mv,
+                })
+                .collect(),
+        };
+        super::emit(&format!("{}\n", serde_json::to_string(&j)?))
+    } else {
+        super::emit(&table(&s.title, &r, &points))
+    }
+}
+
+fn cell(x: Option<f64>) -> String {
+    x.map(crate::report::csv::number).unwrap_or_default()
+}
+
+fn csv(points: &[ReplacePoint]) -> String {
+    let mut o = String::from("value,ghk_mv,resting_mv,ljp_mv\n");
+    for p in points {
+        o += &format!(
+            "{},{},{},{}\n",
+            crate::report::csv::number(p.value),
+            cell(p.ghk_mv),
+            cell(p.resting_mv),
+            cell(p.ljp_mv)
+        );
+    }
+    o
+}
+
+fn table(title: &str, r: &Replace, points: &[ReplacePoint]) -> String {
+    let mv = |x: Option<f64>| x.map_or("—".to_string(), |v| format!("{v:.2}"));
+    let mut o = super::title_line(title);
+    o += &format!("{} replaced by {} in the bath, equimolar\n\n", r.old, r.new);
+    o += &format!(
+        "{:>12}  {:>10}  {:>12}  {:>10}\n",
+        format!("{} (mM)", r.new),
+        "GHK (mV)",
+        "resting (mV)",
+        "LJP (mV)"
+    );
+    for p in points {
+        o += &format!(
+            "{:>12.4}  {:>10}  {:>12}  {:>10}\n",
+            p.value,
+            mv(p.ghk_mv),
+            mv(p.resting_mv),
+            mv(p.ljp_mv)
+        );
+    }
+    o
+}
