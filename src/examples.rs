@@ -45,12 +45,12 @@ pub const EXAMPLES: &[(&str, &str)] = &[
         include_str!("../scenarios/hypo-osmotic-swelling.ron"),
     ),
     (
-        "potassium-blocker-fraction-blocked.ron",
-        include_str!("../scenarios/potassium-blocker-fraction-blocked.ron"),
-    ),
-    (
         "nmdg-sodium-substitution.ron",
         include_str!("../scenarios/nmdg-sodium-substitution.ron"),
+    ),
+    (
+        "potassium-blocker-fraction-blocked.ron",
+        include_str!("../scenarios/potassium-blocker-fraction-blocked.ron"),
     ),
     (
         "potassium-blocker-washin.ron",
