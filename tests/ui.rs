@@ -398,7 +398,7 @@ fn the_solutions_tab_edits_a_recipe_with_undo_and_the_cell_tab_marks_derived_num
     // The cell tab shows the derived concentration, not editable, with its reason.
     h.get_by_label("Cell").click();
     h.run_steps(2);
-    assert!(h.query_by_label(&format!("{k_before:.4}")).is_some());
+    assert!(h.query_by_label(&format!("{k_before:.2} mM")).is_some());
     h.get_by_label("Solutions").click();
     h.run_steps(2);
     // The junctions of the recording are listed with their offset.

@@ -17,7 +17,7 @@ pub fn derived_number(ui: &mut Ui, ed: &mut Editing, path: &str, species: usize,
         ed.mark_drawn(a);
     }
     let value = address.and_then(|a| a.get(ed.scenario));
-    let text = value.map_or_else(|| "—".to_string(), |v| format!("{v:.4}"));
+    let text = value.map_or_else(|| "—".to_string(), |v| format!("{v:.2} mM"));
     ui.label(RichText::new(text).italics()).on_hover_text(format!(
         "From the solution \"{solution}\" (Solutions tab): change its recipe there{}",
         if ed.scenario.activities {
