@@ -6,7 +6,7 @@ use std::path::PathBuf;
 
 use serde::Serialize;
 
-use super::output::{Output, check_distinct, remove_temporaries_on_interrupt};
+use super::output::{optional_csv, write_csv};
 use serde_json::{Map, Value};
 
 use crate::analysis::family::{FamilyTable, Measure, analyse, run_family};
@@ -56,13 +56,7 @@ struct BoltzmannJson {
 pub fn run(a: Args) -> anyhow::Result<()> {
     let s = super::load(&a.file)?;
     // The CSV target is checked before any run, and written like every command's output.
-    let csv_out = match &a.csv {
-        Some(p) => {
-            check_distinct(&[("scenario", a.file.as_path())], &[("--csv", p.as_path())])?;
-            Some(Output::new(p, "--csv")?)
-        }
-        None => None,
-    };
+    let csv_out = optional_csv(&a.file, a.csv.as_deref())?;
     super::print_warnings(&a.file, &s);
     let file = a.file.display().to_string();
     let (field, values) = match (&a.vary, a.from, a.to, a.step, &s.run.family) {
@@ -103,9 +97,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     let table = analyse(&runs, &kinds, SpikeSettings::default());
     let names: Vec<&str> = measures.iter().map(|m| m.0.as_str()).collect();
     if let Some(out) = &csv_out {
-        remove_temporaries_on_interrupt();
-        out.write_all(csv(&names, &table).as_bytes())
-            .map_err(|e| super::bad(format!("cannot write {}: {e}", out.path().display())))?;
+        write_csv(out, &csv(&names, &table))?;
     }
     let vary = field.to_string();
     if a.json {

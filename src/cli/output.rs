@@ -164,6 +164,24 @@ fn file_identity(_: &std::fs::Metadata) -> Identity {
     Identity::Unknown
 }
 
+/// The optional `--csv` of a command that reads one scenario, checked against it and against
+/// what `Output::new` refuses, before any work is done.
+pub fn optional_csv(scenario: &Path, csv: Option<&Path>) -> anyhow::Result<Option<Output>> {
+    csv.map(|p| {
+        check_distinct(&[("scenario", scenario)], &[("--csv", p)])?;
+        Output::new(p, "--csv")
+    })
+    .transpose()
+}
+
+/// Writes a whole CSV text through `out`, removing its temporary file if the process is
+/// interrupted meanwhile.
+pub fn write_csv(out: &Output, text: &str) -> anyhow::Result<()> {
+    remove_temporaries_on_interrupt();
+    out.write_all(text.as_bytes())
+        .map_err(|e| bad(format!("cannot write {}: {e}", out.path().display())))
+}
+
 /// Refuses (exit 2) any output that is the same file as an input, or as another output. A
 /// character device (`/dev/null`) may take two outputs; nothing is overwritten there.
 pub fn check_distinct(inputs: &[(&str, &Path)], outputs: &[(&str, &Path)]) -> anyhow::Result<()> {

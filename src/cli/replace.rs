@@ -5,6 +5,7 @@ use std::path::Path;
 
 use serde::Serialize;
 
+use super::output::{Output, write_csv};
 use crate::analysis::sweep::{SweepControl, SweepRange};
 use crate::scenario::Valid;
 use crate::solutions::replace::{Replace, ReplacePoint};
@@ -29,7 +30,8 @@ pub struct Request<'a> {
     pub vary: &'a str,
     pub spec: &'a str,
     pub range: SweepRange,
-    pub csv: Option<&'a Path>,
+    /// Checked against the scenario before the scan, as every command's output.
+    pub csv: Option<&'a Output>,
     pub json: bool,
 }
 
@@ -43,9 +45,8 @@ pub fn run(s: &Valid, q: Request<'_>) -> anyhow::Result<()> {
             anyhow::anyhow!(in_file(&e))
         }
     })?;
-    if let Some(path) = q.csv {
-        crate::scenario::write_atomic(path, csv(&points).as_bytes())
-            .map_err(|e| super::bad(format!("cannot write {}: {e}", path.display())))?;
+    if let Some(out) = q.csv {
+        write_csv(out, &csv(&points))?;
     }
     if q.json {
         let j = ScanJson {

@@ -5,7 +5,7 @@ use std::path::PathBuf;
 
 use serde::Serialize;
 
-use super::output::{Output, check_distinct, remove_temporaries_on_interrupt};
+use super::output::{optional_csv, write_csv};
 use super::readable;
 use crate::analysis::sweep::{NernstLine, SweepPoint, SweepRange, Vary, nernst_line, sweep};
 use crate::physics::Undefined;
@@ -70,13 +70,7 @@ struct SweepJson<'a> {
 
 pub fn run(a: Args) -> anyhow::Result<()> {
     let s = super::load(&a.file)?;
-    let csv_out = match &a.csv {
-        Some(p) => {
-            check_distinct(&[("scenario", a.file.as_path())], &[("--csv", p.as_path())])?;
-            Some(Output::new(p, "--csv")?)
-        }
-        None => None,
-    };
+    let csv_out = optional_csv(&a.file, a.csv.as_deref())?;
     super::print_warnings(&a.file, &s);
     if let Some(spec) = a.vary.strip_prefix("replace:") {
         let range = SweepRange {
@@ -92,7 +86,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
                 vary: &a.vary,
                 spec,
                 range,
-                csv: a.csv.as_deref(),
+                csv: csv_out.as_ref(),
                 json: a.json,
             },
         );
@@ -119,9 +113,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
 
     report_undefined(&vary, &points);
     if let Some(out) = &csv_out {
-        remove_temporaries_on_interrupt();
-        out.write_all(csv(&points).as_bytes())
-            .map_err(|e| super::bad(format!("cannot write {}: {e}", out.path().display())))?;
+        write_csv(out, &csv(&points))?;
     }
     if a.json {
         let j = SweepJson {
