@@ -1,5 +1,5 @@
-//! Speed of the analyses against issue 5's targets: a 1000-point steady-state sweep (under
-//! 50 ms) and a fit of 3 free permeability ratios to 20 points (under 100 ms). The sweep is
+//! Speed of the analyses against issue 5's targets: a 1000-point steady-state scan (under
+//! 50 ms) and a fit of 3 free permeability ratios to 20 points (under 100 ms). The scan is
 //! timed on a passive cell and on an excitable one, whose gated channels make every steady
 //! state scan the whole voltage range. Also the drawing path of five kept traces of 200,000
 //! samples each while panning (under 16 ms a frame).
@@ -10,7 +10,7 @@ use criterion::{Criterion, criterion_group, criterion_main};
 use permeant::analysis::decimate::decimate_min_max;
 use permeant::analysis::fit::{DataPoint, FitSpace, fit};
 use permeant::analysis::rest_report;
-use permeant::analysis::sweep::{SweepControl, SweepRange, Vary, apply, sweep};
+use permeant::analysis::scan::{ScanControl, ScanRange, Vary, apply, scan};
 use permeant::scenario::Scenario;
 use permeant::scenario::validate;
 
@@ -38,8 +38,8 @@ fn excitable() -> Scenario {
     s
 }
 
-fn bench_sweep(c: &mut Criterion) {
-    let range = SweepRange {
+fn bench_scan(c: &mut Criterion) {
+    let range = ScanRange {
         from: 1.0,
         to: 150.0,
         points: 1000,
@@ -47,8 +47,8 @@ fn bench_sweep(c: &mut Criterion) {
     };
     let vary = Vary::OutsideMm("K+".into());
     for (name, s) in [("passive", passive()), ("excitable", excitable())] {
-        c.bench_function(&format!("sweep 1000 points, {name} cell"), |b| {
-            b.iter(|| sweep(black_box(&s), &vary, &range, &SweepControl::default()).expect("sweep"))
+        c.bench_function(&format!("scan 1000 points, {name} cell"), |b| {
+            b.iter(|| scan(black_box(&s), &vary, &range, &ScanControl::default()).expect("scan"))
         });
     }
 }
@@ -56,7 +56,7 @@ fn bench_sweep(c: &mut Criterion) {
 fn bench_fit(c: &mut Criterion) {
     let truth = passive();
     let vary = Vary::OutsideMm("K+".into());
-    let values = SweepRange {
+    let values = ScanRange {
         from: 1.0,
         to: 150.0,
         points: 20,
@@ -175,5 +175,5 @@ fn bench_kept_traces_drawn(
     );
 }
 
-criterion_group!(benches, bench_sweep, bench_fit, bench_kept_traces);
+criterion_group!(benches, bench_scan, bench_fit, bench_kept_traces);
 criterion_main!(benches);

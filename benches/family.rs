@@ -7,7 +7,7 @@ use std::hint::black_box;
 use criterion::{Criterion, criterion_group, criterion_main};
 use permeant::analysis::family::{Measure, analyse, run_family};
 use permeant::analysis::metrics::SpikeSettings;
-use permeant::analysis::sweep::SweepControl;
+use permeant::analysis::scan::ScanControl;
 use permeant::engine::SolverSettings;
 use permeant::scenario::{Address, Event, RunMode, Scenario, range_values};
 
@@ -103,7 +103,7 @@ fn bench_family(
                 field,
                 levels,
                 &SolverSettings::default(),
-                &SweepControl::default(),
+                &ScanControl::default(),
             )
             .expect("runs");
             analyse(&runs, measures, SpikeSettings::default())

@@ -6,7 +6,7 @@
 use std::hint::black_box;
 
 use criterion::{Criterion, criterion_group, criterion_main};
-use permeant::analysis::sweep::{SweepControl, SweepRange};
+use permeant::analysis::scan::{ScanControl, ScanRange};
 use permeant::scenario::from_str;
 use permeant::solutions::plan;
 use permeant::solutions::replace::Replace;
@@ -69,7 +69,7 @@ fn bench_solutions(c: &mut Criterion) {
     );
     let s = from_str(&text, "ten.ron").expect("valid").into_inner();
     let r = Replace::parse("NaCl:NMDG-Cl", &s).expect("replacement");
-    let range = SweepRange {
+    let range = ScanRange {
         from: 0.0,
         to: 140.0,
         points: 1000,
@@ -77,7 +77,7 @@ fn bench_solutions(c: &mut Criterion) {
     };
     c.bench_function("replacement scan, 1000 points", |b| {
         b.iter(|| {
-            r.scan(black_box(&s), &range, &SweepControl::default())
+            r.scan(black_box(&s), &range, &ScanControl::default())
                 .expect("scan")
         })
     });

@@ -1,4 +1,4 @@
-//! Sweeps, fits, trace metrics and dose–response against outside references: the Nernst slope
+//! Scans, fits, trace metrics and dose–response against outside references: the Nernst slope
 //! from CODATA constants, the resting permeability ratio of Hodgkin & Katz 1949, the statistics
 //! of least-squares standard errors, and exact agreement with the single-point resting report.
 //! Each check names its source; "from memory" marks a published value quoted without the paper
@@ -40,8 +40,8 @@ const LINEARITY: f64 = 0.02;
 use permeant::analysis::fit::{DataError, DataPoint, FitError, FitSpace, fit, parse_points};
 use permeant::analysis::metrics::{SpikeSettings, dose_response, first_event_ms, trace_metrics};
 use permeant::analysis::rest_report;
-use permeant::analysis::sweep::{
-    SweepControl, SweepError, SweepPoint, SweepRange, Vary, nernst_line, sweep, sweep_point,
+use permeant::analysis::scan::{
+    ScanControl, ScanError, ScanPoint, ScanRange, Vary, nernst_line, scan, scan_point,
 };
 use permeant::engine::{Run, SolverSettings};
 use permeant::scenario::{Event, Pump, Scenario};
@@ -123,7 +123,7 @@ fn excitable() -> Scenario {
 }
 
 /// `s` with the bath's K+ (the first species) at `k_out_mm`, set here rather than through the
-/// sweep's own `apply`.
+/// scan's own `apply`.
 fn with_bath_k(s: &Scenario, k_out_mm: f64) -> Scenario {
     let mut s = s.clone();
     assert_eq!(s.species[0].name, "K+", "test setup: K+ comes first");
@@ -167,7 +167,7 @@ fn program_bath_k_series(s: &Scenario, values: &[f64]) -> Vec<DataPoint> {
 }
 
 fn log_values(from: f64, to: f64, n: usize) -> Vec<f64> {
-    SweepRange {
+    ScanRange {
         from,
         to,
         points: n,
@@ -182,23 +182,23 @@ fn names(v: &[&str]) -> Vec<String> {
 }
 
 // ---------------------------------------------------------------------------------------------
-// Sweeps
+// Scans
 
 #[test]
-fn bath_potassium_sweep_follows_the_ghk_equation_towards_the_nernst_slope() {
+fn bath_potassium_scan_follows_the_ghk_equation_towards_the_nernst_slope() {
     // CODATA 2018 constants give ln(10)·RT/F = 61.54 mV per decade at 37 °C.
     let nernst = reference::nernst_slope_mv_per_decade(1, 37.0);
     assert!((nernst - 61.54).abs() < 0.005, "{nernst}");
     // A potassium-dominated cell (P_Na/P_K = 0.01, chloride impermeant).
     let s = passive(37.0, 0.01, 0.0);
     let vary = Vary::parse("outside_mm:K+", &s).expect("parses");
-    let range = SweepRange {
+    let range = ScanRange {
         from: 1.0,
         to: 150.0,
         points: 41,
         log: true,
     };
-    let pts = sweep(&s, &vary, &range, &SweepControl::default()).expect("sweep");
+    let pts = scan(&s, &vary, &range, &ScanControl::default()).expect("scan");
     // Every point is the GHK voltage equation at its bath K+ (Goldman 1943; Hodgkin & Katz 1949).
     for p in &pts {
         let want = ghk_voltage_mv(&ions(&with_bath_k(&s, p.value)), 37.0);
@@ -211,7 +211,7 @@ fn bath_potassium_sweep_follows_the_ghk_equation_towards_the_nernst_slope() {
             );
         }
     }
-    let slope = |a: &SweepPoint, b: &SweepPoint| {
+    let slope = |a: &ScanPoint, b: &ScanPoint| {
         (b.resting_mv.expect("defined") - a.resting_mv.expect("defined")) / (b.value / a.value).log10()
     };
     // Near 150 mM the sodium term is 1.45/151 of the potassium term, so the slope is within
@@ -229,7 +229,7 @@ fn bath_potassium_sweep_follows_the_ghk_equation_towards_the_nernst_slope() {
     assert!(slopes.windows(2).all(|w| w[1] > w[0]), "slopes {slopes:?}");
     // The reference line is the Nernst potential itself, with the CODATA slope.
     let values: Vec<f64> = pts.iter().map(|p| p.value).collect();
-    let line = nernst_line(&s, &vary, &values).expect("a concentration sweep has a line");
+    let line = nernst_line(&s, &vary, &values).expect("a concentration scan has a line");
     assert_eq!(line.species, "K+");
     assert!((line.slope_mv_per_decade - nernst).abs() < RELATIVE * nernst);
     for (x, e) in values.iter().zip(&line.e_mv) {
@@ -249,7 +249,7 @@ fn bath_potassium_sweep_follows_the_ghk_equation_towards_the_nernst_slope() {
 }
 
 #[test]
-fn sweep_points_equal_single_rest_reports() {
+fn scan_points_equal_single_rest_reports() {
     let s = excitable();
     let cases = [
         ("temperature_c", 0.0, 30.0, false),
@@ -276,7 +276,7 @@ fn sweep_points_equal_single_rest_reports() {
                 else {
                     panic!("test setup: the agent comes first");
                 };
-                // In force from t = 0 to the end (see `sweep::apply`).
+                // In force from t = 0 to the end (see `scan::apply`).
                 (*dose_um, *from_ms, *until_ms) = (x, 0.0, None);
             }
         }
@@ -289,18 +289,18 @@ fn sweep_points_equal_single_rest_reports() {
             what,
             "Display gives the command-line spelling back"
         );
-        let pts = sweep(
+        let pts = scan(
             &s,
             &vary,
-            &SweepRange {
+            &ScanRange {
                 from,
                 to,
                 points: 7,
                 log,
             },
-            &SweepControl::default(),
+            &ScanControl::default(),
         )
-        .expect("sweep");
+        .expect("scan");
         assert_eq!(pts.len(), 7);
         assert_eq!((pts[0].value, pts[6].value), (from, to), "ends are exact");
         for p in &pts {
@@ -317,11 +317,11 @@ fn sweep_points_equal_single_rest_reports() {
     // A dose puts the agent in force from t = 0, so the steady state includes its block: the
     // sodium blocker hyperpolarizes this cell a little, more at the larger dose.
     let vary = Vary::DoseUm("sodium blocker".into());
-    let lo = sweep_point(&s, &vary, 0.01)
+    let lo = scan_point(&s, &vary, 0.01)
         .expect("point")
         .resting_mv
         .expect("defined");
-    let hi = sweep_point(&s, &vary, 100.0)
+    let hi = scan_point(&s, &vary, 100.0)
         .expect("point")
         .resting_mv
         .expect("defined");
@@ -329,23 +329,23 @@ fn sweep_points_equal_single_rest_reports() {
 }
 
 #[test]
-fn multi_core_sweep_equals_single_core() {
+fn multi_core_scan_equals_single_core() {
     let s = excitable();
     let vary = Vary::OutsideMm("K+".into());
-    let range = SweepRange {
+    let range = ScanRange {
         from: 1.0,
         to: 100.0,
         points: 64,
         log: true,
     };
-    let many = sweep(&s, &vary, &range, &SweepControl::default()).expect("sweep");
+    let many = scan(&s, &vary, &range, &ScanControl::default()).expect("scan");
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(1)
         .build()
         .expect("pool");
     let one = pool
-        .install(|| sweep(&s, &vary, &range, &SweepControl::default()))
-        .expect("sweep");
+        .install(|| scan(&s, &vary, &range, &ScanControl::default()))
+        .expect("scan");
     assert_eq!(many, one);
 }
 
@@ -353,31 +353,31 @@ fn multi_core_sweep_equals_single_core() {
 fn progress_counts_points_and_cancel_stops() {
     let s = passive(37.0, 0.05, 0.2);
     let vary = Vary::TemperatureC;
-    let range = SweepRange {
+    let range = ScanRange {
         from: 5.0,
         to: 40.0,
         points: 30,
         log: false,
     };
     let progress = Arc::new(AtomicUsize::new(0));
-    let control = SweepControl {
+    let control = ScanControl {
         progress: Some(progress.clone()),
         cancel: None,
     };
-    let pts = sweep(&s, &vary, &range, &control).expect("sweep");
+    let pts = scan(&s, &vary, &range, &control).expect("scan");
     assert_eq!(progress.load(Ordering::Relaxed), 30);
     // Linear values: an index times the step from the start, never a running sum.
     assert_eq!(pts[10].value, 5.0 + 35.0 * (10.0 / 29.0));
     let cancel = Arc::new(AtomicBool::new(true));
-    let control = SweepControl {
+    let control = ScanControl {
         progress: None,
         cancel: Some(cancel),
     };
-    assert_eq!(sweep(&s, &vary, &range, &control), Err(SweepError::Cancelled));
+    assert_eq!(scan(&s, &vary, &range, &control), Err(ScanError::Cancelled));
 }
 
 #[test]
-fn sweep_requests_are_checked_with_plain_messages() {
+fn scan_requests_are_checked_with_plain_messages() {
     let s = excitable();
     let e = Vary::parse("outside_mm:Ca2+", &s)
         .expect_err("no such species")
@@ -400,12 +400,12 @@ fn sweep_requests_are_checked_with_plain_messages() {
         "{e}"
     );
     let vary = Vary::TemperatureC;
-    let control = SweepControl::default();
+    let control = ScanControl::default();
     let go = |from: f64, to: f64, points: usize, log: bool| {
-        sweep(
+        scan(
             &s,
             &vary,
-            &SweepRange {
+            &ScanRange {
                 from,
                 to,
                 points,
@@ -422,10 +422,10 @@ fn sweep_requests_are_checked_with_plain_messages() {
     assert!(go(0.0, 30.0, 5, true).contains("log range"));
     let e = go(5.0, 70.0, 5, false);
     assert!(e.contains("temperature_c = 70") && e.contains("−5 to 60"), "{e}");
-    let e = sweep(
+    let e = scan(
         &s,
         &Vary::OutsideMm("K+".into()),
-        &SweepRange {
+        &ScanRange {
             from: -1.0,
             to: 5.0,
             points: 3,
@@ -437,10 +437,10 @@ fn sweep_requests_are_checked_with_plain_messages() {
     .to_string();
     assert!(e.contains("species[0].outside_mm"), "{e}");
     // A single point is the start value.
-    let one = sweep(
+    let one = scan(
         &s,
         &vary,
-        &SweepRange {
+        &ScanRange {
             from: 20.0,
             to: 30.0,
             points: 1,
@@ -448,7 +448,7 @@ fn sweep_requests_are_checked_with_plain_messages() {
         },
         &control,
     )
-    .expect("sweep");
+    .expect("scan");
     assert_eq!(one.len(), 1);
     assert_eq!(one[0].value, 20.0);
 }
@@ -456,21 +456,21 @@ fn sweep_requests_are_checked_with_plain_messages() {
 #[test]
 fn undefined_potentials_are_reported_not_nan() {
     // model.md: with K+ the only permeant ion and none of it outside, no ion can carry inward
-    // current, so neither potential exists; the sweep reports why instead of a number.
+    // current, so neither potential exists; the scan reports why instead of a number.
     let s = passive(37.0, 0.0, 0.0);
     let vary = Vary::OutsideMm("K+".into());
-    let pts = sweep(
+    let pts = scan(
         &s,
         &vary,
-        &SweepRange {
+        &ScanRange {
             from: 0.0,
             to: 5.0,
             points: 2,
             log: false,
         },
-        &SweepControl::default(),
+        &ScanControl::default(),
     )
-    .expect("sweep");
+    .expect("scan");
     assert_eq!((pts[0].ghk_mv, pts[0].resting_mv), (None, None));
     assert!(pts[0].ghk_undefined.is_some() && pts[0].resting_undefined.is_some());
     assert!(pts[1].resting_mv.is_some_and(f64::is_finite));
@@ -907,7 +907,7 @@ fn sodium_blocker_dose_response_silences_an_excitable_cell() {
     assert!(lat > 0.0 && lat < 5.0, "latency {lat}");
 
     let progress = Arc::new(AtomicUsize::new(0));
-    let ctl = SweepControl {
+    let ctl = ScanControl {
         progress: Some(progress.clone()),
         cancel: None,
     };
@@ -962,7 +962,7 @@ fn an_openers_dose_response_follows_ghk_with_the_opened_permeability() {
         washout_ms: 0.0,
     }];
     let dr =
-        dose_response(&s, "K opener", 0.01, 100.0, 5, None, &SweepControl::default()).expect("dose-response");
+        dose_response(&s, "K opener", 0.01, 100.0, 5, None, &ScanControl::default()).expect("dose-response");
     let mut previous = f64::INFINITY;
     for p in &dr.points {
         let mut ions = ions(&s);
@@ -979,16 +979,16 @@ fn an_openers_dose_response_follows_ghk_with_the_opened_permeability() {
         previous = got;
     }
     // The scan of the dose (what the window's scan tab runs) gives the same potentials.
-    let scanned = sweep(
+    let scanned = scan(
         &s,
         &Vary::DoseUm("K opener".into()),
-        &SweepRange {
+        &ScanRange {
             from: 0.01,
             to: 100.0,
             points: 5,
             log: true,
         },
-        &SweepControl::default(),
+        &ScanControl::default(),
     )
     .expect("scan");
     for (a, b) in scanned.iter().zip(&dr.points) {

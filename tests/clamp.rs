@@ -7,7 +7,7 @@
 
 use permeant::analysis::family::{FamilyRuns, Measure, analyse, fit_boltzmann, fraction_blocked, run_family};
 use permeant::analysis::metrics::SpikeSettings;
-use permeant::analysis::sweep::SweepControl;
+use permeant::analysis::scan::ScanControl;
 use permeant::engine::{Run, SolverSettings};
 use permeant::scenario::{
     Address, Event, Problem, RunMode, Scenario, from_str, problems, range_values, to_ron_string,
@@ -63,7 +63,7 @@ fn family(s: &Scenario, path: &str, values: &[f64]) -> FamilyRuns {
         field,
         values,
         &SolverSettings::default(),
-        &SweepControl::default(),
+        &ScanControl::default(),
     )
     .unwrap_or_else(|e| panic!("{e}"))
 }
@@ -676,7 +676,7 @@ fn families_of_no_runs_or_too_many_are_refused() {
         field,
         &many,
         &SolverSettings::default(),
-        &SweepControl::default(),
+        &ScanControl::default(),
     )
     .expect_err("refused");
     assert!(e.is_bad_input() && e.to_string().contains("10000"), "{e}");
@@ -685,7 +685,7 @@ fn families_of_no_runs_or_too_many_are_refused() {
         field,
         &[],
         &SolverSettings::default(),
-        &SweepControl::default(),
+        &ScanControl::default(),
     )
     .expect_err("refused");
     assert!(e.is_bad_input(), "{e}");
@@ -700,7 +700,7 @@ fn a_family_value_that_breaks_the_scenario_is_named() {
         field,
         &[0.1, 2.0],
         &SolverSettings::default(),
-        &SweepControl::default(),
+        &ScanControl::default(),
     )
     .expect_err("refused");
     let text = e.to_string();

@@ -14,7 +14,7 @@ use common::reference::{Ion, fraction_blocked, ghk_voltage_mv};
 /// that blocks potassium.
 const CELL: &str = r#"(
     format: 1,
-    title: "Test cell for sweeps and fits",
+    title: "Test cell for scans and fits",
     temperature_c: 22.0,
     species: [
         (name: "K+",  charge: 1,  inside_mm: 150.0, outside_mm: 4.0,   permeability_cm_per_s: 1.0e-6),
@@ -63,7 +63,7 @@ fn setup() -> Sandbox {
 type Span<'a> = (&'a str, &'a str, &'a str);
 
 /// `permeant scan FILE --vary WHAT --from A --to B --points N`, then any further arguments.
-fn sweep(
+fn scan(
     sb: &Sandbox,
     file: &str,
     vary: &str,
@@ -107,9 +107,9 @@ fn the_old_name_sweep_still_scans_but_is_not_listed() {
 }
 
 #[test]
-fn sweep_json_has_the_documented_shape_and_matches_rest() {
+fn scan_json_has_the_documented_shape_and_matches_rest() {
     let sb = setup();
-    let o = sweep(
+    let o = scan(
         &sb,
         "cell.ron",
         "outside_mm:K+",
@@ -148,9 +148,9 @@ fn sweep_json_has_the_documented_shape_and_matches_rest() {
 }
 
 #[test]
-fn sweep_csv_and_table() {
+fn scan_csv_and_table() {
     let sb = setup();
-    let o = sweep(
+    let o = scan(
         &sb,
         "cell.ron",
         "dose_um:k blocker",
@@ -188,7 +188,7 @@ fn sweep_csv_and_table() {
         "only_k.ron",
         CELL.replace("4.0e-8", "0.0").replace("4.5e-7", "0.0"),
     );
-    let o = sweep(
+    let o = scan(
         &sb,
         "only_k.ron",
         "outside_mm:K+",
@@ -206,7 +206,7 @@ fn sweep_csv_and_table() {
     assert!(stdout(&o).contains("—"), "{}", stdout(&o));
 
     // A range whose end leaves no permeant species is refused before any point is computed.
-    let o = sweep(
+    let o = scan(
         &sb,
         "only_k.ron",
         "permeability:K+",
@@ -219,7 +219,7 @@ fn sweep_csv_and_table() {
 }
 
 #[test]
-fn sweep_bad_input_exits_2_naming_the_problem() {
+fn scan_bad_input_exits_2_naming_the_problem() {
     let sb = setup();
     let cases: [(&str, Span, &[&str], &[&str]); 5] = [
         (
@@ -244,14 +244,14 @@ fn sweep_bad_input_exits_2_naming_the_problem() {
         ("temperature_c", ("10", "80", "3"), &[], &["temperature_c = 80"]),
     ];
     for (vary, range, more, needles) in cases {
-        let o = sweep(&sb, "cell.ron", vary, range, more);
+        let o = scan(&sb, "cell.ron", vary, range, more);
         assert_eq!(o.status.code(), Some(2), "{vary}: {}", stderr(&o));
         assert!(o.stdout.is_empty());
         for n in needles {
             assert!(stderr(&o).contains(n), "{vary}: {} lacks {n}", stderr(&o));
         }
     }
-    let o = sweep(&sb, "missing.ron", "temperature_c", ("1", "2", "3"), &[]);
+    let o = scan(&sb, "missing.ron", "temperature_c", ("1", "2", "3"), &[]);
     assert_eq!(o.status.code(), Some(2));
 }
 

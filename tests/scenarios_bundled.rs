@@ -10,7 +10,7 @@ use common::valid;
 use permeant::analysis::family::{FamilyTable, Measure, analyse, run_family};
 use permeant::analysis::metrics::SpikeSettings;
 use permeant::analysis::rest_report;
-use permeant::analysis::sweep::SweepControl;
+use permeant::analysis::scan::ScanControl;
 use permeant::engine::{Run, SolverSettings};
 use permeant::scenario::{Event, RunMode, Scenario, Start, Valid, read_file};
 
@@ -385,7 +385,7 @@ fn file_family(name: &str, measures: &[Measure]) -> FamilyTable {
         family.field(),
         &values,
         &SolverSettings::default(),
-        &SweepControl::default(),
+        &ScanControl::default(),
     )
     .unwrap_or_else(|e| panic!("{name}: {e}"));
     analyse(&runs, measures, SpikeSettings::default())

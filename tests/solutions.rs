@@ -6,7 +6,7 @@
 //! rules with their field paths, and the round trip. The recipes are invented for these tests.
 
 use permeant::analysis::rest_report;
-use permeant::analysis::sweep::{SweepControl, SweepRange, Vary, sweep};
+use permeant::analysis::scan::{ScanControl, ScanRange, Vary, scan};
 use permeant::constants::rt_over_f_mv;
 use permeant::engine::{Budget, Run, SolverSettings};
 use permeant::scenario::{Scenario, ScenarioError, Solution, from_str, to_ron};
@@ -263,7 +263,7 @@ fn solutions_give_exactly_the_results_of_the_same_numbers_typed_in() {
     // The exchange did something: the potential moved.
     assert!((a[a.len() - 1] - a[0]).abs() > 1.0);
     // Scans.
-    let range = SweepRange {
+    let range = ScanRange {
         from: 1e-8,
         to: 5e-7,
         points: 5,
@@ -271,8 +271,8 @@ fn solutions_give_exactly_the_results_of_the_same_numbers_typed_in() {
     };
     let vary = Vary::Permeability("Cl-".into());
     let (ps, pt) = (
-        sweep(&s, &vary, &range, &SweepControl::default()).unwrap_or_else(|e| panic!("{e}")),
-        sweep(&t, &vary, &range, &SweepControl::default()).unwrap_or_else(|e| panic!("{e}")),
+        scan(&s, &vary, &range, &ScanControl::default()).unwrap_or_else(|e| panic!("{e}")),
+        scan(&t, &vary, &range, &ScanControl::default()).unwrap_or_else(|e| panic!("{e}")),
     );
     for (x, y) in ps.iter().zip(&pt) {
         assert!(close(
@@ -353,14 +353,14 @@ fn a_bare_silver_wire_follows_the_bath_chloride_as_a_chloride_electrode_does() {
 fn a_replacement_scan_moves_the_junction_from_one_end_to_the_other() {
     let s = read(WITH_SOLUTIONS).unwrap_or_else(|e| panic!("{e}"));
     let r = Replace::parse("NaCl:NMDG-Cl", &s).unwrap_or_else(|e| panic!("{e}"));
-    let range = SweepRange {
+    let range = ScanRange {
         from: 0.0,
         to: 140.0,
         points: 3,
         log: false,
     };
     let points = r
-        .scan(&s, &range, &SweepControl::default())
+        .scan(&s, &range, &ScanControl::default())
         .unwrap_or_else(|e| panic!("{e}"));
     let p = permeant::solutions::plan(&s);
     let start = p.junction(&s, "pipette", "bath").map(|j| j.ljp_mv);
@@ -717,7 +717,7 @@ fn scan_replaces_in_the_bath_and_fit_corrects_for_the_junction() {
 #[test]
 fn correcting_for_the_junction_gives_back_the_ratio_a_membrane_potential_series_was_made_with() {
     use permeant::analysis::fit::{DataPoint, FitSpace, fit};
-    use permeant::analysis::sweep::apply;
+    use permeant::analysis::scan::apply;
     // Recorded potentials of a temperature series: the membrane's GHK potential plus the
     // offset in force (recorded = V + offset). Correcting them must give the cell's own ratio.
     let mut s = read(WITH_SOLUTIONS).unwrap_or_else(|e| panic!("{e}"));

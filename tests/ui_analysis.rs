@@ -1,5 +1,5 @@
 //! The analysis window, driven through egui_kittest on the real app: keeping a trace and its
-//! metrics, a sweep computed in the background against the library's own sweep, a fit that
+//! metrics, a scan computed in the background against the library's own scan, a fit that
 //! recovers the ratios its points were made from, and a data file with a bad row.
 
 use std::time::{Duration, Instant};
@@ -9,9 +9,9 @@ use egui_kittest::kittest::{NodeT, Queryable};
 mod common;
 use common::reference::{ghk_voltage_mv, nernst_slope_mv_per_decade};
 use permeant::analysis::fit::FitSpace;
-use permeant::analysis::sweep::{SweepControl, SweepRange, Vary, sweep};
+use permeant::analysis::scan::{ScanControl, ScanRange, Vary, scan};
 use permeant::scenario::Scenario;
-use permeant::ui::analysis::{AnalysisCommand, AnalysisTab, SweepForm};
+use permeant::ui::analysis::{AnalysisCommand, AnalysisTab, ScanForm};
 use permeant::ui::prefs::Speed;
 use permeant::ui::{App, AppOptions, Command};
 
@@ -86,31 +86,31 @@ fn keep_trace_adds_a_kept_trace_whose_final_potential_is_in_the_table() {
 }
 
 #[test]
-fn a_bath_potassium_sweep_in_the_window_equals_the_library_sweep() {
+fn a_bath_potassium_scan_in_the_window_equals_the_library_scan() {
     let mut h = harness();
     h.run_steps(2);
     let vary = Vary::OutsideMm("K+".into());
-    let range = SweepRange {
+    let range = ScanRange {
         from: 1.0,
         to: 100.0,
         points: 30,
         log: true,
     };
-    h.state_mut().analysis_mut().sweep_form = Some(SweepForm {
+    h.state_mut().analysis_mut().scan_form = Some(ScanForm {
         vary: vary.clone(),
         range,
     });
-    open_tab(&mut h, AnalysisTab::Sweep);
-    h.get_by_label("Compute sweep").click();
+    open_tab(&mut h, AnalysisTab::Scan);
+    h.get_by_label("Compute scan").click();
     wait_for_job(&mut h);
     let s = h.state().scenario().clone();
-    let expected = sweep(&s, &vary, &range, &SweepControl::default()).expect("library sweep");
-    let out = match &h.state().analysis().sweep {
+    let expected = scan(&s, &vary, &range, &ScanControl::default()).expect("library scan");
+    let out = match &h.state().analysis().scan {
         Some(Ok(out)) => out.clone(),
-        other => panic!("no sweep result: {other:?}"),
+        other => panic!("no scan result: {other:?}"),
     };
     assert_eq!(out.points, expected);
-    // A concentration sweep of one species carries its Nernst line: ln(10)·RT/F per decade,
+    // A concentration scan of one species carries its Nernst line: ln(10)·RT/F per decade,
     // 61.54 mV at 37 °C (CODATA 2018 constants).
     let nernst = out.nernst.expect("a Nernst line for outside K+");
     assert_eq!(nernst.species, "K+");

@@ -14,7 +14,7 @@ use nalgebra::{DMatrix, DVector, Dyn};
 use rayon::prelude::*;
 
 use super::metrics::{SpikeSettings, spike_times_ms};
-use super::sweep::SweepControl;
+use super::scan::ScanControl;
 use crate::engine::{Budget, EngineError, Progress, Run, SolverSettings};
 use crate::scenario::{Address, FamilyError, Invalid, Scenario, member, validate};
 
@@ -101,7 +101,7 @@ pub fn run_family(
     field: Address,
     values: &[f64],
     settings: &SolverSettings,
-    control: &SweepControl,
+    control: &ScanControl,
 ) -> Result<FamilyRuns, FamilyRunError> {
     if values.is_empty() {
         return Err(FamilyError::Empty.into());

@@ -11,7 +11,7 @@ use nalgebra::storage::Owned;
 use nalgebra::{DMatrix, DVector, Dyn, SymmetricEigen};
 use rayon::prelude::*;
 
-use super::sweep::{SweepError, Vary, apply, check_value};
+use super::scan::{ScanError, Vary, apply, check_value};
 use crate::engine::Model;
 use crate::physics::{Undefined, ghk_current_ua_per_cm2};
 use crate::scenario::{Scenario, Valid};
@@ -200,7 +200,7 @@ pub enum FitError {
     #[error(transparent)]
     Data(#[from] DataError),
     #[error(transparent)]
-    Vary(#[from] SweepError),
+    Vary(#[from] ScanError),
     #[error("no species is free: name at least one species whose permeability the fit may change")]
     NothingFree,
     #[error("no species is named \"{name}\"; the species are {choices}")]
@@ -223,7 +223,7 @@ pub enum FitError {
     )]
     TooFewPoints { points: usize, free: usize },
     #[error("row {row}: {source}")]
-    InvalidPoint { row: usize, source: SweepError },
+    InvalidPoint { row: usize, source: ScanError },
     #[error(
         "the data cannot determine the permeability of \"{name}\": its concentration is 0 on both sides at every data point"
     )]
@@ -298,7 +298,7 @@ pub struct FitResult {
 }
 
 impl FitResult {
-    /// `s` with the fitted permeabilities written in, e.g. to draw the fitted curve by a sweep.
+    /// `s` with the fitted permeabilities written in, e.g. to draw the fitted curve by a scan.
     pub fn apply_to(&self, s: &Scenario) -> Scenario {
         let mut out = s.clone();
         for r in &self.ratios {
@@ -337,15 +337,15 @@ impl Setup<'_> {
     }
 
     /// The scenario of one data point under trial parameters.
-    fn point_scenario(&self, value: f64, theta: &DVector<f64>) -> Result<Valid, SweepError> {
+    fn point_scenario(&self, value: f64, theta: &DVector<f64>) -> Result<Valid, ScanError> {
         let mut s = apply(self.base, self.vary, value)?;
-        // After `apply`, so that a sweep of the reference's own permeability carries the
+        // After `apply`, so that a scan of the reference's own permeability carries the
         // free species along at their ratios.
         let p_ref = s.species[0].permeability_cm_per_s;
         for (&i, &t) in self.free.iter().zip(theta.iter()) {
             s.species[i].permeability_cm_per_s = self.ratio(t) * p_ref;
         }
-        crate::scenario::validate(s).map_err(|problem| SweepError::InvalidAt {
+        crate::scenario::validate(s).map_err(|problem| ScanError::InvalidAt {
             vary: self.vary.clone(),
             value,
             problem,

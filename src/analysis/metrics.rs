@@ -6,7 +6,7 @@ use std::fmt::Write as _;
 
 use rayon::prelude::*;
 
-use super::sweep::{SweepControl, SweepError, SweepRange, Vary, check_value, sweep};
+use super::scan::{ScanControl, ScanError, ScanRange, Vary, check_value, scan};
 use crate::engine::{EngineError, Run, SolverSettings};
 use crate::scenario::Scenario;
 
@@ -313,14 +313,14 @@ pub struct DoseResponse {
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum DoseResponseError {
     #[error(transparent)]
-    Sweep(#[from] SweepError),
+    Scan(#[from] ScanError),
     #[error("at dose {dose_um} µM the run failed: {source}")]
     Run { dose_um: f64, source: EngineError },
 }
 
 /// The steady-state potential across a log range of doses of the agent `label` (on the current
 /// rayon pool) and, with `count_spikes`, the spike count of a full run at each dose. Each dose
-/// is in force from t = 0 to the end (see [`super::sweep::apply`]). Progress counts steady states first,
+/// is in force from t = 0 to the end (see [`super::scan::apply`]). Progress counts steady states first,
 /// then runs.
 pub fn dose_response(
     s: &Scenario,
@@ -329,23 +329,23 @@ pub fn dose_response(
     to_um: f64,
     points: usize,
     count_spikes: Option<SpikeSettings>,
-    control: &SweepControl,
+    control: &ScanControl,
 ) -> Result<DoseResponse, DoseResponseError> {
     let vary = Vary::DoseUm(label.to_string());
-    let range = SweepRange {
+    let range = ScanRange {
         from: from_um,
         to: to_um,
         points,
         log: true,
     };
-    let steady = sweep(s, &vary, &range, control)?;
+    let steady = scan(s, &vary, &range, control)?;
     let spikes: Vec<Option<usize>> = match count_spikes {
         None => vec![None; steady.len()],
         Some(settings) => steady
             .par_iter()
             .map(|p| {
                 if control.is_cancelled() {
-                    return Err(DoseResponseError::Sweep(SweepError::Cancelled));
+                    return Err(DoseResponseError::Scan(ScanError::Cancelled));
                 }
                 let sc = check_value(s, &vary, p.value)?;
                 let run_err = |source| DoseResponseError::Run {

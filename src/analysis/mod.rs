@@ -1,4 +1,4 @@
-//! Analyses built on the physics and the engine: the resting report, sweeps, fits and run
+//! Analyses built on the physics and the engine: the resting report, scans, fits and run
 //! metrics. Every front end (window, command line) computes through these.
 
 pub mod decimate;
@@ -6,6 +6,6 @@ pub mod family;
 pub mod fit;
 pub mod metrics;
 pub mod rest;
-pub mod sweep;
+pub mod scan;
 
 pub use rest::{RestReport, SpeciesRow, rest_report};

@@ -7,7 +7,7 @@ use serde::Serialize;
 use serde::ser::{SerializeMap, Serializer};
 
 use crate::analysis::fit::{FitError, FitResult, FitSpace, Residual, fit, read_points};
-use crate::analysis::sweep::Vary;
+use crate::analysis::scan::Vary;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {

@@ -8,8 +8,8 @@ mod output;
 mod replace;
 mod rest;
 mod run;
+mod scan;
 mod solutions;
-mod sweep;
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -55,7 +55,7 @@ enum Command {
     // still accepted, unlisted, for one release.
     /// Vary one input over a range: the GHK and the steady-state potential at each value.
     #[command(alias = "sweep")]
-    Scan(sweep::Args),
+    Scan(scan::Args),
     /// Fit permeability ratios (relative to the first species) to measured potentials.
     Fit(fit::Args),
     /// One run per value of one number (by its field path), in parallel, each measured.
@@ -88,7 +88,7 @@ pub fn main() -> ExitCode {
         Some(Command::Rest(a)) => rest::run(a),
         Some(Command::Run(a)) => run::run(a),
         Some(Command::Check(a)) => check::run(a),
-        Some(Command::Scan(a)) => sweep::run(a),
+        Some(Command::Scan(a)) => scan::run(a),
         Some(Command::Fit(a)) => fit::run(a),
         Some(Command::Family(a)) => family::run(a),
         Some(Command::Solutions(a)) => solutions::run(a),
@@ -207,13 +207,13 @@ pub fn name_width<'a>(names: impl Iterator<Item = &'a str>) -> usize {
 pub fn with_progress<T>(
     n: usize,
     items: &str,
-    work: impl FnOnce(&crate::analysis::sweep::SweepControl) -> T,
+    work: impl FnOnce(&crate::analysis::scan::ScanControl) -> T,
 ) -> T {
     use std::io::IsTerminal;
     use std::sync::Arc;
     use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
     let progress = Arc::new(AtomicUsize::new(0));
-    let control = crate::analysis::sweep::SweepControl {
+    let control = crate::analysis::scan::ScanControl {
         progress: Some(progress.clone()),
         cancel: None,
     };

@@ -6,7 +6,7 @@ use std::path::Path;
 use serde::Serialize;
 
 use super::output::{Output, write_csv};
-use crate::analysis::sweep::{SweepControl, SweepRange};
+use crate::analysis::scan::{ScanControl, ScanRange};
 use crate::scenario::Valid;
 use crate::solutions::replace::{Replace, ReplacePoint};
 
@@ -29,7 +29,7 @@ pub struct Request<'a> {
     pub file: &'a Path,
     pub vary: &'a str,
     pub spec: &'a str,
-    pub range: SweepRange,
+    pub range: ScanRange,
     /// Checked against the scenario before the scan, as every command's output.
     pub csv: Option<&'a Output>,
     pub json: bool,
@@ -38,7 +38,7 @@ pub struct Request<'a> {
 pub fn run(s: &Valid, q: Request<'_>) -> anyhow::Result<()> {
     let in_file = |e: &dyn std::fmt::Display| format!("{}: --vary: {e}", q.file.display());
     let r = Replace::parse(q.spec, s).map_err(|e| super::bad(in_file(&e)))?;
-    let points = r.scan(s, &q.range, &SweepControl::default()).map_err(|e| {
+    let points = r.scan(s, &q.range, &ScanControl::default()).map_err(|e| {
         if e.is_bad_input() {
             super::bad(in_file(&e))
         } else {

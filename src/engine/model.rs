@@ -90,7 +90,7 @@ pub struct Model {
     pub recording_offset: Option<crate::solutions::Offsets>,
 }
 
-// The model is shared read-only (a sweep's threads, a window frame and a run at once): keep it so.
+// The model is shared read-only (a scan's threads, a window frame and a run at once): keep it so.
 const _: () = {
     const fn shared_across_threads<T: Sync + Send>() {}
     shared_across_threads::<Model>();

@@ -1,7 +1,7 @@
 //! A bracketed, safeguarded scalar root finder (Brent's method).
 //!
 //! Written here rather than taken from a crate because it sits on the hot path of every steady
-//! state and sweep point (hundreds of thousands of calls per sweep): the callers already hold
+//! state and scan point (hundreds of thousands of calls per scan): the callers already hold
 //! the bracket and both end values, and a general optimisation framework's executor and
 //! bookkeeping would cost more than the dozen function evaluations it needs.
 

@@ -5,7 +5,7 @@
 
 use rayon::prelude::*;
 
-use crate::analysis::sweep::{SweepControl, SweepRange, potentials};
+use crate::analysis::scan::{ScanControl, ScanRange, potentials};
 use crate::scenario::{Invalid, Scenario, validate};
 
 /// A replacement in the bath: OLD by NEW, equimolar.
@@ -42,7 +42,7 @@ pub enum ReplaceError {
         value: f64,
     },
     #[error(transparent)]
-    Range(#[from] crate::analysis::sweep::SweepError),
+    Range(#[from] crate::analysis::scan::ScanError),
     #[error("at {value} mM of {new} the scenario is not valid: {problem}")]
     InvalidAt {
         new: String,
@@ -171,8 +171,8 @@ impl Replace {
     pub fn scan(
         &self,
         s: &Scenario,
-        range: &SweepRange,
-        control: &SweepControl,
+        range: &ScanRange,
+        control: &ScanControl,
     ) -> Result<Vec<ReplacePoint>, ReplaceError> {
         let values = range.values()?;
         for v in [range.from, range.to] {

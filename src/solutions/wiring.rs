@@ -177,7 +177,7 @@ pub fn fill_species(s: &mut Scenario) {
 /// so a fit sees membrane potentials.
 pub fn correct_points(
     s: &Scenario,
-    vary: &crate::analysis::sweep::Vary,
+    vary: &crate::analysis::scan::Vary,
     points: &mut [crate::analysis::fit::DataPoint],
 ) -> Result<(), String> {
     if s.inside.is_none() || s.outside.is_none() {
@@ -186,7 +186,7 @@ pub fn correct_points(
         );
     }
     for p in points {
-        let at = crate::analysis::sweep::apply(s, vary, p.value).map_err(|e| e.to_string())?;
+        let at = crate::analysis::scan::apply(s, vary, p.value).map_err(|e| e.to_string())?;
         let offset = recording_offsets(&at)
             .map(|o| o.start_mv)
             .ok_or_else(|| format!("row {}: no junction potential", p.row))?;

@@ -91,7 +91,7 @@ pub enum Command {
     /// Answer to the offer of the scenario a crashed session left: restore it (`true`) or
     /// discard it.
     Recover(bool),
-    /// Kept traces, sweeps, dose–response and fits (runtime state of the analysis window;
+    /// Kept traces, scans, dose–response and fits (runtime state of the analysis window;
     /// never part of the scenario or of undo).
     Analysis(AnalysisCommand),
     /// Stop the family of runs now being computed (until the next edit).

@@ -12,7 +12,7 @@
 //! (keys and their overlay), `notes_view` (a scenario's notes beside the plots), `export`
 //! (PNG, SVG and CSV) and `restore` (autosave and the offer after a crash).
 //!
-//! Beyond one run: `analysis` (a window with `kept` traces and their metrics, sweeps,
+//! Beyond one run: `analysis` (a window with `kept` traces and their metrics, scans,
 //! dose–response and `fit_view`), computed off the drawing thread.
 
 pub mod analysis;

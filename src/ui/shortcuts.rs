@@ -107,7 +107,7 @@ const BINDINGS: &[Binding] = &[
         action: Action::Analysis,
         keys: &[(CTRL, Key::L)],
         shown: "Ctrl+L",
-        what: "Analysis window: compare, sweep, dose–response, fit",
+        what: "Analysis window: compare, scan, dose–response, fit",
         outside_text: false,
     },
     Binding {

@@ -8,7 +8,7 @@ use egui::{RichText, Ui};
 use egui_plot::{Line, PlotPoints, Points};
 
 use crate::analysis::fit::{DataPoint, FitResult, FitSpace, fit, read_points};
-use crate::analysis::sweep::{SweepControl, SweepPoint, SweepRange, Vary, sweep};
+use crate::analysis::scan::{ScanControl, ScanPoint, ScanRange, Vary, scan};
 use crate::scenario::Scenario;
 use crate::ui::analysis::{AnalysisCommand, plot_x, potential_plot, short, vary_picker};
 use crate::ui::command::Command;
@@ -42,7 +42,7 @@ pub struct FitOutput {
     pub result: FitResult,
     pub vary: Vary,
     pub data: Vec<DataPoint>,
-    pub curve: Vec<SweepPoint>,
+    pub curve: Vec<ScanPoint>,
     pub log: bool,
 }
 
@@ -55,7 +55,7 @@ pub struct FitTask {
 }
 
 impl FitTask {
-    pub fn run(&self, control: &SweepControl) -> Result<FitOutput, String> {
+    pub fn run(&self, control: &ScanControl) -> Result<FitOutput, String> {
         let result = fit(&self.s, &self.vary, &self.free, &self.data, FitSpace::LogRatio)
             .map_err(|e| e.to_string())?;
         let (lo, hi) = self
@@ -66,13 +66,13 @@ impl FitTask {
             });
         // A log axis when the data span a decade or more of a positive input (bath series do).
         let log = lo > 0.0 && hi / lo >= 10.0;
-        let range = SweepRange {
+        let range = ScanRange {
             from: lo,
             to: hi,
             points: if hi > lo { CURVE_POINTS } else { 1 },
             log,
         };
-        let curve = sweep(&result.apply_to(&self.s), &self.vary, &range, control)
+        let curve = scan(&result.apply_to(&self.s), &self.vary, &range, control)
             .map_err(|e| format!("the fit worked, but its curve could not be drawn: {e}"))?;
         Ok(FitOutput {
             result,

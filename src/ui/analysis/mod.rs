@@ -1,6 +1,6 @@
-//! The "Analysis" window: comparing kept traces (`kept`), sweeps of one input, the
-//! dose–response of an agent and permeability-ratio fits (`fit_view`). Sweeps, dose–responses
-//! and fits run on a background thread (rayon inside, through `analysis::sweep`), with a
+//! The "Analysis" window: comparing kept traces (`kept`), scans of one input, the
+//! dose–response of an agent and permeability-ratio fits (`fit_view`). Scans, dose–responses
+//! and fits run on a background thread (rayon inside, through `analysis::scan`), with a
 //! progress bar and Cancel, so the window keeps drawing and the live run keeps running.
 
 pub mod fit;
@@ -16,7 +16,7 @@ use egui::{Color32, RichText, Ui};
 use egui_plot::{HoverPosition, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine};
 
 use crate::analysis::metrics::{DoseResponse, SpikeSettings, dose_response};
-use crate::analysis::sweep::{NernstLine, SweepControl, SweepPoint, SweepRange, Vary, nernst_line, sweep};
+use crate::analysis::scan::{NernstLine, ScanControl, ScanPoint, ScanRange, Vary, nernst_line, scan};
 use crate::scenario::Scenario;
 use crate::ui::command::Command;
 use crate::ui::theme::{neutral_color, potential_color, species_color};
@@ -35,8 +35,8 @@ pub enum AnalysisCommand {
     DeleteKept(usize),
     /// The kept trace the others are compared with, or none.
     SetBaseline(Option<usize>),
-    /// Start the sweep in the sweep form.
-    StartSweep,
+    /// Start the scan in the scan form.
+    StartScan,
     /// Start the dose–response in its form.
     StartDose,
     /// Start the fit of the loaded points.
@@ -54,7 +54,7 @@ pub enum AnalysisCommand {
 pub enum AnalysisTab {
     #[default]
     Compare,
-    Sweep,
+    Scan,
     DoseResponse,
     Fit,
 }
@@ -62,7 +62,7 @@ pub enum AnalysisTab {
 impl AnalysisTab {
     const ALL: [AnalysisTab; 4] = [
         AnalysisTab::Compare,
-        AnalysisTab::Sweep,
+        AnalysisTab::Scan,
         AnalysisTab::DoseResponse,
         AnalysisTab::Fit,
     ];
@@ -70,14 +70,14 @@ impl AnalysisTab {
     fn label(self) -> &'static str {
         match self {
             AnalysisTab::Compare => "Compare",
-            AnalysisTab::Sweep => "Sweep",
+            AnalysisTab::Scan => "Scan",
             AnalysisTab::DoseResponse => "Dose–response",
             AnalysisTab::Fit => "Fit",
         }
     }
 }
 
-/// Every input a sweep or a fit can vary in `s`.
+/// Every input a scan or a fit can vary in `s`.
 pub fn vary_choices(s: &Scenario) -> Vec<Vary> {
     let mut out = vec![Vary::TemperatureC];
     for sp in &s.species {
@@ -91,7 +91,7 @@ pub fn vary_choices(s: &Scenario) -> Vec<Vary> {
 
 /// A sensible range for `vary` around its value in `s`: a decade each way for concentrations,
 /// two for permeabilities and doses, 0–40 °C for temperature.
-pub fn default_range(s: &Scenario, vary: &Vary) -> SweepRange {
+pub fn default_range(s: &Scenario, vary: &Vary) -> ScanRange {
     let v = vary.value_in(s).unwrap_or(0.0);
     let around = |decades: f64, fallback: (f64, f64)| {
         let (from, to) = if v > 0.0 {
@@ -99,7 +99,7 @@ pub fn default_range(s: &Scenario, vary: &Vary) -> SweepRange {
         } else {
             fallback
         };
-        SweepRange {
+        ScanRange {
             from,
             to,
             points: 50,
@@ -107,7 +107,7 @@ pub fn default_range(s: &Scenario, vary: &Vary) -> SweepRange {
         }
     };
     match vary {
-        Vary::TemperatureC => SweepRange {
+        Vary::TemperatureC => ScanRange {
             from: 0.0,
             to: 40.0,
             points: 41,
@@ -150,19 +150,19 @@ pub fn vary_picker(ui: &mut Ui, id: &str, s: &Scenario, vary: &mut Vary) -> bool
     changed
 }
 
-/// The form of a sweep.
+/// The form of a scan.
 #[derive(Debug, Clone, PartialEq)]
-pub struct SweepForm {
+pub struct ScanForm {
     pub vary: Vary,
-    pub range: SweepRange,
+    pub range: ScanRange,
 }
 
-/// A finished sweep.
+/// A finished scan.
 #[derive(Debug, Clone, PartialEq)]
-pub struct SweepOutput {
+pub struct ScanOutput {
     pub vary: Vary,
-    pub range: SweepRange,
-    pub points: Vec<SweepPoint>,
+    pub range: ScanRange,
+    pub points: Vec<ScanPoint>,
     pub nernst: Option<NernstLine>,
     pub elapsed_ms: f64,
 }
@@ -179,7 +179,7 @@ pub struct DoseForm {
 
 /// What a background computation sends back.
 enum Outcome {
-    Sweep(Result<SweepOutput, String>),
+    Scan(Result<ScanOutput, String>),
     Dose(Result<DoseResponse, String>),
     Fit(Result<FitOutput, String>),
 }
@@ -187,7 +187,7 @@ enum Outcome {
 /// What a background computation computes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum JobKind {
-    Sweep,
+    Scan,
     Dose,
     Fit,
 }
@@ -196,7 +196,7 @@ impl JobKind {
     /// Its name in the progress bar and messages.
     fn name(self) -> &'static str {
         match self {
-            JobKind::Sweep => "sweep",
+            JobKind::Scan => "scan",
             JobKind::Dose => "dose–response",
             JobKind::Fit => "fit",
         }
@@ -219,8 +219,8 @@ pub struct Analysis {
     pub open: bool,
     pub tab: AnalysisTab,
     pub kept: Kept,
-    pub sweep_form: Option<SweepForm>,
-    pub sweep: Option<Result<SweepOutput, String>>,
+    pub scan_form: Option<ScanForm>,
+    pub scan: Option<Result<ScanOutput, String>>,
     pub dose_form: Option<DoseForm>,
     pub dose: Option<Result<DoseResponse, String>>,
     pub fit: FitForm,
@@ -235,10 +235,10 @@ impl Analysis {
 
     /// Brings the forms in line with the scenario (a renamed species, a removed agent).
     fn follow(&mut self, s: &Scenario) {
-        let stale = self.sweep_form.as_ref().is_none_or(|f| f.vary.check(s).is_err());
+        let stale = self.scan_form.as_ref().is_none_or(|f| f.vary.check(s).is_err());
         if stale {
             let vary = default_vary(s);
-            self.sweep_form = Some(SweepForm {
+            self.scan_form = Some(ScanForm {
                 range: default_range(s, &vary),
                 vary,
             });
@@ -274,7 +274,7 @@ impl Analysis {
             AnalysisCommand::RenameKept(i, name) => self.kept.rename(i, name),
             AnalysisCommand::DeleteKept(i) => self.kept.delete(i),
             AnalysisCommand::SetBaseline(b) => self.kept.set_baseline(b),
-            AnalysisCommand::StartSweep => self.start_sweep(s, ctx),
+            AnalysisCommand::StartScan => self.start_scan(s, ctx),
             AnalysisCommand::StartDose => self.start_dose(s, ctx),
             AnalysisCommand::StartFit => self.start_fit(s, ctx),
             AnalysisCommand::Cancel => {
@@ -293,14 +293,14 @@ impl Analysis {
         what: JobKind,
         total: usize,
         ctx: &egui::Context,
-        work: impl FnOnce(SweepControl) -> Outcome + Send + 'static,
+        work: impl FnOnce(ScanControl) -> Outcome + Send + 'static,
     ) {
         if self.job.is_some() {
             return;
         }
         let progress = Arc::new(AtomicUsize::new(0));
         let cancel = Arc::new(AtomicBool::new(false));
-        let control = SweepControl {
+        let control = ScanControl {
             progress: Some(progress.clone()),
             cancel: Some(cancel.clone()),
         };
@@ -323,16 +323,16 @@ impl Analysis {
         }
     }
 
-    fn start_sweep(&mut self, s: &Scenario, ctx: &egui::Context) {
-        let Some(form) = self.sweep_form.clone() else {
+    fn start_scan(&mut self, s: &Scenario, ctx: &egui::Context) {
+        let Some(form) = self.scan_form.clone() else {
             return;
         };
         let s = s.clone();
-        self.spawn(JobKind::Sweep, form.range.points, ctx, move |control| {
+        self.spawn(JobKind::Scan, form.range.points, ctx, move |control| {
             let started = Instant::now();
-            let out = sweep(&s, &form.vary, &form.range, &control).map(|points| {
+            let out = scan(&s, &form.vary, &form.range, &control).map(|points| {
                 let values: Vec<f64> = points.iter().map(|p| p.value).collect();
-                SweepOutput {
+                ScanOutput {
                     nernst: nernst_line(&s, &form.vary, &values),
                     vary: form.vary.clone(),
                     range: form.range,
@@ -340,7 +340,7 @@ impl Analysis {
                     elapsed_ms: started.elapsed().as_secs_f64() * 1e3,
                 }
             });
-            Outcome::Sweep(out.map_err(|e| e.to_string()))
+            Outcome::Scan(out.map_err(|e| e.to_string()))
         });
     }
 
@@ -389,7 +389,7 @@ impl Analysis {
                 self.job = None;
                 let lost = format!("the {} stopped without a result", what.name());
                 match what {
-                    JobKind::Sweep => self.sweep = Some(Err(lost)),
+                    JobKind::Scan => self.scan = Some(Err(lost)),
                     JobKind::Fit => self.fit.result = Some(Err(lost)),
                     JobKind::Dose => self.dose = Some(Err(lost)),
                 }
@@ -398,7 +398,7 @@ impl Analysis {
         };
         self.job = None;
         match outcome {
-            Outcome::Sweep(r) => self.sweep = Some(r),
+            Outcome::Scan(r) => self.scan = Some(r),
             Outcome::Dose(r) => self.dose = Some(r),
             Outcome::Fit(r) => self.fit.result = Some(r),
         }
@@ -427,7 +427,7 @@ impl Analysis {
                 self.job_bar(ui, commands);
                 match self.tab {
                     AnalysisTab::Compare => kept::show(ui, &self.kept, can_keep, commands),
-                    AnalysisTab::Sweep => self.sweep_tab(ui, s, commands),
+                    AnalysisTab::Scan => self.scan_tab(ui, s, commands),
                     AnalysisTab::DoseResponse => self.dose_tab(ui, commands),
                     AnalysisTab::Fit => {
                         let busy = self.job.is_some();
@@ -461,37 +461,37 @@ impl Analysis {
         });
     }
 
-    fn sweep_tab(&mut self, ui: &mut Ui, s: &Scenario, commands: &mut Vec<Command>) {
+    fn scan_tab(&mut self, ui: &mut Ui, s: &Scenario, commands: &mut Vec<Command>) {
         let busy = self.job.is_some();
-        let Some(form) = &mut self.sweep_form else {
+        let Some(form) = &mut self.scan_form else {
             return;
         };
         ui.horizontal(|ui| {
-            if vary_picker(ui, "sweep vary", s, &mut form.vary) {
+            if vary_picker(ui, "scan vary", s, &mut form.vary) {
                 form.range = default_range(s, &form.vary);
             }
         });
         range_fields(ui, &mut form.range, form.vary.unit(), true);
         ui.horizontal(|ui| {
             if ui
-                .add_enabled(!busy, egui::Button::new("Compute sweep"))
+                .add_enabled(!busy, egui::Button::new("Compute scan"))
                 .on_hover_text("GHK and steady-state potential at each point, on every core")
                 .clicked()
             {
-                commands.push(Command::Analysis(AnalysisCommand::StartSweep));
+                commands.push(Command::Analysis(AnalysisCommand::StartScan));
             }
-            if let Some(Ok(out)) = &self.sweep {
+            if let Some(Ok(out)) = &self.scan {
                 ui.label(
                     RichText::new(format!("{} points in {:.1} ms", out.points.len(), out.elapsed_ms)).weak(),
                 );
             }
         });
-        match &self.sweep {
+        match &self.scan {
             None => {}
             Some(Err(e)) => {
                 ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
             }
-            Some(Ok(out)) => sweep_plot(ui, out),
+            Some(Ok(out)) => scan_plot(ui, out),
         }
     }
 
@@ -551,7 +551,7 @@ fn log_value(ui: &mut Ui, v: &mut f64, unit: &str) {
     );
 }
 
-fn range_fields(ui: &mut Ui, r: &mut SweepRange, unit: &str, allow_linear: bool) {
+fn range_fields(ui: &mut Ui, r: &mut ScanRange, unit: &str, allow_linear: bool) {
     ui.horizontal(|ui| {
         let u = format!(" {unit}");
         ui.label("From");
@@ -639,11 +639,11 @@ fn line_of(points: impl Iterator<Item = (f64, Option<f64>)>, log: bool) -> Vec<[
         .collect()
 }
 
-fn sweep_plot(ui: &mut Ui, out: &SweepOutput) {
+fn scan_plot(ui: &mut Ui, out: &ScanOutput) {
     let dark = ui.visuals().dark_mode;
     let log = out.range.log;
     let height = ui.available_height().max(160.0);
-    potential_plot("sweep plot", out.vary.label(), log, height).show(ui, |pui| {
+    potential_plot("scan plot", out.vary.label(), log, height).show(ui, |pui| {
         let ghk = line_of(out.points.iter().map(|p| (p.value, p.ghk_mv)), log);
         let rest = line_of(out.points.iter().map(|p| (p.value, p.resting_mv)), log);
         if let Some(n) = &out.nernst {

@@ -115,7 +115,7 @@ pub struct App {
     autosaver: Option<Autosaver>,
     /// What a crashed session left, until the user restores or discards it.
     offer: Option<Offer>,
-    /// Kept traces, sweeps, dose–response and fits: runtime state, never saved or undone.
+    /// Kept traces, scans, dose–response and fits: runtime state, never saved or undone.
     analysis: Analysis,
     /// The family of runs of the scenario's `run.family`, recomputed for each revision.
     family: FamilyState,

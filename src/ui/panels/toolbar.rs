@@ -199,7 +199,7 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
         }
         if ui
             .selectable_label(info.analysis_open, "Analysis")
-            .on_hover_text("Compare kept traces, sweep an input, dose–response, fit ratios (Ctrl+L)")
+            .on_hover_text("Compare kept traces, scan an input, dose–response, fit ratios (Ctrl+L)")
             .clicked()
         {
             ed.commands

@@ -7,7 +7,7 @@ use std::sync::{Arc, Mutex};
 
 use crate::analysis::family::{FamilyRuns, FamilyTable, Measure, analyse, run_family};
 use crate::analysis::metrics::SpikeSettings;
-use crate::analysis::sweep::SweepControl;
+use crate::analysis::scan::ScanControl;
 use crate::engine::SolverSettings;
 use crate::scenario::{Event, Scenario};
 
@@ -116,7 +116,7 @@ impl FamilyState {
             cancel: Arc::new(AtomicBool::new(false)),
             out: Arc::new(Mutex::new(None)),
         };
-        let control = SweepControl {
+        let control = ScanControl {
             progress: Some(job.progress.clone()),
             cancel: Some(job.cancel.clone()),
         };

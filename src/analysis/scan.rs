@@ -1,6 +1,6 @@
-//! Sweeps: vary one input of a scenario over a range and compute, at each point, the passive
-//! GHK potential and the full steady state at t = 0. `permeant sweep` and the window's sweep
-//! panel both compute through [`sweep`]; the points are independent, so they run on every core.
+//! Scans: vary one input of a scenario over a range and compute, at each point, the passive
+//! GHK potential and the full steady state at t = 0. `permeant scan` and the window's scan
+//! panel both compute through [`scan`]; the points are independent, so they run on every core.
 
 use std::fmt;
 use std::sync::Arc;
@@ -12,7 +12,7 @@ use crate::engine::{EngineError, Model};
 use crate::physics::{Undefined, ghk_potential_mv, nernst_mv};
 use crate::scenario::{Event, Invalid, Scenario, Valid};
 
-/// The input a sweep or a fit varies, in the command line's spelling (command-line.md).
+/// The input a scan or a fit varies, in the command line's spelling (command-line.md).
 #[derive(Debug, Clone, PartialEq, Eq, Hash)]
 pub enum Vary {
     /// `temperature_c`
@@ -27,9 +27,9 @@ pub enum Vary {
     DoseUm(String),
 }
 
-/// What is wrong with a sweep request.
+/// What is wrong with a scan request.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub enum SweepError {
+pub enum ScanError {
     #[error(
         "cannot vary \"{0}\": choose temperature_c, outside_mm:NAME, inside_mm:NAME or permeability:NAME (NAME a species), or dose_um:LABEL (LABEL an agent)"
     )]
@@ -69,15 +69,15 @@ pub enum SweepError {
     },
     #[error(transparent)]
     Engine(#[from] EngineError),
-    #[error("the sweep was cancelled")]
+    #[error("the scan was cancelled")]
     Cancelled,
 }
 
-impl SweepError {
+impl ScanError {
     /// Whether the request itself is at fault (a name, a range, a value), as opposed to a
     /// failure inside the computation or a cancel.
     pub fn is_bad_input(&self) -> bool {
-        !matches!(self, SweepError::Engine(_) | SweepError::Cancelled)
+        !matches!(self, ScanError::Engine(_) | ScanError::Cancelled)
     }
 }
 
@@ -100,37 +100,37 @@ fn solution_of<'a>(vary: &Vary, s: &'a Scenario) -> Option<&'a str> {
 
 impl Vary {
     /// Parses the command-line spelling and checks that the species or agent exists in `s`.
-    pub fn parse(text: &str, s: &Scenario) -> Result<Vary, SweepError> {
+    pub fn parse(text: &str, s: &Scenario) -> Result<Vary, ScanError> {
         let vary = match text.split_once(':') {
             None if text == "temperature_c" => Vary::TemperatureC,
             Some(("outside_mm", name)) => Vary::OutsideMm(name.to_string()),
             Some(("inside_mm", name)) => Vary::InsideMm(name.to_string()),
             Some(("permeability", name)) => Vary::Permeability(name.to_string()),
             Some(("dose_um", label)) => Vary::DoseUm(label.to_string()),
-            _ => return Err(SweepError::UnknownQuantity(text.to_string())),
+            _ => return Err(ScanError::UnknownQuantity(text.to_string())),
         };
         vary.check(s)?;
         Ok(vary)
     }
 
     /// Checks that the named species or agent exists in `s`.
-    pub fn check(&self, s: &Scenario) -> Result<(), SweepError> {
+    pub fn check(&self, s: &Scenario) -> Result<(), ScanError> {
         self.target(s).map(|_| ())
     }
 
     /// The species index (concentration or permeability) or protocol index (dose) this acts on.
-    fn target(&self, s: &Scenario) -> Result<usize, SweepError> {
+    fn target(&self, s: &Scenario) -> Result<usize, ScanError> {
         match self {
             Vary::TemperatureC => Ok(0),
             Vary::OutsideMm(name) | Vary::InsideMm(name) if solution_of(self, s).is_some() => {
-                Err(SweepError::FromSolution {
+                Err(ScanError::FromSolution {
                     quantity: self.quantity(),
                     name: name.clone(),
                     solution: solution_of(self, s).unwrap_or_default().to_string(),
                 })
             }
             Vary::OutsideMm(name) | Vary::InsideMm(name) | Vary::Permeability(name) => {
-                s.species_index(name).ok_or_else(|| SweepError::UnknownSpecies {
+                s.species_index(name).ok_or_else(|| ScanError::UnknownSpecies {
                     quantity: self.quantity().to_string(),
                     name: name.clone(),
                     choices: quoted_list(s.species.iter().map(|x| x.name.as_str())),
@@ -147,7 +147,7 @@ impl Vary {
                     } else {
                         format!("the agents are {}", quoted_list(labels.into_iter()))
                     };
-                    SweepError::UnknownAgent {
+                    ScanError::UnknownAgent {
                         label: label.clone(),
                         choices,
                     }
@@ -220,8 +220,8 @@ impl fmt::Display for Vary {
 /// A dose asks what the cell does with the agent present, so the agent is put in force from
 /// t = 0 to the end of the run (`from_ms` 0, `until_ms` None): the steady state at t = 0 then
 /// includes its block. Left at its own start time, an agent that arrives later would leave
-/// every point of a dose sweep at the untreated potential.
-pub fn apply(s: &Scenario, vary: &Vary, value: f64) -> Result<Scenario, SweepError> {
+/// every point of a dose scan at the untreated potential.
+pub fn apply(s: &Scenario, vary: &Vary, value: f64) -> Result<Scenario, ScanError> {
     let i = vary.target(s)?;
     let mut out = s.clone();
     match vary {
@@ -247,8 +247,8 @@ pub fn apply(s: &Scenario, vary: &Vary, value: f64) -> Result<Scenario, SweepErr
 }
 
 /// Checks that `s` with the input set to `value` is a valid scenario.
-pub fn check_value(s: &Scenario, vary: &Vary, value: f64) -> Result<Valid, SweepError> {
-    crate::scenario::validate(apply(s, vary, value)?).map_err(|problem| SweepError::InvalidAt {
+pub fn check_value(s: &Scenario, vary: &Vary, value: f64) -> Result<Valid, ScanError> {
+    crate::scenario::validate(apply(s, vary, value)?).map_err(|problem| ScanError::InvalidAt {
         vary: vary.clone(),
         value,
         problem,
@@ -260,39 +260,39 @@ pub fn check_value(s: &Scenario, vary: &Vary, value: f64) -> Result<Valid, Sweep
 pub const MAX_POINTS: usize = 100_000;
 
 /// A range of values: `points` values from `from` to `to` inclusive, evenly spaced on a linear
-/// or a logarithmic scale. `from` may exceed `to` (a descending sweep).
+/// or a logarithmic scale. `from` may exceed `to` (a descending scan).
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct SweepRange {
+pub struct ScanRange {
     pub from: f64,
     pub to: f64,
     pub points: usize,
     pub log: bool,
 }
 
-impl SweepRange {
+impl ScanRange {
     /// Checks the range and returns its values. Each value is computed from its index (never
     /// as a running sum) and the ends are exactly `from` and `to`.
-    pub fn values(&self) -> Result<Vec<f64>, SweepError> {
+    pub fn values(&self) -> Result<Vec<f64>, ScanError> {
         if self.points < 1 {
-            return Err(SweepError::TooFewPoints(self.points));
+            return Err(ScanError::TooFewPoints(self.points));
         }
         if self.points > MAX_POINTS {
-            return Err(SweepError::TooManyPoints(self.points));
+            return Err(ScanError::TooManyPoints(self.points));
         }
         if !self.from.is_finite() {
-            return Err(SweepError::NotFinite {
+            return Err(ScanError::NotFinite {
                 end: "start (from)",
                 value: self.from,
             });
         }
         if !self.to.is_finite() {
-            return Err(SweepError::NotFinite {
+            return Err(ScanError::NotFinite {
                 end: "end (to)",
                 value: self.to,
             });
         }
         if self.log && !(self.from > 0.0 && self.to > 0.0) {
-            return Err(SweepError::LogNeedsPositive {
+            return Err(ScanError::LogNeedsPositive {
                 from: self.from,
                 to: self.to,
             });
@@ -324,9 +324,9 @@ impl SweepRange {
     }
 }
 
-/// One point of a sweep.
+/// One point of a scan.
 #[derive(Debug, Clone, PartialEq)]
-pub struct SweepPoint {
+pub struct ScanPoint {
     pub value: f64,
     /// The passive zero-current potential, `None` where none exists (`ghk_undefined` says why).
     pub ghk_mv: Option<f64>,
@@ -336,16 +336,16 @@ pub struct SweepPoint {
     pub resting_undefined: Option<Undefined>,
 }
 
-/// Progress reporting and cancelling for a sweep running on another thread.
+/// Progress reporting and cancelling for a scan running on another thread.
 #[derive(Debug, Clone, Default)]
-pub struct SweepControl {
+pub struct ScanControl {
     /// Incremented once per finished point.
     pub progress: Option<Arc<AtomicUsize>>,
-    /// Set to stop; points not yet started are skipped and the sweep returns `Cancelled`.
+    /// Set to stop; points not yet started are skipped and the scan returns `Cancelled`.
     pub cancel: Option<Arc<AtomicBool>>,
 }
 
-impl SweepControl {
+impl ScanControl {
     pub fn is_cancelled(&self) -> bool {
         self.cancel.as_ref().is_some_and(|c| c.load(Ordering::Relaxed))
     }
@@ -367,9 +367,9 @@ pub fn potentials(s: &Valid) -> Result<Potentials, EngineError> {
 }
 
 /// One point: the scenario with the input set to `value`.
-pub fn sweep_point(s: &Scenario, vary: &Vary, value: f64) -> Result<SweepPoint, SweepError> {
+pub fn scan_point(s: &Scenario, vary: &Vary, value: f64) -> Result<ScanPoint, ScanError> {
     let (ghk, resting) = potentials(&check_value(s, vary, value)?)?;
-    Ok(SweepPoint {
+    Ok(ScanPoint {
         value,
         ghk_mv: ghk.as_ref().ok().copied(),
         resting_mv: resting.as_ref().ok().copied(),
@@ -378,16 +378,16 @@ pub fn sweep_point(s: &Scenario, vary: &Vary, value: f64) -> Result<SweepPoint, 
     })
 }
 
-/// Runs a sweep on the current rayon pool (every core by default).
+/// Runs a scan on the current rayon pool (every core by default).
 ///
 /// Both ends of the range are validated first: every check on a scenario value is a bound, so
 /// valid ends mean every point between them is valid too.
-pub fn sweep(
+pub fn scan(
     s: &Scenario,
     vary: &Vary,
-    range: &SweepRange,
-    control: &SweepControl,
-) -> Result<Vec<SweepPoint>, SweepError> {
+    range: &ScanRange,
+    control: &ScanControl,
+) -> Result<Vec<ScanPoint>, ScanError> {
     let values = range.values()?;
     vary.check(s)?;
     check_value(s, vary, range.from)?;
@@ -396,29 +396,29 @@ pub fn sweep(
         .par_iter()
         .map(|&x| {
             if control.is_cancelled() {
-                return Err(SweepError::Cancelled);
+                return Err(ScanError::Cancelled);
             }
-            let p = sweep_point(s, vary, x);
+            let p = scan_point(s, vary, x);
             control.tick();
             p
         })
         .collect()
 }
 
-/// The Nernst potential of the swept species at each value, for a concentration sweep.
+/// The Nernst potential of the scanned species at each value, for a concentration scan.
 #[derive(Debug, Clone, PartialEq)]
 pub struct NernstLine {
     pub species: String,
     pub charge: i32,
-    /// Slope, mV per tenfold change of the swept concentration (negative for an inside sweep of
+    /// Slope, mV per tenfold change of the scanned concentration (negative for an inside scan of
     /// a cation, whose potential falls as the inside concentration rises).
     pub slope_mv_per_decade: f64,
     /// `None` where a concentration is 0.
     pub e_mv: Vec<Option<f64>>,
 }
 
-/// The reference Nernst line for a sweep of one species' inside or outside concentration;
-/// `None` for any other kind of sweep.
+/// The reference Nernst line for a scan of one species' inside or outside concentration;
+/// `None` for any other kind of scan.
 pub fn nernst_line(s: &Scenario, vary: &Vary, values: &[f64]) -> Option<NernstLine> {
     let i = vary.target(s).ok()?;
     let sp = &s.species[i];

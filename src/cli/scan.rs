@@ -7,7 +7,7 @@ use serde::Serialize;
 
 use super::output::{optional_csv, write_csv};
 use super::readable;
-use crate::analysis::sweep::{NernstLine, SweepPoint, SweepRange, Vary, nernst_line, sweep};
+use crate::analysis::scan::{NernstLine, ScanPoint, ScanRange, Vary, nernst_line, scan};
 use crate::physics::Undefined;
 
 #[derive(Debug, clap::Args)]
@@ -44,10 +44,10 @@ pub struct Args {
 fn parse_points(text: &str) -> Result<usize, String> {
     let wanted = format!(
         "the number of points must be a whole number from 1 to {}",
-        crate::analysis::sweep::MAX_POINTS
+        crate::analysis::scan::MAX_POINTS
     );
     match text.trim().parse::<f64>() {
-        Ok(x) if x.fract() == 0.0 && (1.0..=crate::analysis::sweep::MAX_POINTS as f64).contains(&x) => {
+        Ok(x) if x.fract() == 0.0 && (1.0..=crate::analysis::scan::MAX_POINTS as f64).contains(&x) => {
             Ok(x as usize)
         }
         Ok(_) => Err(format!("{wanted} (got {text})")),
@@ -63,7 +63,7 @@ struct PointJson {
 }
 
 #[derive(Serialize)]
-struct SweepJson<'a> {
+struct ScanJson<'a> {
     vary: &'a str,
     points: Vec<PointJson>,
 }
@@ -73,7 +73,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     let csv_out = optional_csv(&a.file, a.csv.as_deref())?;
     super::print_warnings(&a.file, &s);
     if let Some(spec) = a.vary.strip_prefix("replace:") {
-        let range = SweepRange {
+        let range = ScanRange {
             from: a.from,
             to: a.to,
             points: a.points,
@@ -94,14 +94,14 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     let in_file = |e: &dyn std::fmt::Display| format!("{}: {e}", a.file.display());
     let vary =
         Vary::parse(&a.vary, &s).map_err(|e| super::bad(format!("{}: --vary: {e}", a.file.display())))?;
-    let range = SweepRange {
+    let range = ScanRange {
         from: a.from,
         to: a.to,
         points: a.points,
         log: a.log,
     };
 
-    let points = super::with_progress(a.points, "points", |control| sweep(&s, &vary, &range, control))
+    let points = super::with_progress(a.points, "points", |control| scan(&s, &vary, &range, control))
         .map_err(|e| {
             let msg = in_file(&e);
             if e.is_bad_input() {
@@ -116,7 +116,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         write_csv(out, &csv(&points))?;
     }
     if a.json {
-        let j = SweepJson {
+        let j = ScanJson {
             vary: &a.vary,
             points: points
                 .iter()
@@ -142,13 +142,13 @@ pub fn run(a: Args) -> anyhow::Result<()> {
 }
 
 /// One stderr line per distinct reason a potential is undefined, with how often and where first.
-fn report_undefined(vary: &Vary, points: &[SweepPoint]) {
+fn report_undefined(vary: &Vary, points: &[ScanPoint]) {
     for (what, get) in [
         (
             "GHK potential",
-            (|p: &SweepPoint| p.ghk_undefined.clone()) as fn(&SweepPoint) -> Option<Undefined>,
+            (|p: &ScanPoint| p.ghk_undefined.clone()) as fn(&ScanPoint) -> Option<Undefined>,
         ),
-        ("resting potential", |p: &SweepPoint| p.resting_undefined.clone()),
+        ("resting potential", |p: &ScanPoint| p.resting_undefined.clone()),
     ] {
         let mut seen: Vec<(Undefined, usize, f64)> = Vec::new();
         for p in points {
@@ -172,7 +172,7 @@ fn cell(x: Option<f64>) -> String {
 }
 
 /// `value,ghk_mv,resting_mv` rows; shortest round-trip numbers, an empty cell where undefined.
-pub fn csv(points: &[SweepPoint]) -> String {
+pub fn csv(points: &[ScanPoint]) -> String {
     let mut o = String::from("value,ghk_mv,resting_mv\n");
     for p in points {
         o += &format!("{},{},{}\n", p.value, cell(p.ghk_mv), cell(p.resting_mv));
@@ -188,8 +188,8 @@ fn mv(x: Option<f64>) -> String {
 fn table(
     title: &str,
     vary: &Vary,
-    range: &SweepRange,
-    points: &[SweepPoint],
+    range: &ScanRange,
+    points: &[ScanPoint],
     nernst: Option<&NernstLine>,
 ) -> String {
     let mut o = super::title_line(title);
@@ -236,7 +236,7 @@ mod tests {
 
     #[test]
     fn csv_writes_undefined_as_an_empty_cell() {
-        let p = |value: f64, ghk_mv: Option<f64>, resting_mv: Option<f64>| SweepPoint {
+        let p = |value: f64, ghk_mv: Option<f64>, resting_mv: Option<f64>| ScanPoint {
             value,
             ghk_mv,
             resting_mv,
