@@ -76,6 +76,10 @@ pub const EXAMPLES: &[(&str, &str)] = &[
         "sodium-substitution-steps.ron",
         include_str!("../scenarios/sodium-substitution-steps.ron"),
     ),
+    (
+        "sucrose-bath-shrinks-the-cell.ron",
+        include_str!("../scenarios/sucrose-bath-shrinks-the-cell.ron"),
+    ),
 ];
 
 /// The text of the bundled example called `file_name`.

@@ -607,12 +607,18 @@ fn run_svg_is_a_figure_of_the_csv_with_nernst_lines() {
     let px_ms = time.per_px.abs();
     let px_mv = volts.per_px.abs();
 
-    // The trace: the one polyline of more than two points. The figure keeps every sample of a
-    // run this short (it thins only beyond 6000), so its points are the CSV's rows in order.
-    let traces: Vec<Vec<(f64, f64)>> = svg
-        .descendants()
-        .filter(|n| n.has_tag_name("polyline"))
-        .map(points)
+    // The trace: the longest polyline, and the only one of its colour with more than two
+    // points (a moving reversal potential's dashes have several points too). The figure keeps every sample of a run this
+    // short (it thins only beyond 6000), so its points are the CSV's rows in order.
+    let polylines: Vec<roxmltree::Node> = svg.descendants().filter(|n| n.has_tag_name("polyline")).collect();
+    let longest = polylines
+        .iter()
+        .max_by_key(|n| points(**n).len())
+        .expect("a trace");
+    let traces: Vec<Vec<(f64, f64)>> = polylines
+        .iter()
+        .filter(|n| n.attribute("stroke") == longest.attribute("stroke"))
+        .map(|n| points(*n))
         .filter(|p| p.len() > 2)
         .collect();
     assert_eq!(traces.len(), 1, "one trace");
@@ -635,8 +641,9 @@ fn run_svg_is_a_figure_of_the_csv_with_nernst_lines() {
     }
 
     // Reversal lines: each species' label names its Nernst value to 0.1 mV and has the colour
-    // of a dashed horizontal line drawn at that value.
-    for &(name, charge, inside, outside, _) in &SPIKES_SPECIES {
+    // of a dashed horizontal line drawn at that value. K+'s bath changes, so its line moves
+    // (`run_svg_draws_a_moving_reversal_potential_where_the_bath_changes` checks it).
+    for &(name, charge, inside, outside, _) in SPIKES_SPECIES.iter().filter(|s| s.0 != "K+") {
         let e_mv = nernst_mv(charge, inside, outside, SPIKES_TEMPERATURE_C);
         let prefix = format!("E {name} ");
         let (label, words) = texts
@@ -667,6 +674,115 @@ fn run_svg_is_a_figure_of_the_csv_with_nernst_lines() {
             );
         }
     }
+}
+
+/// An invented bath exchange: potassium raised from 5 to 25 mM at 100 ms (a 2 ms exchange) in
+/// a cell at 37 °C, K+ 140 mM inside.
+const RAISED_K: &str = r#"(
+    format: 1,
+    title: "Raised bath potassium",
+    temperature_c: 37.0,
+    species: [
+        (name: "K+", charge: 1, inside_mm: 140.0, outside_mm: 5.0, permeability_cm_per_s: 5.0e-7),
+        (name: "Na+", charge: 1, inside_mm: 12.0, outside_mm: 145.0, permeability_cm_per_s: 2.0e-8),
+        (name: "Cl-", charge: -1, inside_mm: 10.0, outside_mm: 120.0, permeability_cm_per_s: 0.0),
+    ],
+    protocol: [
+        BathChange(species: "K+", outside_mm: 25.0, at_ms: 100.0, lag_ms: 2.0),
+    ],
+    run: (duration_ms: 300.0, sample_ms: 0.5),
+)
+"#;
+
+/// Issue 13: `run --svg` drew a moving reversal potential flat at its starting value. E K+ is
+/// read back from the figure through its tick labels: before the change its dashed line sits
+/// at the Nernst potential of 140/5 mM, once the exchange is over (30 lag constants later) at
+/// that of 140/25 mM (Nernst 1889 with CODATA 2018 R and F, computed here), each within a
+/// pixel; the line spans the whole time axis, and its label reads the value at the end.
+#[test]
+fn run_svg_draws_a_moving_reversal_potential_where_the_bath_changes() {
+    let sb = Sandbox::with("raised.ron", RAISED_K);
+    sb.ok(&["run", "raised.ron", "--csv", "out.csv", "--svg", "out.svg"]);
+    let text = sb.read("out.svg");
+    let doc = roxmltree::Document::parse(&text).expect("the figure is well-formed XML");
+    let svg = doc.root_element();
+    let texts: Vec<(roxmltree::Node, &str)> = svg
+        .descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .map(|n| (n, n.text().unwrap_or_default().trim()))
+        .collect();
+    let ticks = |anchor: &str, along: &str| -> Vec<Tick> {
+        texts
+            .iter()
+            .filter(|(n, _)| n.attribute("text-anchor") == Some(anchor))
+            .filter_map(|(n, s)| {
+                Some(Tick {
+                    value: s.parse().ok()?,
+                    px: attr(*n, along),
+                })
+            })
+            .collect()
+    };
+    let time = checked_axis(ticks("middle", "x"), "time axis");
+    let volts = checked_axis(ticks("end", "y"), "potential axis");
+    let (px_ms, px_mv) = (time.per_px.abs(), volts.per_px.abs());
+
+    let before_mv = nernst_mv(1, 140.0, 5.0, 37.0);
+    let after_mv = nernst_mv(1, 140.0, 25.0, 37.0);
+    let (label, words) = texts
+        .iter()
+        .find(|(_, s)| s.starts_with("E K+ "))
+        .expect("a label for E K+");
+    let shown: f64 = words["E K+ ".len()..]
+        .trim_end_matches(" mV")
+        .parse()
+        .unwrap_or_else(|_| panic!("{words}"));
+    assert!(
+        (shown - after_mv).abs() <= LABEL_MV * (1.0 + RELATIVE),
+        "{words} vs {after_mv:.3} mV at the end"
+    );
+    let colour = label.attribute("fill").expect("a coloured label");
+    let line: Vec<(f64, f64)> = svg
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline") && n.attribute("stroke") == Some(colour))
+        .flat_map(points)
+        .map(|(x, y)| (time.value(x), volts.value(y)))
+        .collect();
+    let early: Vec<f64> = line.iter().filter(|p| p.0 < 99.0).map(|p| p.1).collect();
+    let late: Vec<f64> = line.iter().filter(|p| p.0 > 160.0).map(|p| p.1).collect();
+    assert!(
+        early.len() >= 10 && late.len() >= 10,
+        "{} and {} points",
+        early.len(),
+        late.len()
+    );
+    let mean = |x: &[f64]| x.iter().sum::<f64>() / x.len() as f64;
+    println!(
+        "E K+ drawn at {:.3} mV before (Nernst {before_mv:.3}) and {:.3} mV after (Nernst {after_mv:.3}); one pixel is {px_mv:.3} mV",
+        mean(&early),
+        mean(&late)
+    );
+    for e in early {
+        assert!(
+            (e - before_mv).abs() <= ONE_PIXEL * px_mv,
+            "before the change: {e} mV vs {before_mv} mV"
+        );
+    }
+    for e in late {
+        assert!(
+            (e - after_mv).abs() <= ONE_PIXEL * px_mv,
+            "after the change: {e} mV vs {after_mv} mV"
+        );
+    }
+    // A dashed line ends in a dash or a gap: within one dash and gap (8 + 5 pixels) of each
+    // end of the axis.
+    let first = line.iter().map(|p| p.0).fold(f64::INFINITY, f64::min);
+    let last = line.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
+    let period_ms = (8.0 + 5.0 + ONE_PIXEL) * px_ms;
+    assert!(
+        first <= ONE_PIXEL * px_ms && last >= 300.0 - period_ms,
+        "the line spans {first}..{last} ms of 0..300 ms"
+    );
 }
 
 #[test]

@@ -178,6 +178,215 @@ fn finite_water_permeability_approaches_boyle_van_t_hoff_with_the_linearised_tim
 }
 
 // ---------------------------------------------------------------------------------------------
+// Neutral solutes of a bath solution
+// ---------------------------------------------------------------------------------------------
+
+/// Ideal osmolarity of the two baths below, mOsm (solutions.md: the sum of all particles):
+/// 115 NaCl + 5 KCl + 30 NaHCO3 give 145 Na+, 5 K+, 120 Cl- and 30 HCO3-; the second adds
+/// 100 mM of sucrose, one neutral particle each.
+const SALINE_MOSM: f64 = 145.0 + 5.0 + 120.0 + 30.0;
+const SUCROSE_SALINE_MOSM: f64 = SALINE_MOSM + 100.0;
+
+/// A cell whose ions cannot cross (K+, Na+ and Cl- have no permeability, no pump; Li+ may
+/// cross but is on neither side), so only water moves, in a bath of solutions: saline, then
+/// `events` (bath exchanges). The inside holds 140 K+, 12 Na+, 10 Cl- and the impermeant
+/// solute derived to match the bath at t = 0.
+fn sucrose_cell(water: &str, events: &str, duration_ms: f64, sample_ms: f64) -> Scenario {
+    scenario(&format!(
+        r#"(
+    format: 1,
+    cell: (diameter_um: 20.0, volume: Tracked(water: {water})),
+    solutions: [
+        (name: "saline", parts: [("NaCl", 115.0), ("KCl", 5.0), ("NaHCO3", 30.0)]),
+        (name: "sucrose saline", parts: [("NaCl", 115.0), ("KCl", 5.0), ("NaHCO3", 30.0), ("sucrose", 100.0)]),
+    ],
+    outside: Some("saline"),
+    species: [
+        (name: "K+", charge: 1, inside_mm: 140.0, permeability_cm_per_s: 0.0),
+        (name: "Na+", charge: 1, inside_mm: 12.0, permeability_cm_per_s: 0.0),
+        (name: "Cl-", charge: -1, inside_mm: 10.0, permeability_cm_per_s: 0.0),
+        (name: "Li+", charge: 1, inside_mm: 0.0, permeability_cm_per_s: 1.0e-7),
+    ],
+    protocol: [{events}],
+    run: (duration_ms: {duration_ms:?}, sample_ms: {sample_ms:?}, start: Voltage(-60.0)),
+)"#
+    ))
+}
+
+/// The bath's osmolarity at every sample, as the model's water sees it.
+fn bath_osmolarity(r: &Run) -> Vec<f64> {
+    let model = r.model();
+    let tr = r.trace();
+    let mut y = vec![0.0; model.dim()];
+    (0..tr.len())
+        .map(|k| {
+            tr.state(k, &mut y);
+            model.osm_out_mosm(&y)
+        })
+        .collect()
+}
+
+#[test]
+fn sucrose_in_a_bath_solution_shrinks_the_cell_by_boyle_van_t_hoff_and_washout_restores_it() {
+    // Boyle–van 't Hoff (Lucké & McCutcheon 1932, Physiol. Rev. 12:68, from memory): with no
+    // solute crossing, osm·W stays constant, so W = osm_out,0/osm_out,1 in the sucrose bath and
+    // 1 again after washout. The sucrose is no species: before, it did not reach the water.
+    let s = sucrose_cell(
+        "Instant",
+        r#"BathExchange(solution: "sucrose saline", at_ms: 10.0),
+           BathExchange(solution: "saline", at_ms: 20.0)"#,
+        30.0,
+        1.0,
+    );
+    let r = run_to_end(&s, SolverSettings::default());
+    let (w, osm_in) = volume_and_osmolarity(&r);
+    let osm_out = bath_osmolarity(&r);
+    let shrunk = SALINE_MOSM / SUCROSE_SALINE_MOSM;
+    println!("W in sucrose {} (Boyle–van 't Hoff {shrunk})", w[15]);
+    for (k, &t) in r.trace().t_ms.iter().enumerate() {
+        let (want_w, bath) = if (10.0..20.0).contains(&t) {
+            (shrunk, SUCROSE_SALINE_MOSM)
+        } else {
+            (1.0, SALINE_MOSM)
+        };
+        assert!(
+            (w[k] - want_w).abs() < 1e-12,
+            "W({t} ms) = {}, Boyle–van 't Hoff {want_w}",
+            w[k]
+        );
+        assert!(
+            (osm_out[k] - bath).abs() < 1e-9 * bath,
+            "bath {} at {t} ms",
+            osm_out[k]
+        );
+        assert!(
+            (osm_in[k] - bath).abs() < 1e-9 * bath,
+            "inside {} at {t} ms",
+            osm_in[k]
+        );
+    }
+    // The derived solute makes up what the bath's osmolarity, sucrose-free, has beyond the
+    // listed ions: 300 − 162 mM.
+    let x = rest_report(&valid(&s)).unwrap().impermeant.expect("derived");
+    assert!((x.inside_mm - (SALINE_MOSM - 162.0)).abs() < 1e-9, "{x:?}");
+}
+
+#[test]
+fn a_sucrose_bath_in_force_at_the_start_sets_the_derived_solute() {
+    // An exchange at 0 ms is the bath at t = 0: the cell is made iso-osmotic with the sucrose
+    // saline (400 mOsm), so it does not move; its later return to saline swells it to
+    // 400/300 (Boyle–van 't Hoff).
+    let s = sucrose_cell(
+        "Instant",
+        r#"BathExchange(solution: "sucrose saline", at_ms: 0.0),
+           BathExchange(solution: "saline", at_ms: 10.0)"#,
+        20.0,
+        1.0,
+    );
+    let x = rest_report(&valid(&s)).unwrap().impermeant.expect("derived");
+    assert!(
+        (x.inside_mm - (SUCROSE_SALINE_MOSM - 162.0)).abs() < 1e-9,
+        "{x:?}"
+    );
+    let r = run_to_end(&s, SolverSettings::default());
+    let (w, _) = volume_and_osmolarity(&r);
+    assert!(
+        (w[0] - 1.0).abs() < 1e-14 && (w[9] - 1.0).abs() < 1e-14,
+        "{} {}",
+        w[0],
+        w[9]
+    );
+    let swollen = SUCROSE_SALINE_MOSM / SALINE_MOSM;
+    assert!((w[w.len() - 1] - swollen).abs() < 1e-12, "W {}", w[w.len() - 1]);
+}
+
+#[test]
+fn the_sucrose_follows_the_exchange_lag_and_instant_water_follows_it() {
+    // model.md's lagged input: after an exchange at t₀ with lag τ every bath value moves as
+    // c(t) = c₁ + (c₀ − c₁)·e^(−(t − t₀)/τ); the sucrose moves with the ions, so the bath's
+    // osmolarity is O(t) = O₁ + (O₀ − O₁)·e^(−(t − t₀)/τ), and with instant water and no solute
+    // crossing, W(t) = N/O(t) (Boyle–van 't Hoff at each instant), N = O₀ the inside osmoles.
+    let (t0, tau) = (100.0, 250.0);
+    let s = sucrose_cell(
+        "Instant",
+        &format!(r#"BathExchange(solution: "sucrose saline", at_ms: {t0:?}, lag_ms: {tau:?})"#),
+        2000.0,
+        5.0,
+    );
+    let r = run_to_end(&s, tight());
+    let (w, _) = volume_and_osmolarity(&r);
+    let osm_out = bath_osmolarity(&r);
+    let (o0, o1) = (SALINE_MOSM, SUCROSE_SALINE_MOSM);
+    for (k, &t) in r.trace().t_ms.iter().enumerate() {
+        let o = if t < t0 {
+            o0
+        } else {
+            o1 + (o0 - o1) * (-(t - t0) / tau).exp()
+        };
+        assert!(
+            (osm_out[k] - o).abs() < 1e-6,
+            "bath {} vs {o} at {t} ms",
+            osm_out[k]
+        );
+        assert!((w[k] - o0 / o).abs() < 1e-8, "W {} vs {} at {t} ms", w[k], o0 / o);
+    }
+}
+
+#[test]
+fn with_finite_water_permeability_a_sucrose_bath_shrinks_the_cell_at_the_closed_form_rate() {
+    // dW/dt = k·(N/W − O), k = (A/Vol₀)·P_f·v_w (clamp-and-volume.md), after a step of the bath
+    // from O₀ = N to O: W* = N/O, and exactly
+    //     k·O·(t − t₀) = (W₀ − W) + W*·ln((W* − W₀)/(W* − W)),
+    // which linearised about W* is an exponential approach with τ = W*/(k·O). A/Vol₀ = 6/d
+    // for a sphere, v_w = 18 cm³/mol, 1 mOsm = 1e-6 mol/cm³ (written here from definitions).
+    let pf_um_per_s = 40.0;
+    let s = sucrose_cell(
+        &format!("Permeability(pf_um_per_s: {pf_um_per_s:?})"),
+        r#"BathExchange(solution: "sucrose saline", at_ms: 10.0)"#,
+        200_000.0,
+        100.0,
+    );
+    let d_cm = 20e-4;
+    let k = (6.0 / d_cm) * (pf_um_per_s * 1e-4) * 18.0 * 1e-6 * 1e-3;
+    let (n, o) = (SALINE_MOSM, SUCROSE_SALINE_MOSM);
+    let w_star = n / o;
+    let tau_ms = w_star / (k * o);
+    println!("W* {w_star}, linearised τ {} s", tau_ms / 1e3);
+    let r = run_to_end(&s, tight());
+    let (w, _) = volume_and_osmolarity(&r);
+    let t = &r.trace().t_ms;
+    let rate = k * o;
+    for j in 0..w.len() {
+        if t[j] <= 10.0 {
+            assert!((w[j] - 1.0).abs() < 1e-12);
+            continue;
+        }
+        if w[j] - w_star < 1e-6 {
+            break;
+        }
+        let t_exact = 10.0 + ((1.0 - w[j]) + w_star * ((w_star - 1.0) / (w_star - w[j])).ln()) / rate;
+        let w_error = (t_exact - t[j]) * rate * (w[j] - w_star) / w[j];
+        assert!(
+            w_error.abs() < 1e-8,
+            "W = {} at {} ms; the closed form puts it at {t_exact} ms",
+            w[j],
+            t[j]
+        );
+    }
+    // Read at the samples nearest 6τ and 8τ, over the time between those samples.
+    let (i1, i2) = (
+        t.partition_point(|x| *x < 6.0 * tau_ms),
+        t.partition_point(|x| *x < 8.0 * tau_ms),
+    );
+    let seen_tau = (t[i2] - t[i1]) / ((w[i1] - w_star) / (w[i2] - w_star)).ln();
+    println!("τ seen late {} s", seen_tau / 1e3);
+    assert!(
+        (seen_tau / tau_ms - 1.0).abs() < 2e-3,
+        "late τ {seen_tau} ms, linearised {tau_ms} ms"
+    );
+}
+
+// ---------------------------------------------------------------------------------------------
 // Donnan equilibrium
 // ---------------------------------------------------------------------------------------------
 
@@ -532,6 +741,62 @@ fn bad_volumes_are_refused_at_their_field_paths() {
     // Unknown names inside the new parts say where.
     let typo = text.replace("water: Instant", "water: Instnat");
     assert!(!problems(&typo).is_empty());
+    for (bad, why) in [("0.0", "greater than 0"), ("inf", "finite"), ("NaN", "finite")] {
+        let perm = text.replace(
+            "water: Instant",
+            &format!("water: Permeability(pf_um_per_s: {bad})"),
+        );
+        assert_refused(&perm, "cell.volume.water.pf_um_per_s", &[why]);
+    }
+}
+
+#[test]
+fn the_bath_solution_s_neutral_solutes_count_for_the_derived_solute() {
+    // 50 mM NaCl is a 100 mOsm bath (solutions.md: ideal osmolarity), below the 162 mM of ions
+    // inside: no positive impermeant solute can make the cell iso-osmotic. With 100 mM of
+    // sucrose the bath is 200 mOsm, and 38 mM of solute is derived.
+    let cell = |parts: &str| {
+        format!(
+            r#"(
+    format: 1,
+    cell: (volume: Tracked(water: Instant)),
+    solutions: [(name: "bath", parts: [{parts}])],
+    outside: Some("bath"),
+    species: [
+        (name: "K+", charge: 1, inside_mm: 140.0, permeability_cm_per_s: 1.0e-7),
+        (name: "Na+", charge: 1, inside_mm: 12.0, permeability_cm_per_s: 1.0e-8),
+        (name: "Cl-", charge: -1, inside_mm: 10.0, permeability_cm_per_s: 0.0),
+    ],
+    run: (duration_ms: 10.0, sample_ms: 1.0),
+)"#
+        )
+    };
+    assert_refused(
+        &cell(r#"("NaCl", 50.0)"#),
+        "cell.volume",
+        &["iso-osmotic", "162 mOsm", "100 mOsm"],
+    );
+    let with_sucrose = cell(r#"("NaCl", 50.0), ("sucrose", 100.0)"#);
+    assert!(
+        problems(&with_sucrose).is_empty(),
+        "{:?}",
+        problems(&with_sucrose)
+    );
+    let x = rest_report(&valid(&scenario(&with_sucrose)))
+        .unwrap()
+        .impermeant
+        .expect("derived");
+    assert!((x.inside_mm - 38.0).abs() < 1e-9, "{x:?}");
+    // Given, with instant water, it must match the bath with its sucrose.
+    let given = with_sucrose.replace(
+        "water: Instant",
+        "water: Instant, impermeant: Some((inside_mm: 20.0, charge: -1.0))",
+    );
+    assert_refused(
+        &given,
+        "cell.volume.impermeant.inside_mm",
+        &["iso-osmotic", "200 mOsm", "give 38 mM"],
+    );
 }
 
 #[test]
@@ -628,6 +893,31 @@ fn a_diluted_bath_swells_the_cell_by_about_half_in_seconds() {
 }
 
 #[test]
+fn the_sucrose_example_shrinks_the_cell_to_boyle_van_t_hoff_and_back() {
+    // The bath recipe's ideal osmolarity (solutions.md), added up here: 115 NaCl, 5 KCl,
+    // 30 NaHCO3 and 10 glucose are 310 mOsm; 100 mM of sucrose makes 410. Ions barely move in
+    // the 15 s of sucrose, so the volume comes close to Boyle–van 't Hoff's 310/410.
+    let r = example("sucrose-bath-shrinks-the-cell.ron");
+    let (w, osm) = volume_and_osmolarity(&r);
+    let osm_out = bath_osmolarity(&r);
+    let (exchange, before_washout) = (at(&r, 5_000.0), at(&r, 20_000.0));
+    let boyle = 310.0 / 410.0;
+    println!(
+        "W before washout {}, Boyle–van 't Hoff {boyle}; W at the end {}",
+        w[before_washout],
+        w[w.len() - 1]
+    );
+    assert!((w[exchange] - 1.0).abs() < 1e-6 && (osm[exchange] - 310.0).abs() < 1e-3);
+    assert!((osm_out[exchange] - 310.0).abs() < 1e-9 && (osm_out[before_washout] - 410.0).abs() < 1e-6);
+    assert!(
+        (w[before_washout] - boyle).abs() < 0.01,
+        "W {} vs {boyle}",
+        w[before_washout]
+    );
+    assert!((w[w.len() - 1] - 1.0).abs() < 0.01, "back to {}", w[w.len() - 1]);
+}
+
+#[test]
 fn the_k_and_cl_cell_ends_with_v_at_both_reversal_potentials() {
     let r = example("donnan-equilibrium.ron");
     let last = r.trace().len() - 1;
@@ -654,7 +944,11 @@ fn run_writes_volume_and_osmolarity_and_rest_reports_the_derived_solute() {
     let csv = sb.read("out.csv");
     let mut lines = csv.lines();
     let header: Vec<&str> = lines.next().unwrap().split(',').collect();
-    assert_eq!(&header[header.len() - 2..], ["volume_rel", "osm_in_mosm"]);
+    // The contract's two columns, then the bath's osmolarity.
+    assert_eq!(
+        &header[header.len() - 3..],
+        ["volume_rel", "osm_in_mosm", "osm_out_mosm"]
+    );
     assert!(header.contains(&"inside_mm:K+") && !header.iter().any(|h| h.starts_with("amount")));
     let first: Vec<f64> = lines
         .next()
@@ -662,8 +956,9 @@ fn run_writes_volume_and_osmolarity_and_rest_reports_the_derived_solute() {
         .split(',')
         .map(|x| x.parse().unwrap())
         .collect();
-    assert_eq!(first[header.len() - 2], 1.0);
-    // 140 + 0 + 10 mM of ions and 150 mM of the derived solute.
+    assert_eq!(first[header.len() - 3], 1.0);
+    // 140 + 0 + 10 mM of ions and 150 mM of the derived solute, iso-osmotic with the bath.
+    assert!((first[header.len() - 2] - 300.0).abs() < 1e-9);
     assert!((first[header.len() - 1] - 300.0).abs() < 1e-9);
     let last: Vec<f64> = csv
         .lines()
@@ -672,7 +967,7 @@ fn run_writes_volume_and_osmolarity_and_rest_reports_the_derived_solute() {
         .split(',')
         .map(|x| x.parse().unwrap())
         .collect();
-    assert!(last[header.len() - 2] < 0.97);
+    assert!(last[header.len() - 3] < 0.97);
 
     let json: serde_json::Value = serde_json::from_str(&sb.ok(&["rest", "cell.ron", "--json"])).unwrap();
     let x = &json["impermeant"];

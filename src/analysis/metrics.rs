@@ -286,6 +286,73 @@ pub fn metrics_csv(rows: &[(String, TraceMetrics)], baseline: Option<usize>) -> 
     out
 }
 
+/// Column names of the volume metrics in the metrics CSV, after the potential's.
+pub const VOLUME_COLUMNS: [&str; 2] = ["final_volume_rel", "volume_half_change_ms"];
+
+impl VolumeMetrics {
+    fn cells(&self) -> [Option<f64>; 2] {
+        [Some(self.final_rel), self.half_change_ms]
+    }
+}
+
+/// `csv` (one record per trace after its header, as [`metrics_csv`] writes it) with the volume
+/// metrics appended to each record: [`VOLUME_COLUMNS`], and with a baseline their `delta_`
+/// columns. `volumes` holds one entry per record (`None`, empty cells, for a trace whose volume
+/// was fixed). Unchanged when no trace tracked its volume.
+pub fn with_volume_columns(csv: &str, volumes: &[Option<VolumeMetrics>], baseline: Option<usize>) -> String {
+    if volumes.iter().all(Option::is_none) {
+        return csv.to_string();
+    }
+    let base = baseline.and_then(|b| volumes.get(b).copied().flatten());
+    let mut out = String::with_capacity(csv.len() + 64 * (volumes.len() + 1));
+    for (k, record) in records(csv).into_iter().enumerate() {
+        out.push_str(record);
+        if k == 0 {
+            for c in VOLUME_COLUMNS {
+                out.push(',');
+                out.push_str(c);
+            }
+            if baseline.is_some() {
+                for c in VOLUME_COLUMNS {
+                    let _ = write!(out, ",delta_{c}");
+                }
+            }
+        } else {
+            let mine = volumes.get(k - 1).copied().flatten();
+            let cells = mine.map_or([None; 2], |m| m.cells());
+            cells.iter().for_each(|x| push_number(&mut out, *x));
+            if baseline.is_some() {
+                let base_cells = base.map_or([None; 2], |b| b.cells());
+                for (a, b) in cells.iter().zip(base_cells) {
+                    push_number(&mut out, (*a).zip(b).map(|(a, b)| a - b));
+                }
+            }
+        }
+        out.push('\n');
+    }
+    out
+}
+
+/// The records of a CSV text without their line ends (a quoted name may hold a line break).
+fn records(csv: &str) -> Vec<&str> {
+    let mut out = Vec::new();
+    let (mut start, mut quoted) = (0, false);
+    for (i, c) in csv.char_indices() {
+        match c {
+            '"' => quoted = !quoted,
+            '\n' if !quoted => {
+                out.push(&csv[start..i]);
+                start = i + 1;
+            }
+            _ => {}
+        }
+    }
+    if start < csv.len() {
+        out.push(&csv[start..]);
+    }
+    out
+}
+
 /// One dose of a dose–response.
 #[derive(Debug, Clone, PartialEq)]
 pub struct DosePoint {
@@ -401,6 +468,28 @@ fn half_effect_dose(points: &[DosePoint]) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The volume columns go after every metric of each record, with a baseline their
+    /// differences; a name holding a comma and a line break stays one quoted cell.
+    #[test]
+    fn volume_columns_follow_each_record() {
+        let csv = "trace,a,delta_a\n\"cell, 1\nagain\",1,0\nfixed,2,1\nother,3,2\n";
+        let v = |w: f64, h: Option<f64>| {
+            Some(VolumeMetrics {
+                final_rel: w,
+                half_change_ms: h,
+            })
+        };
+        let out = with_volume_columns(csv, &[v(1.25, Some(40.0)), None, v(1.5, None)], Some(0));
+        assert_eq!(
+            out,
+            "trace,a,delta_a,final_volume_rel,volume_half_change_ms,delta_final_volume_rel,delta_volume_half_change_ms\n\
+             \"cell, 1\nagain\",1,0,1.25,40,0,0\n\
+             fixed,2,1,,,,\n\
+             other,3,2,1.5,,0.25,\n"
+        );
+        assert_eq!(with_volume_columns(csv, &[None, None, None], Some(0)), csv);
+    }
 
     fn grid(n: usize, dt: f64) -> Vec<f64> {
         (0..n).map(|k| k as f64 * dt).collect()

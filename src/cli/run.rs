@@ -104,6 +104,9 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     let mut envelope = svg_out
         .as_ref()
         .map(|_| Envelope::new((0.0, s.run.duration_ms), svg::TRACE_COLUMNS));
+    let mut tracks = svg_out
+        .as_ref()
+        .map(|_| svg::Tracks::new(&model, s.run.duration_ms));
     let show_progress = std::io::stderr().is_terminal();
     let started = Instant::now();
     // A replaced CSV is streamed into a temporary file that takes the target's place only
@@ -126,6 +129,9 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             rows.write_rows(&mut w, &model, run.trace())?;
             if let Some(env) = &mut envelope {
                 env.extend(&run.trace().t_ms, run.trace().v_mv());
+            }
+            if let Some(tracks) = &mut tracks {
+                tracks.extend(&model, run.trace());
             }
             run.trace_mut().discard_front();
             if show_progress && last_note.elapsed().as_secs_f64() > 0.5 {
@@ -160,6 +166,9 @@ pub fn run(a: Args) -> anyhow::Result<()> {
     if let (Some(out), Some(env)) = (&svg_out, &envelope) {
         let (t, v) = env.points();
         let mut fig = svg::figure_for(&s, &t, &v)?;
+        if let Some(tracks) = &tracks {
+            tracks.apply(&mut fig);
+        }
         if fig.title.is_empty() {
             fig.title = a.file.display().to_string();
         }

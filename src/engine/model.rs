@@ -140,6 +140,8 @@ pub struct Readout {
     pub volume_rel: f64,
     /// Inside osmolarity, mOsm.
     pub osm_in_mosm: f64,
+    /// The bath's osmolarity, mOsm.
+    pub osm_out_mosm: f64,
 }
 
 /// Identity of gate `j` of a channel with these gates: its kind, and for the
@@ -267,6 +269,7 @@ impl Model {
             },
             volume_rel: 1.0,
             osm_in_mosm: 0.0,
+            osm_out_mosm: 0.0,
         }
     }
 
@@ -467,7 +470,7 @@ impl Model {
                         None => out.pump_block = 1.0 - (1.0 - out.pump_block) * factor,
                     }
                 }
-                LagKind::Bath { .. } => {}
+                LagKind::Bath { .. } | LagKind::BathUnlisted { .. } => {}
             }
         }
         out.inject_ua_per_cm2 = inject_ua_per_cm2;
@@ -542,9 +545,18 @@ impl Model {
         }
     }
 
-    /// Osmolarity of the bath in the state `y`, mOsm (ideal: the sum of its concentrations).
+    /// Osmolarity of the bath in the state `y`, mOsm (ideal: the sum of the concentrations of
+    /// all its particles): every species' outside value and, in a bath of solutions, the
+    /// solutes no species lists, each where its lag has taken it.
     pub fn osm_out_mosm(&self, y: &[f64]) -> f64 {
-        (0..self.species_count()).map(|s| self.outside_mm(y, s)).sum()
+        let unlisted = self
+            .protocol
+            .unlisted_lag
+            .map_or(0.0, |l| y[self.lag_offset() + l]);
+        (0..self.species_count())
+            .map(|s| self.outside_mm(y, s))
+            .sum::<f64>()
+            + unlisted
     }
 
     /// The inside amounts of a tracked cell's state `y` (empty when concentrations are fixed).
@@ -595,6 +607,7 @@ impl Model {
         c.inject_ua_per_cm2 = inject;
         r.volume_rel = self.volume_rel(y);
         r.osm_in_mosm = self.osm_in_mosm(y);
+        r.osm_out_mosm = self.osm_out_mosm(y);
         (c.command_mv, c.clamp_ua_per_cm2) = match &self.clamp {
             None => (y[0], 0.0),
             Some(clamp) => {
@@ -605,6 +618,20 @@ impl Model {
                 }
             }
         };
+    }
+
+    /// The reversal (Nernst) potential of species `s` under the concentrations of `cond`, mV
+    /// (`None` where it is undefined: no charge, or a concentration of 0). The one computation
+    /// behind every reversal line: the window's plots (and so its PNG) and the SVG figure read
+    /// it sample by sample, so a moving bath or inside moves the line alike in all of them.
+    pub fn reversal_mv(&self, s: usize, cond: &Conditions) -> Option<f64> {
+        let ion = self.membrane.ions.get(s)?;
+        crate::physics::nernst_mv(
+            ion.charge,
+            *cond.inside_mm.get(s)?,
+            *cond.outside_mm.get(s)?,
+            self.membrane.temperature_c,
+        )
     }
 
     /// The gates of the state `y`.

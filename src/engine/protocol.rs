@@ -15,6 +15,9 @@ pub enum LagId {
     Bath { species: String },
     /// An agent's effective dose, by the agent's label (labels are unique).
     Agent { label: String },
+    /// The bath's osmolarity that no species carries (a solution's sucrose, its unlisted ions),
+    /// which a tracked volume's water follows.
+    BathUnlisted,
 }
 
 /// What one lagged input follows.
@@ -33,6 +36,15 @@ pub enum LagKind {
     Bath {
         species: usize,
         file_mm: f64,
+        changes: Vec<(f64, f64, f64)>,
+    },
+    /// The bath's osmolarity that no species' value carries, mOsm (see
+    /// [`crate::solutions::Plan::unlisted_mosm`]): that of the `outside` solution at first,
+    /// then `(at_ms, mOsm, lag_ms)` of each bath exchange in time order, so it follows each
+    /// exchange through the same lag as the exchanged ions. Made only for a tracked volume
+    /// whose bath is a solution.
+    BathUnlisted {
+        file_mosm: f64,
         changes: Vec<(f64, f64, f64)>,
     },
     /// An agent's effective dose, µM; it blocks its species' permeability, or the pump's
@@ -70,20 +82,23 @@ fn in_span(t: f64, from: f64, until: Option<f64>, on: f64, off: f64) -> f64 {
 
 impl Lag {
     /// Display name for CSV headers and plots: `factor:<species>:event<i>`,
-    /// `bath_mm:<species>` or `dose_um:<label>`.
+    /// `bath_mm:<species>`, `dose_um:<label>` or `bath_unlisted_mosm`.
     pub fn name(&self) -> String {
         match &self.id {
             LagId::Scale { species, .. } => format!("factor:{species}:event{}", self.event),
             LagId::Bath { species } => format!("bath_mm:{species}"),
             LagId::Agent { label } => format!("dose_um:{label}"),
+            LagId::BathUnlisted => "bath_unlisted_mosm".to_string(),
         }
     }
 
-    /// The species whose permeability or bath this input acts on (`None`: the pump).
+    /// The species whose permeability or bath this input acts on (`None`: the pump, or the
+    /// bath's unlisted solutes).
     pub fn species(&self) -> Option<usize> {
         match self.kind {
             LagKind::Scale { species, .. } | LagKind::Bath { species, .. } => Some(species),
             LagKind::Agent { species, .. } => species,
+            LagKind::BathUnlisted { .. } => None,
         }
     }
 
@@ -96,11 +111,15 @@ impl Lag {
                 until_ms,
                 ..
             } => in_span(t_ms, *from_ms, *until_ms, *factor, 1.0),
-            LagKind::Bath { file_mm, changes, .. } => changes
-                .iter()
-                .rev()
-                .find(|c| c.0 <= t_ms)
-                .map_or(*file_mm, |c| c.1),
+            LagKind::Bath {
+                file_mm: file,
+                changes,
+                ..
+            }
+            | LagKind::BathUnlisted {
+                file_mosm: file,
+                changes,
+            } => changes.iter().rev().find(|c| c.0 <= t_ms).map_or(*file, |c| c.1),
             LagKind::Agent {
                 dose_um,
                 from_ms,
@@ -115,7 +134,9 @@ impl Lag {
     pub fn tau_ms(&self, t_ms: f64, e: f64) -> f64 {
         match &self.kind {
             LagKind::Scale { lag_ms, .. } => *lag_ms,
-            LagKind::Bath { changes, .. } => changes.iter().rev().find(|c| c.0 <= t_ms).map_or(0.0, |c| c.2),
+            LagKind::Bath { changes, .. } | LagKind::BathUnlisted { changes, .. } => {
+                changes.iter().rev().find(|c| c.0 <= t_ms).map_or(0.0, |c| c.2)
+            }
             LagKind::Agent {
                 onset_ms, washout_ms, ..
             } => {
@@ -131,7 +152,15 @@ impl Lag {
     /// The largest value the command takes, at least 1: the scale of its absolute tolerance.
     pub fn scale(&self) -> f64 {
         self.command(0.0).abs().max(1.0).max(match &self.kind {
-            LagKind::Bath { changes, file_mm, .. } => changes.iter().fold(*file_mm, |m, c| m.max(c.1)),
+            LagKind::Bath {
+                changes,
+                file_mm: file,
+                ..
+            }
+            | LagKind::BathUnlisted {
+                changes,
+                file_mosm: file,
+            } => changes.iter().fold(*file, |m, c| m.max(c.1)),
             LagKind::Scale { factor, .. } => *factor,
             LagKind::Agent { dose_um, .. } => *dose_um,
         })
@@ -149,7 +178,9 @@ impl Lag {
                 out.push(*from_ms);
                 out.extend(until_ms);
             }
-            LagKind::Bath { changes, .. } => out.extend(changes.iter().map(|c| c.0)),
+            LagKind::Bath { changes, .. } | LagKind::BathUnlisted { changes, .. } => {
+                out.extend(changes.iter().map(|c| c.0));
+            }
         }
     }
 }
@@ -257,6 +288,9 @@ pub struct Protocol {
     pub pulses: Vec<Pulses>,
     /// Which lag holds each species' bath concentration, if any.
     pub bath_lag: Vec<Option<usize>>,
+    /// Which lag holds the bath's unlisted osmolarity, if any (a tracked volume in a bath of
+    /// solutions).
+    pub unlisted_lag: Option<usize>,
     /// Command edges of the lagged inputs, finite, sorted, without repeats (pulse edges are
     /// found by [`Pulses::next_edge_after`]: a train may have very many).
     pub edges: Vec<f64>,
@@ -426,8 +460,38 @@ impl Protocol {
                 }
             }
         }
+        // A tracked volume's water sees every particle of the bath (solutions.md: ideal
+        // osmolarity), also those no species lists: they follow each exchange as one more input.
+        let mut unlisted_lag = None;
+        if !s.cell.volume.is_fixed() && crate::scenario::volume::bath_uses_solutions(s) {
+            let plan = plan.get_or_insert_with(|| crate::solutions::plan(s));
+            let file_mosm = s.outside.as_deref().map_or(0.0, |o| plan.unlisted_mosm(s, o));
+            let changes = s
+                .protocol
+                .iter()
+                .filter_map(|e| match e {
+                    Event::BathExchange {
+                        solution,
+                        at_ms,
+                        lag_ms,
+                    } => Some((*at_ms, plan.unlisted_mosm(s, solution), *lag_ms)),
+                    _ => None,
+                })
+                .collect();
+            let event = s
+                .protocol
+                .iter()
+                .position(|e| matches!(e, Event::BathExchange { .. }))
+                .unwrap_or(0);
+            lags.push(Lag {
+                id: LagId::BathUnlisted,
+                event,
+                kind: LagKind::BathUnlisted { file_mosm, changes },
+            });
+            unlisted_lag = Some(lags.len() - 1);
+        }
         for l in &mut lags {
-            if let LagKind::Bath { changes, .. } = &mut l.kind {
+            if let LagKind::Bath { changes, .. } | LagKind::BathUnlisted { changes, .. } = &mut l.kind {
                 // Stable sort: equal times keep file order, and the later one wins.
                 changes.sort_by(|a, b| a.0.total_cmp(&b.0));
             }
@@ -442,6 +506,7 @@ impl Protocol {
             lags,
             pulses,
             bath_lag,
+            unlisted_lag,
             edges,
         }
     }

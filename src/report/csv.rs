@@ -3,7 +3,9 @@
 //! `i_total_ua_per_cm2`, each species' current, the pump current, then every other state
 //! component (gates, lagged inputs, tracked concentrations), with a tracked volume
 //! `volume_rel` and `osm_in_mosm` (the inside amounts written as the concentrations they make,
-//! `inside_mm:<species>`), and in voltage clamp the command `v_command_mv` last. Also the one home of
+//! `inside_mm:<species>`) and after them the bath's osmolarity `osm_out_mosm` (which holds the
+//! solutes of a bath solution no species lists, so that input has no column of its own), and
+//! in voltage clamp the command `v_command_mv` last. Also the one home of
 //! CSV quoting ([`quote`]) and number formatting ([`push_number`], [`number`]) for every CSV the
 //! program writes.
 //!
@@ -178,15 +180,17 @@ pub fn header_of(model: &Model, trace: &Trace, columns: Columns) -> Vec<String> 
             None => h.extend(trace.names.iter().skip(1).cloned()),
             Some(_) => {
                 let co = model.conc_offset();
+                let unlisted = model.protocol.unlisted_lag.map(|l| model.lag_offset() + l);
                 for (i, name) in trace.names.iter().enumerate().skip(1) {
                     if (co..co + model.species_count()).contains(&i) {
                         h.push(format!("inside_mm:{}", model.species_names[i - co]));
-                    } else if model.volume_index() != Some(i) {
+                    } else if model.volume_index() != Some(i) && unlisted != Some(i) {
                         h.push(name.clone());
                     }
                 }
                 h.push("volume_rel".into());
                 h.push("osm_in_mosm".into());
+                h.push("osm_out_mosm".into());
             }
         }
     }
@@ -296,11 +300,12 @@ impl RowWriter {
                     Some(_) => {
                         let co = model.conc_offset();
                         let amounts = co..co + model.species_count();
+                        let unlisted = model.protocol.unlisted_lag.map(|l| model.lag_offset() + l);
                         for (i, &v) in self.y.iter().enumerate().skip(1) {
                             if amounts.contains(&i) {
                                 t.push(b',');
                                 push_number(t, self.readout.conditions.inside_mm[i - co]);
-                            } else if model.volume_index() != Some(i) {
+                            } else if model.volume_index() != Some(i) && unlisted != Some(i) {
                                 t.push(b',');
                                 push_number(t, v);
                             }
@@ -309,6 +314,8 @@ impl RowWriter {
                         push_number(t, self.readout.volume_rel);
                         t.push(b',');
                         push_number(t, self.readout.osm_in_mosm);
+                        t.push(b',');
+                        push_number(t, self.readout.osm_out_mosm);
                     }
                 }
             }

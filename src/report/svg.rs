@@ -1,12 +1,13 @@
 //! A printable figure of V(t) as SVG (plotters' SVG backend, no system fonts): the trace, each
-//! species' reversal potential as a labelled dashed line, the GHK potential, and the protocol's
-//! events marked on the time axis.
+//! species' reversal potential as a labelled dashed line (following the run where the species'
+//! concentrations change, as the window draws it), the GHK potential, and the protocol's events
+//! marked on the time axis.
 
 use plotters::prelude::*;
 
-use crate::analysis::decimate::decimate_min_max;
+use crate::analysis::decimate::{Envelope, decimate_min_max};
 use crate::analysis::rest_report;
-use crate::engine::EngineError;
+use crate::engine::{EngineError, Model, Readout, Trace};
 use crate::palette::{potential_rgb, species_rgb};
 use crate::scenario::{Event, Scenario, Valid, Wording};
 
@@ -30,6 +31,9 @@ pub struct Reversal {
     pub palette: usize,
     /// `None` where it is undefined (a concentration of 0).
     pub e_mv: Option<f64>,
+    /// `[t ms, E mV]` along the run, thinned, when the species' concentrations change in it
+    /// (a bath change, tracked inside concentrations); empty for a line that stays at `e_mv`.
+    pub along: Vec<[f64; 2]>,
 }
 
 /// An event as a labelled time span.
@@ -70,12 +74,100 @@ pub fn figure_for<'a>(s: &Valid, t_ms: &'a [f64], v_mv: &'a [f64]) -> Result<Fig
                 name: r.name.clone(),
                 palette: i,
                 e_mv: r.reversal_mv,
+                along: Vec::new(),
             })
             .collect(),
         ghk_mv: report.ghk_mv.ok(),
         events: event_spans(s),
         duration_ms: s.run.duration_ms,
     })
+}
+
+/// The moving reversal potentials of a run, gathered sample by sample as the run streams (the
+/// command line) or from values already computed (the window), each thinned like the trace.
+/// Every value comes from [`Model::reversal_mv`], the computation the window's plots draw.
+#[derive(Debug, Clone)]
+pub struct Tracks {
+    /// Per species: the thinned line, for a species whose concentrations change in the run.
+    lines: Vec<Option<Envelope>>,
+    readout: Readout,
+    y: Vec<f64>,
+    t: Vec<f64>,
+    e: Vec<Vec<f64>>,
+}
+
+impl Tracks {
+    /// Empty lines for each species of `model` whose concentrations change during a run of
+    /// `duration_ms`.
+    pub fn new(model: &Model, duration_ms: f64) -> Tracks {
+        let mut tracks = Tracks::of(&model.concentrations_vary(), duration_ms);
+        tracks.readout = model.readout();
+        tracks
+    }
+
+    /// Empty lines for the species marked in `varying` (in scenario order).
+    pub fn of(varying: &[bool], duration_ms: f64) -> Tracks {
+        Tracks {
+            lines: varying
+                .iter()
+                .map(|v| v.then(|| Envelope::new((0.0, duration_ms), TRACE_COLUMNS)))
+                .collect(),
+            readout: Readout::default(),
+            y: Vec::new(),
+            t: Vec::new(),
+            e: vec![Vec::new(); varying.len()],
+        }
+    }
+
+    /// Takes in every sample `trace` now holds (read once each: call it after each chunk of a
+    /// run, before the chunk is discarded).
+    pub fn extend(&mut self, model: &Model, trace: &Trace) {
+        if self.lines.iter().all(Option::is_none) {
+            return;
+        }
+        self.t.clear();
+        self.e.iter_mut().for_each(Vec::clear);
+        self.y.resize(trace.columns.len(), 0.0);
+        for k in 0..trace.len() {
+            trace.state(k, &mut self.y);
+            model.read(trace.t_ms[k], &self.y, &mut self.readout);
+            self.t.push(trace.t_ms[k]);
+            for (s, col) in self.e.iter_mut().enumerate() {
+                let e = match self.lines.get(s) {
+                    Some(Some(_)) => model.reversal_mv(s, &self.readout.conditions),
+                    _ => None,
+                };
+                col.push(e.unwrap_or(f64::NAN));
+            }
+        }
+        for (line, e) in self.lines.iter_mut().zip(&self.e) {
+            if let Some(line) = line {
+                line.extend(&self.t, e);
+            }
+        }
+    }
+
+    /// Takes in the reversal potential of species `s` at the times `t_ms` (not a number where
+    /// it is undefined), as the window keeps it.
+    pub fn extend_species(&mut self, s: usize, t_ms: &[f64], e_mv: &[f64]) {
+        if let Some(Some(line)) = self.lines.get_mut(s) {
+            line.extend(t_ms, e_mv);
+        }
+    }
+
+    /// Puts the lines into the figure: each moving species' line follows its values, and its
+    /// label reads the last one.
+    pub fn apply(&self, fig: &mut Figure) {
+        for (r, line) in fig.reversals.iter_mut().zip(&self.lines) {
+            let Some(line) = line else { continue };
+            let (t, e) = line.points();
+            if t.is_empty() {
+                continue;
+            }
+            r.along = t.into_iter().zip(e).map(|(t, e)| [t, e]).collect();
+            r.e_mv = r.along.last().map(|p| p[1]);
+        }
+    }
 }
 
 /// Events of a scenario as labelled time spans, clipped to the run (a bath change marks only
@@ -133,6 +225,9 @@ struct Level {
     color: RGBColor,
     /// Long dashes for a species, short ones for the GHK potential.
     long_dashes: bool,
+    /// Where a moving line goes, `(t ms, mV)` in time order; it stays at its last value (`y`)
+    /// to the end of the axis. Empty for a line at `y` throughout.
+    along: Vec<(f64, f64)>,
 }
 
 fn draw<DB: DrawingBackend>(
@@ -147,7 +242,14 @@ fn draw<DB: DrawingBackend>(
     let mut lo = fig.v_mv.iter().copied().fold(f64::INFINITY, f64::min);
     let mut hi = fig.v_mv.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     // Reversal lines within a plausible window widen the axis; far-off ones are labelled at the edge.
-    for v in fig.reversals.iter().filter_map(|r| r.e_mv).chain(fig.ghk_mv) {
+    let moving = fig.reversals.iter().flat_map(|r| r.along.iter().map(|p| p[1]));
+    for v in fig
+        .reversals
+        .iter()
+        .filter_map(|r| r.e_mv)
+        .chain(fig.ghk_mv)
+        .chain(moving)
+    {
         if v.abs() <= 200.0 {
             lo = lo.min(v);
             hi = hi.max(v);
@@ -211,6 +313,11 @@ fn draw<DB: DrawingBackend>(
             note,
             color: rgb(species_rgb(r.palette)),
             long_dashes: true,
+            along: r
+                .along
+                .iter()
+                .map(|p| (p[0].clamp(0.0, t_end), p[1].clamp(lo, hi)))
+                .collect(),
         });
     }
     if let Some(g) = fig.ghk_mv.filter(|g| *g > lo && *g < hi) {
@@ -220,6 +327,7 @@ fn draw<DB: DrawingBackend>(
             note: format!("GHK {g:.1} mV"),
             color: RGBColor(110, 110, 110),
             long_dashes: false,
+            along: Vec::new(),
         });
     }
     lines.sort_by(|a, b| a.y.total_cmp(&b.y));
@@ -231,8 +339,16 @@ fn draw<DB: DrawingBackend>(
     }
     for line in &lines {
         let (dash, space, width) = if line.long_dashes { (8, 5, 2) } else { (3, 4, 1) };
+        // A moving line starts at its first sample and, past its last, goes on at its last
+        // value, so that it spans the whole time axis as the window draws it.
+        let mut path = line.along.clone();
+        match path.last() {
+            Some(&(t, e)) if t < t_end => path.push((t_end, e)),
+            Some(_) => {}
+            None => path = vec![(0.0, line.y), (t_end, line.y)],
+        }
         chart.draw_series(DashedLineSeries::new(
-            [(0.0, line.y), (t_end, line.y)],
+            path,
             dash,
             space,
             line.color.stroke_width(width),

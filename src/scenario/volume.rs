@@ -19,29 +19,80 @@ pub struct Solute {
     pub derived: bool,
 }
 
-/// Every species' outside concentration in force at t = 0, mM: its latest bath change at 0 ms
-/// (a later one in the file wins a tie, as in the engine), else the file's value.
+/// The bath changes of `s` in force at t = 0, in the engine's order: by time, a later entry
+/// of the file winning a tie. Each is `(protocol index, at ms)`.
+fn changes_at_start(s: &Scenario) -> Vec<(usize, f64)> {
+    let mut at: Vec<(usize, f64)> = s
+        .protocol
+        .iter()
+        .enumerate()
+        .filter_map(|(i, e)| match e {
+            Event::BathChange { at_ms, .. } | Event::BathExchange { at_ms, .. } if *at_ms <= 0.0 => {
+                Some((i, *at_ms))
+            }
+            _ => None,
+        })
+        .collect();
+    // Stable: equal times keep file order, and the later one wins.
+    at.sort_by(|a, b| a.1.total_cmp(&b.1));
+    at
+}
+
+/// Every species' outside concentration in force at t = 0, mM: its latest bath change or bath
+/// exchange at or before 0 ms (a later one in the file wins a tie, as in the engine), else the
+/// file's value (the `outside` solution's, when one is named).
 pub fn outside_at_start(s: &Scenario) -> Vec<f64> {
     let mut out: Vec<f64> = s.species.iter().map(|x| x.outside_mm).collect();
-    for e in &s.protocol {
-        if let Event::BathChange {
-            species,
-            outside_mm,
-            at_ms,
-            ..
-        } = e
-            && *at_ms <= 0.0
-            && let Some(i) = s.species_index(species)
-        {
-            out[i] = *outside_mm;
+    let mut plan = None;
+    for (i, _) in changes_at_start(s) {
+        match &s.protocol[i] {
+            Event::BathChange {
+                species, outside_mm, ..
+            } => {
+                if let Some(k) = s.species_index(species) {
+                    out[k] = *outside_mm;
+                }
+            }
+            Event::BathExchange { solution, .. } => {
+                let plan = plan.get_or_insert_with(|| crate::solutions::plan(s));
+                for (k, sp) in s.species.iter().enumerate() {
+                    out[k] = plan.value_of(s, solution, &sp.name);
+                }
+            }
+            _ => {}
         }
     }
     out
 }
 
-/// Total osmolarity of the bath at t = 0, mOsm (ideal: the sum of its concentrations).
+/// The solution the bath is at t = 0: the latest bath exchange at or before 0 ms, else the
+/// `outside` solution; `None` when the bath is only the species' own numbers.
+pub fn bath_solution_at_start(s: &Scenario) -> Option<&str> {
+    let exchanged = changes_at_start(s)
+        .into_iter()
+        .rev()
+        .find_map(|(i, _)| match &s.protocol[i] {
+            Event::BathExchange { solution, .. } => Some(solution.as_str()),
+            _ => None,
+        });
+    exchanged.or(s.outside.as_deref())
+}
+
+/// Whether the bath of a run of `s` is ever a solution (so its unlisted solutes count for
+/// the bath's osmolarity).
+pub fn bath_uses_solutions(s: &Scenario) -> bool {
+    s.outside.is_some() || s.protocol.iter().any(|e| matches!(e, Event::BathExchange { .. }))
+}
+
+/// Total osmolarity of the bath at t = 0, mOsm (ideal: the sum of all its particles'
+/// concentrations, solutions.md): the species' outside values and, where the bath is a
+/// solution, the solutes no species lists (sucrose, gluconate, a buffer). A bath change of a
+/// single species at t ≤ 0 changes that species' share only.
 pub fn outside_osmolarity_at_start(s: &Scenario) -> f64 {
-    outside_at_start(s).iter().sum()
+    let listed: f64 = outside_at_start(s).iter().sum();
+    let unlisted =
+        bath_solution_at_start(s).map_or(0.0, |name| crate::solutions::plan(s).unlisted_mosm(s, name));
+    listed + unlisted
 }
 
 /// The impermeant solute of a tracked cell (`None` for a fixed volume), or why no such solute
@@ -93,6 +144,7 @@ pub fn problems(s: &Scenario, out: &mut Vec<Problem>) {
             Event::BathChange {
                 outside_mm, at_ms, ..
             } => finite(*outside_mm) && finite(*at_ms),
+            Event::BathExchange { at_ms, .. } => finite(*at_ms),
             _ => true,
         });
     if !concentrations_finite {

@@ -75,6 +75,18 @@ impl Plan {
         })
     }
 
+    /// The osmolarity of the solution `name` that no species' value carries, mOsm: its
+    /// neutral solutes (sucrose, glucose, a buffer's neutral part) and the ions no species
+    /// lists, plus what activities take off the listed ones. With it, the species' values add
+    /// up to the solution's ideal osmolarity (solutions.md). 0 for a name that does not resolve.
+    pub fn unlisted_mosm(&self, s: &Scenario, name: &str) -> f64 {
+        let Some(m) = self.mixture(s, name) else {
+            return 0.0;
+        };
+        let listed: f64 = s.species.iter().map(|sp| self.value_of(s, name, &sp.name)).sum();
+        m.checks().osmolarity_mosm - listed
+    }
+
     /// One junction of `pipette` against `bath` (names of solutions of `s`).
     pub fn junction(&self, s: &Scenario, pipette: &str, bath: &str) -> Option<Junction> {
         let start = self.mixture(s, s.outside.as_deref()?)?;

@@ -111,6 +111,7 @@ impl Kept {
     /// The metrics table as CSV (`analysis::metrics::metrics_csv`), traces without samples left out.
     pub fn metrics_csv(&self) -> String {
         let mut rows = Vec::new();
+        let mut volumes = Vec::new();
         let mut baseline = None;
         for (i, t) in self.traces.iter().enumerate() {
             if let Some(m) = t.metrics {
@@ -118,9 +119,11 @@ impl Kept {
                     baseline = Some(rows.len());
                 }
                 rows.push((t.name.clone(), m));
+                volumes.push(t.volume);
             }
         }
-        crate::analysis::metrics::metrics_csv(&rows, baseline)
+        let csv = crate::analysis::metrics::metrics_csv(&rows, baseline);
+        crate::analysis::metrics::with_volume_columns(&csv, &volumes, baseline)
     }
 }
 

@@ -280,6 +280,8 @@ impl App {
             scenario: self.doc.scenario(),
             t_ms,
             v_mv,
+            reversal_mv: &self.runtime.derived.reversal_mv,
+            varying: &self.runtime.derived.varying,
             kept: self
                 .analysis
                 .kept

@@ -373,6 +373,11 @@ impl App {
         self.plots.reversal_spans()
     }
 
+    /// The lower plot's axis title as last drawn: the quantity shown and its unit.
+    pub fn lower_plot_title(&self) -> &'static str {
+        self.plots.lower_title()
+    }
+
     /// The time range (ms) the plots showed in the last frame.
     pub fn plot_t_ms(&self) -> Option<(f64, f64)> {
         self.plots.shown_t_ms()

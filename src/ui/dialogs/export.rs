@@ -93,6 +93,11 @@ pub struct Shown<'a> {
     pub scenario: &'a Valid,
     pub t_ms: &'a [f64],
     pub v_mv: &'a [f64],
+    /// Each species' reversal potential at each shown sample (mV, not a number where it is
+    /// undefined), for the species whose concentrations change in the run (`varying`); the
+    /// window's plots draw the same values.
+    pub reversal_mv: &'a [Vec<f64>],
+    pub varying: &'a [bool],
     /// The kept traces, exported with the current one.
     pub kept: Vec<csv::NamedTrace<'a>>,
     /// The metrics table of the kept traces as CSV.
@@ -102,6 +107,12 @@ pub struct Shown<'a> {
 /// The SVG figure of the shown trace.
 pub fn svg_text(shown: &Shown) -> Result<String, String> {
     let mut fig = svg::figure_for(shown.scenario, shown.t_ms, shown.v_mv).map_err(|e| e.to_string())?;
+    let mut tracks = svg::Tracks::of(shown.varying, shown.scenario.run.duration_ms);
+    for (s, col) in shown.reversal_mv.iter().enumerate() {
+        let n = col.len().min(shown.t_ms.len());
+        tracks.extend_species(s, &shown.t_ms[..n], &col[..n]);
+    }
+    tracks.apply(&mut fig);
     if fig.title.trim().is_empty() {
         fig.title = "untitled".into();
     }

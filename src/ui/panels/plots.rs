@@ -127,6 +127,8 @@ pub struct Plots {
     shown_t_ms: Option<(f64, f64)>,
     /// Each reversal line as last drawn: its name and the time span (ms) it covers.
     reversal_spans: Vec<(String, f64, f64)>,
+    /// The lower plot's axis title as last drawn.
+    lower_title: &'static str,
 }
 
 /// The decimated points of one line, reusing its decimator while the view is unchanged.
@@ -236,8 +238,9 @@ impl Plots {
             LowerPlot::Permeabilities => ("log₁₀ permeability (cm/s)", None),
             LowerPlot::Gates => ("Open fraction", Some((-0.02, 1.02))),
             LowerPlot::Volume => ("Volume (relative to start)", None),
-            LowerPlot::Osmolarity => ("Osmolarity (mOsm)", None),
+            LowerPlot::Osmolarity => ("Osmolarity (mOsm/L)", None),
         };
+        self.lower_title = y_label;
         let mut lower = Plot::new(("lower plot", view as u8))
             .height(ui.available_height().max(80.0))
             .default_x_bounds(0.0, duration)
@@ -287,6 +290,11 @@ impl Plots {
     /// Each reversal line as last drawn: its name ("E K+") and the time span (ms) it covers.
     pub fn reversal_spans(&self) -> &[(String, f64, f64)] {
         &self.reversal_spans
+    }
+
+    /// The lower plot's axis title as last drawn (its quantity and unit).
+    pub fn lower_title(&self) -> &'static str {
+        self.lower_title
     }
 
     /// The time range (ms) the plots showed last.

@@ -93,17 +93,13 @@ impl Derived {
             self.inject_ua_per_cm2.push(c.inject_ua_per_cm2);
             self.volume_rel.push(r.volume_rel);
             self.osm_in_mosm.push(r.osm_in_mosm);
-            self.osm_out_mosm.push(r.conditions.outside_mm.iter().sum());
+            self.osm_out_mosm.push(r.osm_out_mosm);
             self.clamp_ua_per_cm2.push(c.clamp_ua_per_cm2);
             self.command_mv.push(c.command_mv);
             if any_varying {
-                let (inside, outside) = (&r.conditions.inside_mm, &r.conditions.outside_mm);
-                let t_c = model.membrane.temperature_c;
                 for (s, col) in self.reversal_mv.iter_mut().enumerate() {
-                    let e = match (varying.get(s), model.membrane.ions.get(s)) {
-                        (Some(true), Some(ion)) => {
-                            crate::physics::nernst_mv(ion.charge, inside[s], outside[s], t_c)
-                        }
+                    let e = match varying.get(s) {
+                        Some(true) => model.reversal_mv(s, &r.conditions),
                         _ => None,
                     };
                     col.push(e.unwrap_or(f64::NAN));
