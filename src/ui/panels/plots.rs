@@ -719,10 +719,11 @@ fn volume_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input:
 fn osmolarity_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
     let dark = pui.ctx().global_style().visuals.dark_mode;
     let d = input.derived;
+    // Dashed as well as grey: in the dark theme both lines are light.
     if let Some(line) = series(lines, pui, input, &d.osm_out_mosm, "bath".into())
         .map(|l| l.color(neutral_color(dark)).width(3.0))
     {
-        pui.line(line);
+        pui.line(line.style(LineStyle::dashed_loose()));
     }
     if let Some(line) = series(lines, pui, input, &d.osm_in_mosm, "inside".into())
         .map(|l| l.color(potential_color(dark)).width(2.0))
