@@ -301,6 +301,19 @@ pub fn trace_metrics(
     first_event_ms: Option<f64>,
     spikes: SpikeSettings,
 ) -> Result<TraceMetrics, MetricsError> {
+    metrics_with(t_ms, v_mv, first_event_ms, spikes, Some(MIN_CHANGE_MV))
+}
+
+/// [`trace_metrics`] with the smallest change that has a half time, and whether a transient's
+/// half time is left out (`Some`: a potential, in mV), or any change above rounding counts and
+/// a transient keeps its half time (`None`: another quantity, such as the relative volume).
+fn metrics_with(
+    t_ms: &[f64],
+    v_mv: &[f64],
+    first_event_ms: Option<f64>,
+    spikes: SpikeSettings,
+    min_change: Option<f64>,
+) -> Result<TraceMetrics, MetricsError> {
     if t_ms.len() != v_mv.len() {
         return Err(MetricsError::LengthMismatch {
             t: t_ms.len(),
@@ -341,7 +354,11 @@ pub fn trace_metrics(
     } else {
         final_mv - v_mv[trough_k]
     };
-    let half_change_ms = if change.abs() >= MIN_CHANGE_MV && overshoot <= 0.5 * change.abs() {
+    let settled = match min_change {
+        Some(least) => change.abs() >= least && overshoot <= 0.5 * change.abs(),
+        None => change.abs() > 1e-9,
+    };
+    let half_change_ms = if settled {
         let target = before_first_event_mv + 0.5 * change;
         let beyond = |v: f64| if change > 0.0 { v >= target } else { v <= target };
         (k0 + 1..v_mv.len()).find(|&k| beyond(v_mv[k])).map(|k| {
@@ -405,11 +422,12 @@ pub fn volume_metrics(
     first_event_ms: Option<f64>,
 ) -> Option<VolumeMetrics> {
     let n = t_ms.len().min(volume_rel.len());
-    let m = trace_metrics(
+    let m = metrics_with(
         &t_ms[..n],
         &volume_rel[..n],
         first_event_ms,
         SpikeSettings::default(),
+        None,
     )
     .ok()?;
     Some(VolumeMetrics {
@@ -888,6 +906,27 @@ mod tests {
             },
         );
         assert_eq!(staying.washout_half_ms, Err(Blank::NoWashout));
+    }
+
+    /// A relative volume relaxing from 1 to 1.05 after an event at 10 ms with τ = 50 ms: half
+    /// its change after τ·ln 2 (exact, common practice), though the change is far below the
+    /// 0.1 of a potential's threshold, which is in mV and does not apply to a volume.
+    #[test]
+    fn a_small_volume_change_has_its_half_time() {
+        let t = grid(100_001, 0.01);
+        let w: Vec<f64> = t
+            .iter()
+            .map(|&t| {
+                if t < 10.0 {
+                    1.0
+                } else {
+                    1.05 - 0.05 * (-(t - 10.0) / 50.0).exp()
+                }
+            })
+            .collect();
+        let m = volume_metrics(&t, &w, Some(10.0)).expect("volume metrics");
+        let half = m.half_change_ms.expect("a half time");
+        assert!((half - 50.0 * std::f64::consts::LN_2).abs() < 1e-3, "{half}");
     }
 
     #[test]

@@ -244,13 +244,12 @@ fn cell_text(value: Cell, delta: Option<Cell>, count: bool) -> (String, Option<S
         None => {}
         Some(Ok(d)) if count => text += &format!("  (Δ {d:+.0})"),
         Some(Ok(d)) => text += &format!("  (Δ {d:+.2})"),
-        // An own blank already says why; a blank difference of a value says its own reason.
-        Some(Err(b)) => {
-            if value.is_ok() {
-                text += "  (Δ —)";
-                why.push(format!("Δ: {}", b.reason()));
-            }
+        // A blank value already says why; a blank difference of a value says its own reason.
+        Some(Err(b)) if value.is_ok() => {
+            text += "  (Δ —)";
+            why.push(format!("Δ: {}", b.reason()));
         }
+        Some(Err(_)) => {}
     }
     let why = (!why.is_empty()).then(|| {
         let mut s = why.join("; ");

@@ -683,16 +683,19 @@ fn potential_items(
 }
 
 /// The names of the visible kept traces (and of the run they are drawn over) in a box at the
-/// upper plot's top left, in the window and in the exported picture alike.
+/// upper plot's top left, under the event labels, in the window and in the exported picture alike.
 fn kept_legend(ui: &mut Ui, plot: egui::Rect, kept: &[KeptTrace]) {
     if !kept.iter().any(|k| k.visible) {
         return;
     }
     let dark = ui.visuals().dark_mode;
+    // Below the first row of event labels, which sit at the plot's top.
+    let mut area = plot.shrink(6.0);
+    area.min.y += 1.6 * ui.text_style_height(&egui::TextStyle::Body);
     let mut child = ui.new_child(
         egui::UiBuilder::new()
             .id_salt("kept legend")
-            .max_rect(plot.shrink(6.0))
+            .max_rect(area)
             .layout(egui::Layout::top_down(egui::Align::Min)),
     );
     egui::Frame::popup(child.style())
