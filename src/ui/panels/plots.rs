@@ -706,13 +706,19 @@ fn kept_legend(ui: &mut Ui, plot: egui::Rect, kept: &[KeptTrace]) {
                     .filter(|k| k.visible)
                     .map(|k| (k.name.as_str(), k.color)),
             );
+            // A narrow plot (large text at 1280×720) keeps most of its width for the traces.
+            let style = if plot.width() < 480.0 {
+                egui::TextStyle::Small
+            } else {
+                egui::TextStyle::Body
+            };
             for (name, color) in entries {
                 ui.horizontal(|ui| {
-                    let h = ui.text_style_height(&egui::TextStyle::Body);
+                    let h = ui.text_style_height(&style);
                     let (r, _) = ui.allocate_exact_size(egui::vec2(1.5 * h, h), egui::Sense::hover());
                     ui.painter()
                         .hline(r.x_range(), r.center().y, egui::Stroke::new(2.0, color));
-                    ui.label(name);
+                    ui.label(RichText::new(name).text_style(style.clone()));
                 });
             }
         });
