@@ -38,7 +38,7 @@ const ROUND_TRIP_RELATIVE: f64 = 1e-5;
 /// charging with one time constant holds to that.
 const LINEARITY: f64 = 0.02;
 use permeant::analysis::fit::{DataError, DataPoint, FitError, FitSpace, fit, parse_points};
-use permeant::analysis::metrics::{SpikeSettings, dose_response, first_event_ms, trace_metrics};
+use permeant::analysis::metrics::{SpikeSettings, dose_response, first_event_ms, run_metrics, trace_metrics};
 use permeant::analysis::rest_report;
 use permeant::analysis::scan::{
     ScanControl, ScanError, ScanPoint, ScanRange, Vary, nernst_line, scan, scan_point,
@@ -994,4 +994,90 @@ fn an_openers_dose_response_follows_ghk_with_the_opened_permeability() {
     for (a, b) in scanned.iter().zip(&dr.points) {
         assert_eq!(a.resting_mv, b.resting_mv);
     }
+}
+
+/// A K+ blocker with first-order onset and washout lags on a passive membrane of small
+/// capacitance (so the potential sits at its GHK value at every moment, behind it only by the
+/// membrane's own time constant C/G): the run's effect at steady state is the GHK potential with
+/// the blocked permeability minus the control's (the Hill equation, Hill 1910, for the block;
+/// the GHK voltage equation, Goldman 1943, Hodgkin & Katz 1949), and the half times follow by
+/// hand: the potential halfway, the P_K that gives it (the GHK equation solved for P_K), the
+/// dose that blocks that much, and the time each lag takes to reach that dose (model.md's
+/// first-order lag of the dose).
+#[test]
+fn an_agents_effect_and_half_times_follow_the_ghk_equation_and_its_lags() {
+    let (dose, ic50, max_block, tau_on, tau_off) = (10.0, 2.0, 0.9, 30.0, 60.0);
+    let (from, until) = (50.0, 350.0);
+    let mut s = passive(37.0, 0.04, 0.2);
+    s.cell.capacitance_uf_per_cm2 = 0.01;
+    s.protocol = vec![Event::Agent {
+        label: "K blocker".into(),
+        species: "K+".into(),
+        target: Default::default(),
+        max_block,
+        max_increase: None,
+        ic50_um: ic50,
+        hill: 1.0,
+        dose_um: dose,
+        from_ms: from,
+        until_ms: Some(until),
+        onset_ms: tau_on,
+        washout_ms: tau_off,
+    }];
+    s.run.duration_ms = 900.0;
+    s.run.sample_ms = 0.05;
+    let mut run = Run::new(&valid(&s), SolverSettings::default()).expect("run");
+    run.run_to_end().expect("runs");
+    let tr = run.trace();
+    let m = run_metrics(&s, &tr.t_ms, tr.v_mv(), SpikeSettings::default()).expect("metrics");
+    let a = m.agent.expect("an acting agent");
+
+    let cell = ions(&s);
+    let control = ghk_voltage_mv(&cell, 37.0);
+    let blocked = |b: f64| {
+        let mut c = cell.clone();
+        c[0].p_cm_per_s *= 1.0 - b;
+        ghk_voltage_mv(&c, 37.0)
+    };
+    // Ten onset time constants: the lagged dose is within e^-10 of its value.
+    let steady = blocked(reference::fraction_blocked(
+        max_block,
+        ic50,
+        1.0,
+        dose * (1.0 - (-10f64).exp()),
+    ));
+    let effect = a.effect_mv.expect("an effect");
+    assert!(
+        (effect - (steady - control)).abs() < ACCURACY_MV,
+        "effect {effect} mV, by hand {} mV",
+        steady - control
+    );
+    // Halfway: x = e^{V/(RT/F)} = (P_K K_o + B)/(P_K K_i + A), so P_K = (B − xA)/(x K_i − K_o),
+    // with A = P_Na Na_i + P_Cl Cl_o and B = P_Na Na_o + P_Cl Cl_i.
+    let half_mv = control + 0.5 * effect;
+    let x = (half_mv / reference::rt_over_f_mv(37.0)).exp();
+    let (k, na, cl) = (&cell[0], &cell[1], &cell[2]);
+    let big_a = na.p_cm_per_s * na.inside_mm + cl.p_cm_per_s * cl.outside_mm;
+    let big_b = na.p_cm_per_s * na.outside_mm + cl.p_cm_per_s * cl.inside_mm;
+    let pk_half = (big_b - x * big_a) / (x * k.inside_mm - k.outside_mm);
+    let b_half = 1.0 - pk_half / k.p_cm_per_s;
+    let d_half = ic50 * b_half / (max_block - b_half);
+    let onset_ms = -tau_on * (1.0 - d_half / dose).ln();
+    let d_end = dose * (1.0 - (-(until - from) / tau_on).exp());
+    let washout_ms = tau_off * (d_end / d_half).ln();
+    // The membrane's own time constant at rest, C/G (common practice), delays the potential
+    // behind its GHK value; a sample interval bounds where a crossing is read.
+    let tau_m = s.cell.capacitance_uf_per_cm2 / slope_conductance_ms_per_cm2(&cell, 37.0, control);
+    let tolerance = 2.0 * tau_m + s.run.sample_ms;
+    assert!(tau_m < 0.1, "test setup: the membrane is fast, τ {tau_m} ms");
+    let got = a.onset_half_ms.expect("onset half time");
+    assert!(
+        (got - onset_ms).abs() < tolerance,
+        "onset {got} ms, by hand {onset_ms} ms"
+    );
+    let got = a.washout_half_ms.expect("washout half time");
+    assert!(
+        (got - washout_ms).abs() < tolerance,
+        "washout {got} ms, by hand {washout_ms} ms"
+    );
 }

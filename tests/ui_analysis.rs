@@ -9,6 +9,7 @@ use egui_kittest::kittest::{NodeT, Queryable};
 mod common;
 use common::reference::{ghk_voltage_mv, nernst_slope_mv_per_decade};
 use permeant::analysis::fit::FitSpace;
+use permeant::analysis::metrics::COMPARED;
 use permeant::analysis::scan::{ScanControl, ScanRange, Vary, scan};
 use permeant::scenario::Scenario;
 use permeant::ui::analysis::{AnalysisCommand, AnalysisTab, ScanForm};
@@ -75,14 +76,24 @@ fn keep_trace_adds_a_kept_trace_whose_final_potential_is_in_the_table() {
     h.run_steps(2);
     assert_eq!(h.state().analysis().kept.traces.len(), 2);
     assert_eq!(h.state().analysis().kept.baseline, Some(0));
-    // One difference per metric.
-    assert_eq!(h.query_all_by_label_contains("(Δ ").count(), 10);
-    // Deleting goes through the same commands as the panel.
+    // One difference per compared metric that the second trace has (times of extremes are not
+    // compared; a blank has no difference).
+    let second = h.state().analysis().kept.traces[1].metrics.expect("metrics");
+    let compared = second
+        .cells()
+        .iter()
+        .zip(COMPARED)
+        .filter(|(c, on)| c.is_ok() && *on)
+        .count();
+    assert!(compared >= 8, "{compared}");
+    assert_eq!(h.query_all_by_label_contains("(Δ ").count(), compared);
+    // Deleting goes through the same commands as the panel; the first kept run left is then
+    // the baseline.
     h.state_mut()
         .queue(Command::Analysis(AnalysisCommand::DeleteKept(0)));
     h.run_steps(2);
     assert_eq!(h.state().analysis().kept.traces.len(), 1);
-    assert_eq!(h.state().analysis().kept.baseline, None);
+    assert_eq!(h.state().analysis().kept.baseline, Some(0));
 }
 
 #[test]

@@ -378,6 +378,17 @@ pub fn scan_point(s: &Scenario, vary: &Vary, value: f64) -> Result<ScanPoint, Sc
     })
 }
 
+/// `value,ghk_mv,resting_mv` rows (`permeant scan --csv` and the window's export): shortest
+/// round-trip numbers, an empty cell where a potential is undefined.
+pub fn scan_csv(points: &[ScanPoint]) -> String {
+    let cell = |x: Option<f64>| x.map_or(String::new(), |v| format!("{v}"));
+    let mut o = String::from("value,ghk_mv,resting_mv\n");
+    for p in points {
+        o += &format!("{},{},{}\n", p.value, cell(p.ghk_mv), cell(p.resting_mv));
+    }
+    o
+}
+
 /// Runs a scan on the current rayon pool (every core by default).
 ///
 /// Both ends of the range are validated first: every check on a scenario value is a bound, so

@@ -7,7 +7,7 @@ use serde::Serialize;
 
 use super::output::{optional_csv, write_csv};
 use super::readable;
-use crate::analysis::scan::{NernstLine, ScanPoint, ScanRange, Vary, nernst_line, scan};
+use crate::analysis::scan::{NernstLine, ScanPoint, ScanRange, Vary, nernst_line, scan, scan_csv};
 use crate::physics::Undefined;
 
 #[derive(Debug, clap::Args)]
@@ -113,7 +113,7 @@ pub fn run(a: Args) -> anyhow::Result<()> {
 
     report_undefined(&vary, &points);
     if let Some(out) = &csv_out {
-        write_csv(out, &csv(&points))?;
+        write_csv(out, &scan_csv(&points))?;
     }
     if a.json {
         let j = ScanJson {
@@ -165,19 +165,6 @@ fn report_undefined(vary: &Vary, points: &[ScanPoint]) {
             ));
         }
     }
-}
-
-fn cell(x: Option<f64>) -> String {
-    x.map_or(String::new(), |v| format!("{v}"))
-}
-
-/// `value,ghk_mv,resting_mv` rows; shortest round-trip numbers, an empty cell where undefined.
-pub fn csv(points: &[ScanPoint]) -> String {
-    let mut o = String::from("value,ghk_mv,resting_mv\n");
-    for p in points {
-        o += &format!("{},{},{}\n", p.value, cell(p.ghk_mv), cell(p.resting_mv));
-    }
-    o
 }
 
 fn mv(x: Option<f64>) -> String {
@@ -243,7 +230,7 @@ mod tests {
             ghk_undefined: ghk_mv.is_none().then_some(Undefined::AlwaysOutward),
             resting_undefined: resting_mv.is_none().then_some(Undefined::AlwaysOutward),
         };
-        let text = csv(&[p(0.1, Some(-70.25), Some(-71.0)), p(0.0, None, None)]);
+        let text = scan_csv(&[p(0.1, Some(-70.25), Some(-71.0)), p(0.0, None, None)]);
         assert_eq!(text, "value,ghk_mv,resting_mv\n0.1,-70.25,-71\n0,,\n");
         assert_eq!(readable(1.2589254117941673), "1.25893");
         assert_eq!(readable(150.0), "150");

@@ -220,6 +220,9 @@ pub enum Edit {
     },
     /// Use activities (Davies) instead of concentrations.
     Activities(bool),
+    /// Set the resting permeability (cm/s) of several species at once, by species name: a
+    /// fit's ratios applied to the cell, as one step.
+    Permeabilities(Vec<(String, f64)>),
 }
 
 impl Edit {
@@ -287,6 +290,13 @@ impl Edit {
                 }
             }
             Edit::Activities(on) => s.activities = *on,
+            Edit::Permeabilities(set) => {
+                for (name, p_cm_per_s) in set {
+                    if let Some(i) = s.species_index(name) {
+                        s.species[i].permeability_cm_per_s = *p_cm_per_s;
+                    }
+                }
+            }
             Edit::Start(start) => s.run.start = *start,
             Edit::Mode(mode) => {
                 let clamp = !mode.is_current_clamp();

@@ -1,6 +1,8 @@
 //! The "Fit" tab of the analysis window: measured points (value, potential) from a CSV file,
 //! the varied input, which species' permeabilities are free relative to the first species,
-//! and the fitted ratios with standard errors, the residuals, and data against fitted curve.
+//! and the fitted ratios with standard errors, the residuals (points numbered 1..n, each with
+//! its row in the file), data against fitted curve, and applying the fitted permeabilities to
+//! the cell as one undoable edit.
 
 use std::path::{Path, PathBuf};
 
@@ -9,8 +11,8 @@ use egui_plot::{Line, PlotPoints, Points};
 
 use crate::analysis::fit::{DataPoint, FitResult, FitSpace, fit, read_points};
 use crate::analysis::scan::{ScanControl, ScanPoint, ScanRange, Vary, scan};
-use crate::scenario::Scenario;
-use crate::ui::analysis::{AnalysisCommand, plot_x, potential_plot, short, vary_picker};
+use crate::scenario::{Edit, Scenario};
+use crate::ui::analysis::{AnalysisCommand, PlotView, plot_x, short, vary_picker};
 use crate::ui::command::Command;
 use crate::ui::theme::{potential_color, species_color};
 
@@ -132,7 +134,14 @@ impl FitForm {
     }
 }
 
-pub fn show(ui: &mut Ui, form: &mut FitForm, s: &Scenario, busy: bool, commands: &mut Vec<Command>) {
+pub fn show(
+    ui: &mut Ui,
+    form: &mut FitForm,
+    s: &Scenario,
+    busy: bool,
+    view: &mut PlotView,
+    commands: &mut Vec<Command>,
+) {
     let cmd = |c: AnalysisCommand| Command::Analysis(c);
     ui.horizontal(|ui| {
         if ui
@@ -190,11 +199,19 @@ pub fn show(ui: &mut Ui, form: &mut FitForm, s: &Scenario, busy: bool, commands:
         Some(Err(e)) => {
             ui.label(RichText::new(format!("Fit failed: {e}")).color(ui.visuals().error_fg_color));
         }
-        Some(Ok(out)) => result_view(ui, out),
+        Some(Ok(out)) => result_view(ui, out, s, view, commands),
     }
 }
 
-fn result_view(ui: &mut Ui, out: &FitOutput) {
+/// Whether `s` already holds the fitted permeabilities.
+fn applied(s: &Scenario, out: &FitOutput) -> bool {
+    out.result.ratios.iter().all(|f| {
+        s.species_index(&f.name)
+            .is_some_and(|i| s.species[i].permeability_cm_per_s == f.p_cm_per_s)
+    })
+}
+
+fn result_view(ui: &mut Ui, out: &FitOutput, s: &Scenario, view: &mut PlotView, commands: &mut Vec<Command>) {
     let r = &out.result;
     ui.add_space(4.0);
     egui::Grid::new("fit ratios")
@@ -214,12 +231,37 @@ fn result_view(ui: &mut Ui, out: &FitOutput) {
                 ui.end_row();
             }
         });
-    ui.label(format!(
-        "RMS residual {:.3} mV over {} points ({} degrees of freedom)",
-        r.rms_residual_mv,
-        r.residuals.len(),
-        r.degrees_of_freedom
-    ));
+    ui.horizontal_wrapped(|ui| {
+        let done = applied(s, out);
+        let text = if done {
+            "Applied to the cell"
+        } else {
+            "Apply to the cell"
+        };
+        if ui
+            .add_enabled(!done, egui::Button::new(text))
+            .on_hover_text(format!(
+                "Set the cell's permeabilities of {} to the fitted values ({} unchanged); one undo step",
+                r.ratios
+                    .iter()
+                    .map(|f| f.name.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", "),
+                r.reference
+            ))
+            .clicked()
+        {
+            commands.push(Command::Edit(Edit::Permeabilities(
+                r.ratios.iter().map(|f| (f.name.clone(), f.p_cm_per_s)).collect(),
+            )));
+        }
+        ui.label(format!(
+            "RMS residual {:.3} mV over {} points ({} degrees of freedom)",
+            r.rms_residual_mv,
+            r.residuals.len(),
+            r.degrees_of_freedom
+        ));
+    });
     ui.columns(2, |cols| {
         egui::ScrollArea::vertical()
             .id_salt("residuals")
@@ -229,12 +271,15 @@ fn result_view(ui: &mut Ui, out: &FitOutput) {
                     .striped(true)
                     .spacing([10.0, 2.0])
                     .show(ui, |ui| {
-                        ui.label(RichText::new("Row").strong());
+                        ui.label(RichText::new("Point").strong());
+                        ui.label(RichText::new("File row").strong())
+                            .on_hover_text("The line of the file the point was read from, counting a header");
                         ui.label(RichText::new(out.vary.label()).strong());
                         ui.label(RichText::new("Measured (mV)").strong());
                         ui.label(RichText::new("Residual (mV)").strong());
                         ui.end_row();
-                        for x in &r.residuals {
+                        for (k, x) in r.residuals.iter().enumerate() {
+                            ui.label((k + 1).to_string());
                             ui.label(x.row.to_string());
                             ui.label(short(x.value));
                             ui.label(format!("{:.2}", x.measured_mv));
@@ -246,24 +291,25 @@ fn result_view(ui: &mut Ui, out: &FitOutput) {
         let ui = &mut cols[1];
         let dark = ui.visuals().dark_mode;
         let log = out.log;
-        let height = ui.available_height().max(180.0);
-        potential_plot("fit plot", out.vary.label(), log, height).show(ui, |pui| {
-            let curve: Vec<[f64; 2]> = out
-                .curve
-                .iter()
-                .filter_map(|p| Some([plot_x(p.value, log), p.resting_mv?]))
-                .collect();
+        let curve: Vec<[f64; 2]> = out
+            .curve
+            .iter()
+            .filter_map(|p| Some([plot_x(p.value, log), p.resting_mv?]))
+            .collect();
+        let data: Vec<[f64; 2]> = out
+            .data
+            .iter()
+            .map(|p| [plot_x(p.value, log), p.v_mv])
+            .filter(|p| p[0].is_finite())
+            .collect();
+        // The measured points are read where the pointer is near one, not interpolated.
+        let curves = vec![("Fitted steady state".to_string(), curve.clone())];
+        view.show(ui, "fit plot", out.vary.label(), log, curves, |pui| {
             pui.line(
                 Line::new("Fitted steady state", PlotPoints::new(curve))
                     .color(potential_color(dark))
                     .width(2.0),
             );
-            let data: Vec<[f64; 2]> = out
-                .data
-                .iter()
-                .map(|p| [plot_x(p.value, log), p.v_mv])
-                .filter(|p| p[0].is_finite())
-                .collect();
             pui.points(
                 Points::new("Measured", PlotPoints::new(data))
                     .color(species_color(1))

@@ -2,6 +2,8 @@
 //! dose–response of an agent and permeability-ratio fits (`fit_view`). Scans, dose–responses
 //! and fits run on a background thread (rayon inside, through `analysis::scan`), with a
 //! progress bar and Cancel, so the window keeps drawing and the live run keeps running.
+//! Each plot ([`PlotView`]) reads its curves at the pointer's x and has a "Fit view" button;
+//! a scan's values are listed in a table and exported with the command line's own CSV writer.
 
 pub mod fit;
 pub mod kept;
@@ -13,12 +15,15 @@ use std::sync::mpsc::{Receiver, TryRecvError, channel};
 use std::time::Instant;
 
 use egui::{Color32, RichText, Ui};
-use egui_plot::{HoverPosition, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine};
+use egui_plot::{
+    HoverPosition, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, PlotUi, Points, VLine,
+};
 
 use crate::analysis::metrics::{DoseResponse, SpikeSettings, dose_response};
 use crate::analysis::scan::{NernstLine, ScanControl, ScanPoint, ScanRange, Vary, nernst_line, scan};
 use crate::scenario::Scenario;
 use crate::ui::command::Command;
+use crate::ui::dialogs::export::ExportKind;
 use crate::ui::theme::{neutral_color, potential_color, species_color};
 use fit::{FitForm, FitOutput};
 use kept::Kept;
@@ -77,7 +82,8 @@ impl AnalysisTab {
     }
 }
 
-/// Every input a scan or a fit can vary in `s`.
+/// Every input a scan or a fit can vary in `s` (not a concentration a solution sets: its
+/// recipe is what changes).
 pub fn vary_choices(s: &Scenario) -> Vec<Vary> {
     let mut out = vec![Vary::TemperatureC];
     for sp in &s.species {
@@ -86,11 +92,14 @@ pub fn vary_choices(s: &Scenario) -> Vec<Vary> {
         out.push(Vary::Permeability(sp.name.clone()));
     }
     out.extend(s.agent_labels().map(|l| Vary::DoseUm(l.to_string())));
+    out.retain(|v| v.check(s).is_ok());
     out
 }
 
-/// A sensible range for `vary` around its value in `s`: a decade each way for concentrations,
-/// two for permeabilities and doses, 0–40 °C for temperature.
+/// A sensible range for `vary` around its value in `s`: linear from a tenth to twice the value
+/// for concentrations (a bath series or a substitution stays near the physiological value),
+/// two decades each way on a log scale for permeabilities and doses (they act over decades),
+/// 0–40 °C for temperature.
 pub fn default_range(s: &Scenario, vary: &Vary) -> ScanRange {
     let v = vary.value_in(s).unwrap_or(0.0);
     let around = |decades: f64, fallback: (f64, f64)| {
@@ -113,13 +122,22 @@ pub fn default_range(s: &Scenario, vary: &Vary) -> ScanRange {
             points: 41,
             log: false,
         },
-        Vary::OutsideMm(_) | Vary::InsideMm(_) => around(1.0, (0.1, 100.0)),
+        Vary::OutsideMm(_) | Vary::InsideMm(_) => {
+            let (from, to) = if v > 0.0 { (0.1 * v, 2.0 * v) } else { (0.0, 10.0) };
+            ScanRange {
+                from,
+                to,
+                points: 39,
+                log: false,
+            }
+        }
         Vary::Permeability(_) => around(2.0, (1e-9, 1e-5)),
         Vary::DoseUm(_) => around(2.0, (0.01, 100.0)),
     }
 }
 
-/// The first choice to offer: bath potassium when there is a K+, else the first species' bath.
+/// The first choice to offer: bath potassium when there is a K+, else the first species' bath,
+/// else the first input that can be varied.
 fn default_vary(s: &Scenario) -> Vary {
     let name = s
         .species
@@ -127,7 +145,11 @@ fn default_vary(s: &Scenario) -> Vary {
         .find(|x| x.name == "K+")
         .or(s.species.first())
         .map(|x| x.name.clone());
-    name.map_or(Vary::TemperatureC, Vary::OutsideMm)
+    let choices = vary_choices(s);
+    name.map(Vary::OutsideMm)
+        .filter(|v| choices.contains(v))
+        .or(choices.into_iter().find(|v| *v != Vary::TemperatureC))
+        .unwrap_or(Vary::TemperatureC)
 }
 
 /// A picker of the varied input; returns whether the choice changed.
@@ -224,6 +246,10 @@ pub struct Analysis {
     pub dose_form: Option<DoseForm>,
     pub dose: Option<Result<DoseResponse, String>>,
     pub fit: FitForm,
+    /// The views of the scan, dose–response and fit plots.
+    pub scan_view: PlotView,
+    pub dose_view: PlotView,
+    pub fit_view: PlotView,
     job: Option<Job>,
 }
 
@@ -431,7 +457,7 @@ impl Analysis {
                     AnalysisTab::DoseResponse => self.dose_tab(ui, commands),
                     AnalysisTab::Fit => {
                         let busy = self.job.is_some();
-                        fit::show(ui, &mut self.fit, s, busy, commands);
+                        fit::show(ui, &mut self.fit, s, busy, &mut self.fit_view, commands);
                     }
                 }
             });
@@ -471,6 +497,24 @@ impl Analysis {
                 form.range = default_range(s, &form.vary);
             }
         });
+        let from_solutions: Vec<&str> = [s.outside.as_deref(), s.inside.as_deref()]
+            .into_iter()
+            .flatten()
+            .collect();
+        if !from_solutions.is_empty() {
+            ui.label(
+                RichText::new(format!(
+                    "Concentrations set by the solution {} are changed through its recipe (Solutions tab), not scanned here.",
+                    from_solutions
+                        .iter()
+                        .map(|n| format!("\"{n}\""))
+                        .collect::<Vec<_>>()
+                        .join(" and ")
+                ))
+                .small()
+                .weak(),
+            );
+        }
         range_fields(ui, &mut form.range, form.vary.unit(), true);
         ui.horizontal(|ui| {
             if ui
@@ -481,6 +525,13 @@ impl Analysis {
                 commands.push(Command::Analysis(AnalysisCommand::StartScan));
             }
             if let Some(Ok(out)) = &self.scan {
+                if ui
+                    .button("Export values as CSV…")
+                    .on_hover_text("value,ghk_mv,resting_mv: the table `permeant scan --csv` writes")
+                    .clicked()
+                {
+                    commands.push(Command::Export(ExportKind::ScanCsv));
+                }
                 ui.label(
                     RichText::new(format!("{} points in {:.1} ms", out.points.len(), out.elapsed_ms)).weak(),
                 );
@@ -491,7 +542,12 @@ impl Analysis {
             Some(Err(e)) => {
                 ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
             }
-            Some(Ok(out)) => scan_plot(ui, out),
+            Some(Ok(out)) => {
+                egui::CollapsingHeader::new(format!("Values ({} points)", out.points.len()))
+                    .id_salt("scan values")
+                    .show(ui, |ui| scan_table(ui, out));
+                scan_plot(ui, out, &mut self.scan_view);
+            }
         }
     }
 
@@ -533,7 +589,7 @@ impl Analysis {
             Some(Err(e)) => {
                 ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
             }
-            Some(Ok(d)) => dose_plot(ui, d),
+            Some(Ok(d)) => dose_plot(ui, d, &mut self.dose_view),
         }
     }
 }
@@ -596,8 +652,38 @@ pub fn plot_x(v: f64, log: bool) -> f64 {
     if log { v.log10() } else { v }
 }
 
-/// A plot of potentials against an input, with a log axis when `log`.
-pub fn potential_plot(id: &str, x_label: String, log: bool, height: f32) -> Plot<'static> {
+/// The value of the curve `points` (sorted by x) at `x`, linearly interpolated; `None` outside it.
+pub fn curve_at(points: &[[f64; 2]], x: f64) -> Option<f64> {
+    let k = points.partition_point(|p| p[0] < x);
+    match (k.checked_sub(1).and_then(|j| points.get(j)), points.get(k)) {
+        (_, Some(b)) if b[0] == x => Some(b[1]),
+        (Some(a), Some(b)) if b[0] > a[0] => Some(a[1] + (x - a[0]) / (b[0] - a[0]) * (b[1] - a[1])),
+        _ => None,
+    }
+}
+
+/// What the curves read at plot x `x`: the input with its unit, then each curve's potential.
+pub fn readout(x_label: &str, log: bool, x: f64, curves: &[(String, Vec<[f64; 2]>)]) -> String {
+    let value = if log { 10f64.powf(x) } else { x };
+    let mut out = format!("{x_label}: {}", short(value));
+    for (name, points) in curves {
+        if let Some(v) = curve_at(points, x) {
+            out += &format!("\n{name}: {v:.2} mV");
+        }
+    }
+    out
+}
+
+/// A plot of potentials against an input, with a log axis when `log`. Its hover text reads
+/// each of `curves` (name, points in plot coordinates, sorted by x) at the pointer's x, not
+/// the pointer's own height.
+pub fn potential_plot(
+    id: &str,
+    x_label: String,
+    log: bool,
+    height: f32,
+    curves: Vec<(String, Vec<[f64; 2]>)>,
+) -> Plot<'static> {
     // The hover text names the input with its unit, as the axis does.
     let hover_x = x_label.clone();
     Plot::new(id.to_string())
@@ -616,20 +702,100 @@ pub fn potential_plot(id: &str, x_label: String, log: bool, height: f32) -> Plot
         )
         .x_axis_formatter(move |mark, _| short(if log { 10f64.powf(mark.value) } else { mark.value }))
         .label_formatter(move |h: &HoverPosition<'_>| {
-            let (name, p) = match h {
+            let (near, p) = match h {
                 HoverPosition::NearDataPoint {
                     plot_name, position, ..
-                } => (*plot_name, *position),
-                HoverPosition::Elsewhere { position } => ("", *position),
+                } => (Some((*plot_name, position.y)), *position),
+                HoverPosition::Elsewhere { position } => (None, *position),
             };
-            let x = if log { 10f64.powf(p.x) } else { p.x };
-            let head = if name.is_empty() {
-                String::new()
-            } else {
-                format!("{name}\n")
-            };
-            Some(format!("{head}{hover_x}: {}\n{:.2} mV", short(x), p.y))
+            let mut text = readout(&hover_x, log, p.x, &curves);
+            // A point that is no curve (a measured one) is read as it is.
+            if let Some((name, y)) = near
+                && !name.is_empty()
+                && !curves.iter().any(|c| c.0 == name)
+            {
+                text += &format!("\n{name}: {y:.2} mV");
+            }
+            Some(text)
         })
+}
+
+/// An analysis plot as the user moves it: "Fit view" brings all the data back after a zoom or
+/// a drag, and the curves' values at the pointer's x are written above the plot.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct PlotView {
+    fit: bool,
+    /// The bounds last drawn, in plot coordinates (log10 of the input on a log axis):
+    /// `[x_min, x_max, y_min, y_max]`.
+    pub bounds: Option<[f64; 4]>,
+    /// Where the plot's frame was last drawn, in points.
+    pub rect: Option<egui::Rect>,
+    /// The curves read at the pointer's x, while the pointer is over the plot.
+    pub reading: Option<String>,
+}
+
+impl PlotView {
+    /// Draws the plot of `curves` (read at the pointer) with the items `add` draws.
+    pub fn show(
+        &mut self,
+        ui: &mut Ui,
+        id: &str,
+        x_label: String,
+        log: bool,
+        curves: Vec<(String, Vec<[f64; 2]>)>,
+        add: impl FnOnce(&mut PlotUi<'_>),
+    ) {
+        self.show_with_height(ui, id, x_label, log, curves, None, add);
+    }
+
+    /// [`PlotView::show`] at a given height (the rest of the space when `None`).
+    #[allow(clippy::too_many_arguments)]
+    pub fn show_with_height(
+        &mut self,
+        ui: &mut Ui,
+        id: &str,
+        x_label: String,
+        log: bool,
+        mut curves: Vec<(String, Vec<[f64; 2]>)>,
+        height: Option<f32>,
+        add: impl FnOnce(&mut PlotUi<'_>),
+    ) {
+        // Read by x, whichever way the scan ran.
+        for (_, points) in &mut curves {
+            points.sort_by(|a, b| a[0].total_cmp(&b[0]));
+        }
+        ui.horizontal_wrapped(|ui| {
+            if ui
+                .button("Fit view")
+                .on_hover_text("Show all the data again after zooming or dragging")
+                .clicked()
+            {
+                self.fit = true;
+            }
+            let text = self.reading.as_deref().map_or_else(
+                || RichText::new("Point at the plot to read the curves").weak(),
+                |r| RichText::new(r.replace('\n', "  ·  ")),
+            );
+            ui.label(text);
+        });
+        let height = height.unwrap_or_else(|| ui.available_height()).max(160.0);
+        let mut plot = potential_plot(id, x_label.clone(), log, height, curves.clone());
+        if std::mem::take(&mut self.fit) {
+            plot = plot.reset();
+        }
+        let shown = plot.show(ui, add);
+        let b = shown.transform.bounds();
+        self.bounds = Some([b.min()[0], b.max()[0], b.min()[1], b.max()[1]]);
+        self.rect = Some(*shown.transform.frame());
+        let reading = shown.response.hover_pos().map(|pos| {
+            let x = shown.transform.value_from_position(pos).x;
+            readout(&x_label, log, x, &curves)
+        });
+        if reading != self.reading {
+            self.reading = reading;
+            ui.ctx().request_repaint();
+        }
+    }
 }
 
 fn line_of(points: impl Iterator<Item = (f64, Option<f64>)>, log: bool) -> Vec<[f64; 2]> {
@@ -639,26 +805,74 @@ fn line_of(points: impl Iterator<Item = (f64, Option<f64>)>, log: bool) -> Vec<[
         .collect()
 }
 
-fn scan_plot(ui: &mut Ui, out: &ScanOutput) {
+/// The scan's values, as `permeant scan` prints them.
+fn scan_table(ui: &mut Ui, out: &ScanOutput) {
+    egui::ScrollArea::vertical()
+        .id_salt("scan table")
+        .max_height(160.0)
+        .show(ui, |ui| {
+            egui::Grid::new("scan values grid")
+                .striped(true)
+                .spacing([16.0, 2.0])
+                .show(ui, |ui| {
+                    ui.label(
+                        RichText::new(format!("{} ({})", out.vary.quantity(), out.vary.unit())).strong(),
+                    );
+                    ui.label(RichText::new("GHK potential (mV)").strong());
+                    ui.label(RichText::new("Steady state (mV)").strong());
+                    if let Some(n) = &out.nernst {
+                        ui.label(RichText::new(format!("E {} (mV)", n.species)).strong());
+                    }
+                    ui.end_row();
+                    let mv = |x: Option<f64>| x.map_or("—".to_string(), |v| format!("{v:.2}"));
+                    for (k, p) in out.points.iter().enumerate() {
+                        ui.label(short(p.value));
+                        let ghk = ui.label(mv(p.ghk_mv));
+                        if let Some(why) = &p.ghk_undefined {
+                            ghk.on_hover_text(why.to_string());
+                        }
+                        let rest = ui.label(mv(p.resting_mv));
+                        if let Some(why) = &p.resting_undefined {
+                            rest.on_hover_text(why.to_string());
+                        }
+                        if let Some(n) = &out.nernst {
+                            ui.label(mv(n.e_mv.get(k).copied().flatten()));
+                        }
+                        ui.end_row();
+                    }
+                });
+        });
+}
+
+fn scan_plot(ui: &mut Ui, out: &ScanOutput, view: &mut PlotView) {
     let dark = ui.visuals().dark_mode;
     let log = out.range.log;
-    let height = ui.available_height().max(160.0);
-    potential_plot("scan plot", out.vary.label(), log, height).show(ui, |pui| {
-        let ghk = line_of(out.points.iter().map(|p| (p.value, p.ghk_mv)), log);
-        let rest = line_of(out.points.iter().map(|p| (p.value, p.resting_mv)), log);
-        if let Some(n) = &out.nernst {
-            let e = line_of(
-                out.points.iter().map(|p| p.value).zip(n.e_mv.iter().copied()),
-                log,
-            );
+    let ghk = line_of(out.points.iter().map(|p| (p.value, p.ghk_mv)), log);
+    let rest = line_of(out.points.iter().map(|p| (p.value, p.resting_mv)), log);
+    let nernst = out.nernst.as_ref().map(|n| {
+        let name = format!("Nernst {} ({:+.1} mV/decade)", n.species, n.slope_mv_per_decade);
+        let e = line_of(
+            out.points.iter().map(|p| p.value).zip(n.e_mv.iter().copied()),
+            log,
+        );
+        (name.clone(), name, e)
+    });
+    let mut curves = vec![
+        ("Steady state".to_string(), rest.clone()),
+        ("GHK potential".to_string(), ghk.clone()),
+    ];
+    curves.extend(
+        nernst
+            .iter()
+            .map(|(_, short_name, e)| (short_name.clone(), e.clone())),
+    );
+    view.show(ui, "scan plot", out.vary.label(), log, curves, |pui| {
+        if let Some((name, _, e)) = nernst {
             pui.line(
-                Line::new(
-                    format!("Nernst {} ({:+.1} mV/decade)", n.species, n.slope_mv_per_decade),
-                    PlotPoints::new(e),
-                )
-                .color(species_color(0).gamma_multiply(0.9))
-                .style(LineStyle::dashed_loose())
-                .width(1.5),
+                Line::new(name, PlotPoints::new(e))
+                    .color(species_color(0).gamma_multiply(0.9))
+                    .style(LineStyle::dashed_loose())
+                    .width(1.5),
             );
         }
         pui.line(
@@ -682,7 +896,7 @@ fn scan_plot(ui: &mut Ui, out: &ScanOutput) {
     });
 }
 
-fn dose_plot(ui: &mut Ui, d: &DoseResponse) {
+fn dose_plot(ui: &mut Ui, d: &DoseResponse, view: &mut PlotView) {
     let dark = ui.visuals().dark_mode;
     let v = line_of(d.points.iter().map(|p| (p.dose_um, p.resting_mv)), true);
     let counts: Vec<[f64; 2]> = d
@@ -700,33 +914,42 @@ fn dose_plot(ui: &mut Ui, d: &DoseResponse) {
     let total = ui.available_height().max(200.0);
     let upper = if counts.is_empty() { total } else { total * 0.6 };
     let x_label = format!("dose of {} (µM)", d.label);
-    potential_plot("dose plot", x_label.clone(), true, upper).show(ui, |pui| {
-        pui.line(
-            Line::new("Steady state", PlotPoints::new(v.clone()))
-                .color(potential_color(dark))
-                .width(2.0),
-        );
-        pui.points(
-            Points::new("Doses", PlotPoints::new(v))
-                .color(potential_color(dark))
-                .radius(2.5),
-        );
-        if d.ic50_um > 0.0 {
-            pui.vline(
-                VLine::new(format!("IC50 {} µM", short(d.ic50_um)), d.ic50_um.log10())
-                    .color(marker)
-                    .width(1.5)
-                    .style(LineStyle::dashed_loose()),
+    let curves = vec![("Steady state".to_string(), v.clone())];
+    view.show_with_height(
+        ui,
+        "dose plot",
+        x_label.clone(),
+        true,
+        curves,
+        Some(upper),
+        |pui| {
+            pui.line(
+                Line::new("Steady state", PlotPoints::new(v.clone()))
+                    .color(potential_color(dark))
+                    .width(2.0),
             );
-        }
-        if let Some(h) = d.half_effect_dose_um {
-            pui.vline(
-                VLine::new(format!("half effect {} µM", short(h)), h.log10())
-                    .color(neutral_color(dark))
-                    .style(LineStyle::dotted_loose()),
+            pui.points(
+                Points::new("Doses", PlotPoints::new(v))
+                    .color(potential_color(dark))
+                    .radius(2.5),
             );
-        }
-    });
+            if d.ic50_um > 0.0 {
+                pui.vline(
+                    VLine::new(format!("IC50 {} µM", short(d.ic50_um)), d.ic50_um.log10())
+                        .color(marker)
+                        .width(1.5)
+                        .style(LineStyle::dashed_loose()),
+                );
+            }
+            if let Some(h) = d.half_effect_dose_um {
+                pui.vline(
+                    VLine::new(format!("half effect {} µM", short(h)), h.log10())
+                        .color(neutral_color(dark))
+                        .style(LineStyle::dotted_loose()),
+                );
+            }
+        },
+    );
     if !counts.is_empty() {
         Plot::new("dose spikes")
             .height(ui.available_height().max(80.0))
@@ -734,6 +957,15 @@ fn dose_plot(ui: &mut Ui, d: &DoseResponse) {
             .y_axis_label("Spikes per run")
             .y_axis_min_width(40.0)
             .x_axis_formatter(|mark, _| short(10f64.powf(mark.value)))
+            // A count is read at a dose that was run, never at the pointer's height.
+            .label_formatter(|h: &HoverPosition<'_>| match h {
+                HoverPosition::NearDataPoint { position, .. } => Some(format!(
+                    "{} µM\n{:.0} spikes",
+                    short(10f64.powf(position.x)),
+                    position.y
+                )),
+                HoverPosition::Elsewhere { .. } => None,
+            })
             .show(ui, |pui| {
                 pui.points(
                     Points::new("Spikes", PlotPoints::new(counts))

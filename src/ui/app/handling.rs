@@ -104,6 +104,20 @@ impl App {
             Command::CancelFamily => self.family.cancel(),
             Command::Analysis(AnalysisCommand::Keep) => self.keep_trace(),
             Command::Analysis(AnalysisCommand::ChooseFitData) => self.choose_file(FilePurpose::FitData, ctx),
+            Command::Analysis(AnalysisCommand::LoadFitData(path)) => {
+                // The typed-path dialog that asked for the file has done its job.
+                if matches!(
+                    self.dialog,
+                    Some(Dialog::TypePath {
+                        purpose: FilePurpose::FitData,
+                        ..
+                    })
+                ) {
+                    self.dialog = None;
+                }
+                self.analysis
+                    .apply(AnalysisCommand::LoadFitData(path), self.doc.scenario(), ctx);
+            }
             Command::Analysis(c) => self.analysis.apply(c, self.doc.scenario(), ctx),
         }
         // The run follows every change of the scenario, whatever caused it.
@@ -271,7 +285,10 @@ impl App {
             None => (&[][..], &[][..], 0),
         };
         // The plots are worth a picture before a run too (the reversal lines, the protocol).
-        let needs_trace = !matches!(kind, ExportKind::MetricsCsv | ExportKind::Png);
+        let needs_trace = !matches!(
+            kind,
+            ExportKind::MetricsCsv | ExportKind::Png | ExportKind::ScanCsv
+        );
         if n == 0 && needs_trace && self.analysis.kept.traces.is_empty() {
             self.set_notice("Nothing to export: the run could not start");
             return;
@@ -294,6 +311,10 @@ impl App {
                 })
                 .collect(),
             metrics_csv: self.analysis.kept.metrics_csv(),
+            scan_csv: match &self.analysis.scan {
+                Some(Ok(out)) => Some(crate::analysis::scan::scan_csv(&out.points)),
+                _ => None,
+            },
         };
         let done = export::export(kind, path, &shown, || self.plots_png(ctx));
         self.export_done(done);

@@ -20,6 +20,9 @@ pub enum ExportKind {
     Csv,
     /// The metrics table of the kept traces.
     MetricsCsv,
+    /// The values of the last scan, as `permeant scan --csv` writes them (from the Scan tab,
+    /// not the export menu).
+    ScanCsv,
 }
 
 impl ExportKind {
@@ -34,7 +37,7 @@ impl ExportKind {
         match self {
             ExportKind::Png => "png",
             ExportKind::Svg => "svg",
-            ExportKind::Csv | ExportKind::MetricsCsv => "csv",
+            ExportKind::Csv | ExportKind::MetricsCsv | ExportKind::ScanCsv => "csv",
         }
     }
 
@@ -45,6 +48,7 @@ impl ExportKind {
             ExportKind::Svg => "Membrane potential figure as SVG…",
             ExportKind::Csv => "Traces (current and kept) as CSV table…",
             ExportKind::MetricsCsv => "Kept-trace metrics as CSV table…",
+            ExportKind::ScanCsv => "Scan values as CSV table…",
         }
     }
 
@@ -55,6 +59,7 @@ impl ExportKind {
             ExportKind::Svg => "Export the figure as SVG",
             ExportKind::Csv => "Export the traces as CSV",
             ExportKind::MetricsCsv => "Export the metrics table as CSV",
+            ExportKind::ScanCsv => "Export the scan's values as CSV",
         }
     }
 
@@ -63,7 +68,7 @@ impl ExportKind {
         match self {
             ExportKind::Png => "PNG image",
             ExportKind::Svg => "SVG figure",
-            ExportKind::Csv | ExportKind::MetricsCsv => "CSV table",
+            ExportKind::Csv | ExportKind::MetricsCsv | ExportKind::ScanCsv => "CSV table",
         }
     }
 
@@ -74,6 +79,7 @@ impl ExportKind {
             ExportKind::Svg => "figure",
             ExportKind::Csv => "trace",
             ExportKind::MetricsCsv => "metrics",
+            ExportKind::ScanCsv => "scan",
         };
         format!("{stem}.{}", self.extension())
     }
@@ -102,6 +108,8 @@ pub struct Shown<'a> {
     pub kept: Vec<csv::NamedTrace<'a>>,
     /// The metrics table of the kept traces as CSV.
     pub metrics_csv: String,
+    /// The last scan's values as CSV, when a scan has finished.
+    pub scan_csv: Option<String>,
 }
 
 /// The SVG figure of the shown trace.
@@ -176,6 +184,10 @@ pub fn export(
             .and_then(|text| written(text.as_bytes())),
         ExportKind::Csv => written(csv_text(shown, SystemTime::now()).as_bytes()),
         ExportKind::MetricsCsv => written(shown.metrics_csv.as_bytes()),
+        ExportKind::ScanCsv => match &shown.scan_csv {
+            Some(text) => written(text.as_bytes()),
+            None => Err("Nothing to export: compute a scan first".into()),
+        },
         ExportKind::Png => png()
             .map_err(|e| format!("Could not draw the plots: {e}"))
             .and_then(|bytes| written(&bytes)),

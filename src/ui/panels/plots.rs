@@ -213,6 +213,7 @@ impl Plots {
                 self.reversal_spans = potential_items(&mut self.lines, pui, input);
             });
         self.axis_w[0] = upper.response.rect.left() - left;
+        kept_legend(ui, upper.response.rect, input.kept);
         let upper_bounds = *upper.transform.bounds();
         self.shown_t_ms = Some((upper_bounds.min()[0], upper_bounds.max()[0]));
         let near = |a: f64, b: f64| (a - b).abs() <= 1e-9 * (a.abs() + b.abs()).max(1e-9);
@@ -687,6 +688,48 @@ fn potential_items(
         );
     }
     spans
+}
+
+/// The names of the visible kept traces (and of the run they are drawn over) in a box at the
+/// upper plot's top left, under the event labels, in the window and in the exported picture alike.
+fn kept_legend(ui: &mut Ui, plot: egui::Rect, kept: &[KeptTrace]) {
+    if !kept.iter().any(|k| k.visible) {
+        return;
+    }
+    let dark = ui.visuals().dark_mode;
+    // Below the first row of event labels, which sit at the plot's top.
+    let mut area = plot.shrink(6.0);
+    area.min.y += 1.6 * ui.text_style_height(&egui::TextStyle::Body);
+    let mut child = ui.new_child(
+        egui::UiBuilder::new()
+            .id_salt("kept legend")
+            .max_rect(area)
+            .layout(egui::Layout::top_down(egui::Align::Min)),
+    );
+    egui::Frame::popup(child.style())
+        .multiply_with_opacity(0.85)
+        .show(&mut child, |ui| {
+            let entries = std::iter::once(("this run", potential_color(dark))).chain(
+                kept.iter()
+                    .filter(|k| k.visible)
+                    .map(|k| (k.name.as_str(), k.color)),
+            );
+            // A narrow plot (large text at 1280×720) keeps most of its width for the traces.
+            let style = if plot.width() < 480.0 {
+                egui::TextStyle::Small
+            } else {
+                egui::TextStyle::Body
+            };
+            for (name, color) in entries {
+                ui.horizontal(|ui| {
+                    let h = ui.text_style_height(&style);
+                    let (r, _) = ui.allocate_exact_size(egui::vec2(1.5 * h, h), egui::Sense::hover());
+                    ui.painter()
+                        .hline(r.x_range(), r.center().y, egui::Stroke::new(2.0, color));
+                    ui.label(RichText::new(name).text_style(style.clone()));
+                });
+            }
+        });
 }
 
 /// The visible kept traces, each thinned to the visible range like the live trace.
