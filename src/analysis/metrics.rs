@@ -623,17 +623,25 @@ pub fn with_volume_columns(csv: &str, volumes: &[Option<VolumeMetrics>], baselin
         } else {
             let mine = volumes.get(k - 1).copied().flatten();
             let cells = mine.map_or([None; 2], |m| m.cells());
-            cells.iter().for_each(|x| push_number(&mut out, *x));
+            cells.iter().for_each(|x| push_optional(&mut out, *x));
             if baseline.is_some() {
                 let base_cells = base.map_or([None; 2], |b| b.cells());
                 for (a, b) in cells.iter().zip(base_cells) {
-                    push_number(&mut out, (*a).zip(b).map(|(a, b)| a - b));
+                    push_optional(&mut out, (*a).zip(b).map(|(a, b)| a - b));
                 }
             }
         }
         out.push('\n');
     }
     out
+}
+
+/// A volume cell: a number, or an empty cell where the volume did not change.
+fn push_optional(out: &mut String, x: Option<f64>) {
+    out.push(',');
+    if let Some(x) = x {
+        let _ = write!(out, "{x}");
+    }
 }
 
 /// The records of a CSV text without their line ends (a quoted name may hold a line break).
