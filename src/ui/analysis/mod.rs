@@ -1,10 +1,12 @@
 //! The "Analysis" window: comparing kept traces (`kept`), scans of one input, the
-//! dose–response of an agent and permeability-ratio fits (`fit_view`). Scans, dose–responses
-//! and fits run on a background thread (rayon inside, through `analysis::scan`), with a
-//! progress bar and Cancel, so the window keeps drawing and the live run keeps running.
+//! dose–response of an agent, permeability-ratio fits (`fit_view`) and a control family
+//! against the present one (`lost`). Scans, dose–responses and fits run on a background
+//! thread (rayon inside, through `analysis::scan`), with a progress bar and Cancel, so the
+//! window keeps drawing and the live run keeps running.
 
 pub mod fit;
 pub mod kept;
+pub mod lost;
 
 use std::path::PathBuf;
 use std::sync::Arc;
@@ -19,6 +21,7 @@ use crate::analysis::metrics::{DoseResponse, SpikeSettings, dose_response};
 use crate::analysis::scan::{NernstLine, ScanControl, ScanPoint, ScanRange, Vary, nernst_line, scan};
 use crate::scenario::Scenario;
 use crate::ui::command::Command;
+use crate::ui::state::family::FamilyResult;
 use crate::ui::theme::{neutral_color, potential_color, species_color};
 use fit::{FitForm, FitOutput};
 use kept::Kept;
@@ -47,6 +50,10 @@ pub enum AnalysisCommand {
     ChooseFitData,
     /// Load measured points from this file.
     LoadFitData(PathBuf),
+    /// Keep the present family's measurements as the control of the "Lost current" tab.
+    KeepControlFamily,
+    /// Drop the kept control family.
+    ForgetControlFamily,
 }
 
 /// The window's tabs.
@@ -57,14 +64,17 @@ pub enum AnalysisTab {
     Scan,
     DoseResponse,
     Fit,
+    /// A control family against the present one, and IC50 on current.
+    LostCurrent,
 }
 
 impl AnalysisTab {
-    const ALL: [AnalysisTab; 4] = [
+    const ALL: [AnalysisTab; 5] = [
         AnalysisTab::Compare,
         AnalysisTab::Scan,
         AnalysisTab::DoseResponse,
         AnalysisTab::Fit,
+        AnalysisTab::LostCurrent,
     ];
 
     fn label(self) -> &'static str {
@@ -73,6 +83,7 @@ impl AnalysisTab {
             AnalysisTab::Scan => "Scan",
             AnalysisTab::DoseResponse => "Dose–response",
             AnalysisTab::Fit => "Fit",
+            AnalysisTab::LostCurrent => "Lost current",
         }
     }
 }
@@ -224,6 +235,8 @@ pub struct Analysis {
     pub dose_form: Option<DoseForm>,
     pub dose: Option<Result<DoseResponse, String>>,
     pub fit: FitForm,
+    /// The family kept as control for the "Lost current" tab.
+    pub control_family: Option<lost::ControlFamily>,
     job: Option<Job>,
 }
 
@@ -283,8 +296,10 @@ impl Analysis {
                 }
             }
             AnalysisCommand::LoadFitData(path) => self.fit.load(&path),
-            // Keeping needs the run and choosing a file the app's file chooser: the app does those.
-            AnalysisCommand::Keep | AnalysisCommand::ChooseFitData => {}
+            AnalysisCommand::ForgetControlFamily => self.control_family = None,
+            // Keeping needs the run or the family, and choosing a file the app's file chooser:
+            // the app does those.
+            AnalysisCommand::Keep | AnalysisCommand::ChooseFitData | AnalysisCommand::KeepControlFamily => {}
         }
     }
 
@@ -405,7 +420,14 @@ impl Analysis {
     }
 
     /// The window.
-    pub fn show(&mut self, ui: &Ui, s: &Scenario, can_keep: bool, commands: &mut Vec<Command>) {
+    pub fn show(
+        &mut self,
+        ui: &Ui,
+        s: &Scenario,
+        can_keep: bool,
+        family: Option<&FamilyResult>,
+        commands: &mut Vec<Command>,
+    ) {
         self.follow(s);
         let mut open = self.open;
         let ctx = ui.ctx().clone();
@@ -432,6 +454,9 @@ impl Analysis {
                     AnalysisTab::Fit => {
                         let busy = self.job.is_some();
                         fit::show(ui, &mut self.fit, s, busy, commands);
+                    }
+                    AnalysisTab::LostCurrent => {
+                        lost::show(ui, self.control_family.as_ref(), family, s, commands);
                     }
                 }
             });
