@@ -73,14 +73,16 @@ pub fn show(
     commands: &mut Vec<Command>,
 ) {
     ScrollArea::vertical().auto_shrink([false, false]).show(ui, |ui| {
-        compare_section(ui, control, present, s, commands);
+        // A dose family carries its own control (its run at 0 µM): its IC50 comes first, where a
+        // small window or large text still shows it without scrolling.
         if let Some(r) = present
             && r.table.clamped
             && r.table.field.field().path == "protocol[].dose_um"
         {
-            ui.separator();
             dose_section(ui, &r.table, s);
+            ui.separator();
         }
+        compare_section(ui, control, present, s, commands);
     });
 }
 
@@ -109,7 +111,7 @@ fn compare_section(
     let Some(c) = control else {
         if present.table.field.field().path == "protocol[].dose_um" {
             ui.label(
-                RichText::new("This family varies a dose: its own run at 0 µM is the control (below).")
+                RichText::new("This family varies a dose: its own run at 0 µM is the control (above).")
                     .weak(),
             );
         }
@@ -306,9 +308,10 @@ fn dose_plot(ui: &mut Ui, d: &DoseBlock) {
         .y_axis_label("Fraction blocked")
         .y_axis_min_width(40.0)
         .default_y_bounds(-0.05, 1.05)
+        // A rising block curve leaves the lower right empty: the legend covers no point there.
         .legend(
             Legend::default()
-                .position(egui_plot::Corner::LeftTop)
+                .position(egui_plot::Corner::RightBottom)
                 .background_alpha(0.6),
         )
         .x_axis_formatter(|mark, _| short(10f64.powf(mark.value)))

@@ -55,7 +55,9 @@ pub fn show(ui: &mut Ui, f: &FamilyState, s: &Scenario, commands: &mut Vec<Comma
         ui.colored_label(ui.visuals().warn_fg_color, e);
     }
     let Some(r) = &f.result else { return };
-    if ui
+    // Block is read from the clamp current, so only a voltage-clamp family is a control.
+    if r.runs.clamped
+        && ui
         .add_enabled(f.progress().is_none(), egui::Button::new("Keep as control"))
         .on_hover_text(
             "Keep these measurements, change the scenario (add a blocker, raise its dose), and read the current lost at each level in Analysis → Lost current",
