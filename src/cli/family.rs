@@ -264,12 +264,12 @@ fn text(title: &str, vary: &str, unit: &str, names: &[&str], t: &FamilyTable) ->
         match d.fit {
             Ok(f) => {
                 o += &format!(
-                    "\nHill fit of the fraction blocked ({}): IC50 = {} ± {} µM, Hill coefficient = {:.3} ± {:.3}\n",
+                    "\nHill fit of the fraction blocked ({}): IC50 = {} ± {} µM, Hill coefficient = {} ± {}\n",
                     names.first().copied().unwrap_or_default(),
                     significant(f.ic50_um),
                     significant(f.se_ic50_um),
-                    f.hill,
-                    f.se_hill
+                    significant(f.hill),
+                    significant(f.se_hill)
                 );
             }
             Err(e) => o += &format!("\nno Hill fit: {e}\n"),
