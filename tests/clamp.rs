@@ -1,10 +1,12 @@
 //! Voltage clamp and families of runs (clamp-and-volume.md) against closed forms: the GHK
 //! currents of a passive membrane and its GHK potential, Hodgkin & Huxley's 1952 gates under an
 //! ideal step, the bi-ionic reversal potential, the series-resistance transient, the Boltzmann
-//! fit under noise and the fraction blocked at the IC50; then every new rule of a bad file.
+//! fit under noise, the fraction blocked at the IC50, a control family against a blocked one
+//! and the Hill fit of a dose family; then every new rule of a bad file.
 //!
 //! The scenarios here are invented for these tests.
 
+use permeant::analysis::block::{compare_families, dose_block};
 use permeant::analysis::family::{FamilyRuns, Measure, analyse, fit_boltzmann, fraction_blocked, run_family};
 use permeant::analysis::metrics::SpikeSettings;
 use permeant::analysis::scan::ScanControl;
@@ -490,6 +492,168 @@ fn a_dose_at_the_ic50_blocks_half_the_current_at_every_level() {
         // relative tolerance of the same solution.
         assert!((f - 0.5).abs() < 1e-5, "{v} mV: {f}");
     }
+    // The same through the level-by-level comparison the window shows.
+    let cmp = compare_families(&c, &t, 0).unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(cmp.rows.len(), levels.len());
+    for r in &cmp.rows {
+        let f = r.blocked.expect("a control current");
+        assert!((f - 0.5).abs() < 1e-5, "{} mV: {f}", r.level);
+    }
+}
+
+/// A passive cell of K+ and Na+ (only K+ blocked), without channels: each level's current is
+/// a sum of GHK currents in closed form.
+fn k_and_na() -> Scenario {
+    let mut s = clamped(passive(22.0), -80.0, 0.0, 0.0);
+    s.species = vec![
+        species("K+", 1, 140.0, 5.0, 5e-7),
+        species("Na+", 1, 12.0, 145.0, 2.5e-8),
+    ];
+    s.protocol = vec![step(-100.0, 1.0)];
+    s.run.duration_ms = 4.0;
+    s
+}
+
+fn k_blocker(dose_um: f64, ic50_um: f64, hill: f64) -> Event {
+    Event::Agent {
+        label: "k blocker".into(),
+        species: "K+".into(),
+        max_block: 1.0,
+        max_increase: None,
+        ic50_um,
+        hill,
+        dose_um,
+        from_ms: 0.0,
+        until_ms: None,
+        onset_ms: 0.0,
+        washout_ms: 0.0,
+        target: Default::default(),
+    }
+}
+
+#[test]
+fn a_blocked_family_loses_the_ghk_fraction_of_the_control_at_each_level() {
+    // The block scales P_K by 1/(1 + d/IC50) (the Hill equation with n = 1 and full block,
+    // Hill 1910); the GHK current (Goldman 1943; Hodgkin & Katz 1949) is linear in P, so at
+    // each level I_treated = I_K/(1 + d/IC50) + I_Na, and the fraction blocked is
+    // 1 − I_treated/I_control, in closed form.
+    let control = k_and_na();
+    let mut treated = control.clone();
+    let (dose, ic50) = (6.0, 2.0);
+    treated.protocol.push(k_blocker(dose, ic50, 1.0));
+    // Levels clear of the GHK potential (about −62 mV), where the control carries current.
+    let levels = [-100.0, -40.0, -20.0, 0.0, 20.0, 40.0];
+    let late = [Measure::Late {
+        from_ms: 2.0,
+        until_ms: 4.0,
+    }];
+    let c = analyse(
+        &family(&control, "protocol[0].to_mv", &levels),
+        &late,
+        SpikeSettings::default(),
+    );
+    // The treated family lists its levels in another order: they are matched by value.
+    let mut reversed = levels;
+    reversed.reverse();
+    let t = analyse(
+        &family(&treated, "protocol[0].to_mv", &reversed),
+        &late,
+        SpikeSettings::default(),
+    );
+    let cmp = compare_families(&c, &t, 0).unwrap_or_else(|e| panic!("{e}"));
+    let keep = 1.0 / (1.0 + dose / ic50);
+    for (r, &v) in cmp.rows.iter().zip(&levels) {
+        assert_eq!(r.level, v);
+        let (i_k, k_size) = ghk_current_ua_per_cm2(5e-7, 1, 140.0, 5.0, v, 22.0);
+        let (i_na, na_size) = ghk_current_ua_per_cm2(2.5e-8, 1, 12.0, 145.0, v, 22.0);
+        let scale = RELATIVE * (k_size + na_size);
+        let (want_c, want_t) = (i_k + i_na, keep * i_k + i_na);
+        let (got_c, got_t) = (r.control.expect("control"), r.treated.expect("treated"));
+        assert!(
+            (got_c - want_c).abs() < scale,
+            "{v} mV control: {got_c} vs {want_c}"
+        );
+        assert!(
+            (got_t - want_t).abs() < scale,
+            "{v} mV treated: {got_t} vs {want_t}"
+        );
+        let f = r.blocked.expect("a fraction");
+        let want = 1.0 - want_t / want_c;
+        assert!((f - want).abs() < 1e-9, "{v} mV: {f} vs {want}");
+    }
+    // At 0 mV the GHK current is P·F·(c_in − c_out) (its limit at V = 0), by hand:
+    // K+ 5e-7 cm/s × 96485.332 C/mol × 135e-6 mol/cm³ = 6.512760 µA/cm² and
+    // Na+ 2.5e-8 × 96485.332 × (−133e-6) = −0.320814 µA/cm²; the blocker leaves a quarter of
+    // the K+ current: 1.628190 − 0.320814 = 1.307376 µA/cm², so 1 − 1.307376/6.191946 = 0.788859
+    // is blocked.
+    let zero = &cmp.rows[3];
+    assert!((zero.control.expect("control") - 6.191946).abs() < 1e-5);
+    assert!((zero.treated.expect("treated") - 1.307376).abs() < 1e-5);
+    assert!((zero.blocked.expect("blocked") - 0.788859).abs() < 1e-6);
+}
+
+#[test]
+fn families_over_other_levels_or_numbers_are_not_compared() {
+    let s = k_and_na();
+    let late = [Measure::Late {
+        from_ms: 2.0,
+        until_ms: 4.0,
+    }];
+    let c = analyse(
+        &family(&s, "protocol[0].to_mv", &[-40.0, 0.0]),
+        &late,
+        SpikeSettings::default(),
+    );
+    let t = analyse(
+        &family(&s, "protocol[0].to_mv", &[-40.0, 10.0]),
+        &late,
+        SpikeSettings::default(),
+    );
+    let e = compare_families(&c, &t, 0).expect_err("other levels");
+    assert_eq!(
+        e.to_string(),
+        "level 10 mV of this family has no control run at the same level"
+    );
+    let o = analyse(
+        &family(&s, "species[0].outside_mm", &[40.0, 10.0]),
+        &late,
+        SpikeSettings::default(),
+    );
+    let e = compare_families(&c, &o, 0).expect_err("another number");
+    assert!(
+        e.to_string().contains("species[0].outside_mm") && e.to_string().contains("protocol[0].to_mv"),
+        "{e}"
+    );
+}
+
+#[test]
+fn a_dose_family_of_current_gives_back_the_agents_ic50_and_hill_coefficient() {
+    // With only K+ permeant and the K+ conductance blocked, the current lost at a dose is the
+    // Hill fraction itself (Hill 1910; the GHK current is linear in P), so the fit of the
+    // dose family recovers the file's IC50 and n.
+    let mut s = k_and_na();
+    s.species[1].permeability_cm_per_s = 0.0;
+    s.protocol[0] = step(20.0, 1.0);
+    s.protocol.push(k_blocker(1.0, 4.0, 2.0));
+    let doses = [0.0, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0, 32.0];
+    let late = [Measure::Late {
+        from_ms: 2.0,
+        until_ms: 4.0,
+    }];
+    let t = analyse(
+        &family(&s, "protocol[1].dose_um", &doses),
+        &late,
+        SpikeSettings::default(),
+    );
+    let d = dose_block(&t, 0).unwrap_or_else(|e| panic!("{e}"));
+    for x in &d.doses {
+        let want = common::reference::fraction_blocked(1.0, 4.0, 2.0, x.dose_um);
+        let got = x.blocked.expect("a fraction");
+        assert!((got - want).abs() < 1e-9, "{} µM: {got} vs {want}", x.dose_um);
+    }
+    let f = d.fit.unwrap_or_else(|e| panic!("{e}"));
+    assert!((f.ic50_um - 4.0).abs() < 1e-6, "{f:?}");
+    assert!((f.hill - 2.0).abs() < 1e-6, "{f:?}");
 }
 
 #[test]

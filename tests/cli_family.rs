@@ -138,6 +138,33 @@ fn the_files_own_family_runs_without_vary() {
 }
 
 #[test]
+fn a_dose_family_prints_the_hill_fit_of_the_current_lost() {
+    // Only K+ is permeant and its whole permeability is blocked, so the fraction of the current
+    // lost at each dose is the Hill equation itself (Hill 1910; the GHK current is linear in P):
+    // the fit gives back the file's IC50 of 2 µM and Hill coefficient of 1.5.
+    let text = CLAMPED
+        .replace("permeability_cm_per_s: 2.5e-8", "permeability_cm_per_s: 0.0")
+        .replace(
+            "protocol: [Step(to_mv: -100.0, from_ms: 2.0)]",
+            "protocol: [Step(to_mv: 0.0, from_ms: 2.0), Agent(label: \"k blocker\", species: \"K+\", ic50_um: 2.0, hill: 1.5, dose_um: 1.0, from_ms: 0.0)]",
+        )
+        .replace(
+            "mode: VoltageClamp(holding_mv: -80.0)",
+            "mode: VoltageClamp(holding_mv: -80.0), family: Some((field: \"protocol[1].dose_um\", values: [0.0, 0.2, 0.5, 1.0, 2.0, 5.0, 10.0, 50.0]))",
+        );
+    let sb = Sandbox::with("dose.ron", text);
+    let out = sb.ok(&["family", "dose.ron", "--measure", "late:4:6"]);
+    let line = out
+        .lines()
+        .find(|l| l.starts_with("Hill fit of the fraction blocked (late:4:6): IC50 = "))
+        .unwrap_or_else(|| panic!("no Hill fit line in\n{out}"));
+    assert!(
+        line.contains("IC50 = 2.000 ± ") && line.contains("µM, Hill coefficient = 1.500 ± "),
+        "{line}"
+    );
+}
+
+#[test]
 fn bad_family_requests_are_refused_with_the_reason() {
     let sb = Sandbox::with("held.ron", CLAMPED);
     let family = |extra: &[&str]| {

@@ -533,6 +533,10 @@ const FOOT_OF_CURVE: f64 = 0.2;
 /// Everything measured on a family.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FamilyTable {
+    /// The varied number.
+    pub field: Address,
+    /// Whether the runs are in voltage clamp (the measures read the current) or current clamp.
+    pub clamped: bool,
     pub measures: Vec<Measure>,
     /// The varied values, one per run.
     pub values: Vec<f64>,
@@ -577,6 +581,8 @@ pub fn analyse(runs: &FamilyRuns, measures: &[Measure], spikes: SpikeSettings) -
         .collect();
     let values: Vec<f64> = runs.members.iter().map(|m| m.value).collect();
     let mut table = FamilyTable {
+        field: runs.field,
+        clamped: runs.clamped,
         measures: measures.to_vec(),
         values: values.clone(),
         cells,

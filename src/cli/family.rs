@@ -258,5 +258,37 @@ fn text(title: &str, vary: &str, unit: &str, names: &[&str], t: &FamilyTable) ->
             b.v_half_mv, b.se_v_half_mv, b.slope_mv, b.se_slope_mv
         );
     }
+    if t.clamped
+        && let Ok(d) = crate::analysis::block::dose_block(t, 0)
+    {
+        match d.fit {
+            Ok(f) => {
+                o += &format!(
+                    "\nHill fit of the fraction blocked ({}): IC50 = {} ± {} µM, Hill coefficient = {} ± {}\n",
+                    names.first().copied().unwrap_or_default(),
+                    significant(f.ic50_um),
+                    significant(f.se_ic50_um),
+                    significant(f.hill),
+                    significant(f.se_hill)
+                );
+            }
+            Err(e) => o += &format!("\nno Hill fit: {e}\n"),
+        }
+    }
     o
+}
+
+/// Four significant digits, in scientific notation when very small or large.
+fn significant(x: f64) -> String {
+    let a = x.abs();
+    if a != 0.0 && !(1e-3..1e5).contains(&a) {
+        format!("{x:.3e}")
+    } else {
+        let digits = if a == 0.0 {
+            0
+        } else {
+            (3 - a.log10().floor() as i32).max(0) as usize
+        };
+        format!("{x:.digits$}")
+    }
 }

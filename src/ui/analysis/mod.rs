@@ -1,12 +1,14 @@
 //! The "Analysis" window: comparing kept traces (`kept`), scans of one input, the
-//! dose–response of an agent and permeability-ratio fits (`fit_view`). Scans, dose–responses
-//! and fits run on a background thread (rayon inside, through `analysis::scan`), with a
-//! progress bar and Cancel, so the window keeps drawing and the live run keeps running.
-//! Each plot ([`PlotView`]) reads its curves at the pointer's x and has a "Fit view" button;
-//! a scan's values are listed in a table and exported with the command line's own CSV writer.
+//! dose–response of an agent, permeability-ratio fits (`fit_view`) and a control family
+//! against the present one (`lost`). Scans, dose–responses and fits run on a background
+//! thread (rayon inside, through `analysis::scan`), with a progress bar and Cancel, so the
+//! window keeps drawing and the live run keeps running. Each plot ([`PlotView`]) reads its
+//! curves at the pointer's x and has a "Fit view" button; a scan's values are listed in a
+//! table and exported with the command line's own CSV writer.
 
 pub mod fit;
 pub mod kept;
+pub mod lost;
 
 use std::path::PathBuf;
 use std::sync::Arc;
@@ -24,6 +26,7 @@ use crate::analysis::scan::{NernstLine, ScanControl, ScanPoint, ScanRange, Vary,
 use crate::scenario::Scenario;
 use crate::ui::command::Command;
 use crate::ui::dialogs::export::ExportKind;
+use crate::ui::state::family::FamilyResult;
 use crate::ui::theme::{neutral_color, potential_color, species_color};
 use fit::{FitForm, FitOutput};
 use kept::Kept;
@@ -52,6 +55,10 @@ pub enum AnalysisCommand {
     ChooseFitData,
     /// Load measured points from this file.
     LoadFitData(PathBuf),
+    /// Keep the present family's measurements as the control of the "Lost current" tab.
+    KeepControlFamily,
+    /// Drop the kept control family.
+    ForgetControlFamily,
 }
 
 /// The window's tabs.
@@ -62,14 +69,17 @@ pub enum AnalysisTab {
     Scan,
     DoseResponse,
     Fit,
+    /// A control family against the present one, and IC50 on current.
+    LostCurrent,
 }
 
 impl AnalysisTab {
-    const ALL: [AnalysisTab; 4] = [
+    const ALL: [AnalysisTab; 5] = [
         AnalysisTab::Compare,
         AnalysisTab::Scan,
         AnalysisTab::DoseResponse,
         AnalysisTab::Fit,
+        AnalysisTab::LostCurrent,
     ];
 
     fn label(self) -> &'static str {
@@ -78,6 +88,7 @@ impl AnalysisTab {
             AnalysisTab::Scan => "Scan",
             AnalysisTab::DoseResponse => "Dose–response",
             AnalysisTab::Fit => "Fit",
+            AnalysisTab::LostCurrent => "Lost current",
         }
     }
 }
@@ -250,6 +261,8 @@ pub struct Analysis {
     pub scan_view: PlotView,
     pub dose_view: PlotView,
     pub fit_view: PlotView,
+    /// The family kept as control for the "Lost current" tab.
+    pub control_family: Option<lost::ControlFamily>,
     job: Option<Job>,
 }
 
@@ -309,8 +322,10 @@ impl Analysis {
                 }
             }
             AnalysisCommand::LoadFitData(path) => self.fit.load(&path),
-            // Keeping needs the run and choosing a file the app's file chooser: the app does those.
-            AnalysisCommand::Keep | AnalysisCommand::ChooseFitData => {}
+            AnalysisCommand::ForgetControlFamily => self.control_family = None,
+            // Keeping needs the run or the family, and choosing a file the app's file chooser:
+            // the app does those.
+            AnalysisCommand::Keep | AnalysisCommand::ChooseFitData | AnalysisCommand::KeepControlFamily => {}
         }
     }
 
@@ -431,7 +446,14 @@ impl Analysis {
     }
 
     /// The window.
-    pub fn show(&mut self, ui: &Ui, s: &Scenario, can_keep: bool, commands: &mut Vec<Command>) {
+    pub fn show(
+        &mut self,
+        ui: &Ui,
+        s: &Scenario,
+        can_keep: bool,
+        family: Option<&FamilyResult>,
+        commands: &mut Vec<Command>,
+    ) {
         self.follow(s);
         let mut open = self.open;
         let ctx = ui.ctx().clone();
@@ -458,6 +480,9 @@ impl Analysis {
                     AnalysisTab::Fit => {
                         let busy = self.job.is_some();
                         fit::show(ui, &mut self.fit, s, busy, &mut self.fit_view, commands);
+                    }
+                    AnalysisTab::LostCurrent => {
+                        lost::show(ui, self.control_family.as_ref(), family, s, commands);
                     }
                 }
             });

@@ -9,6 +9,7 @@ use egui::util::undoer::Undoer;
 
 use super::App;
 use crate::scenario;
+use crate::ui::analysis::lost::ControlFamily;
 use crate::ui::analysis::{AnalysisCommand, AnalysisTab};
 use crate::ui::command::{Command, FilePurpose};
 use crate::ui::dialogs::export::{self, ExportKind, Shown};
@@ -103,6 +104,7 @@ impl App {
             Command::Recover(restore) => self.recover(restore),
             Command::CancelFamily => self.family.cancel(),
             Command::Analysis(AnalysisCommand::Keep) => self.keep_trace(),
+            Command::Analysis(AnalysisCommand::KeepControlFamily) => self.keep_control_family(),
             Command::Analysis(AnalysisCommand::ChooseFitData) => self.choose_file(FilePurpose::FitData, ctx),
             Command::Analysis(AnalysisCommand::LoadFitData(path)) => {
                 // The typed-path dialog that asked for the file has done its job.
@@ -376,6 +378,27 @@ impl App {
         self.analysis.open = true;
         self.analysis.tab = AnalysisTab::Compare;
         self.set_notice(format!("Kept \"{name}\""));
+    }
+
+    /// Keeps the present family's measurements as the control of the "Lost current" tab and
+    /// shows that tab.
+    fn keep_control_family(&mut self) {
+        if self.family.progress().is_some() {
+            self.set_notice("The family is still running: keep it as the control when it is done");
+            return;
+        }
+        let Some(r) = &self.family.result else {
+            self.set_notice("No family to keep: this scenario has no finished family of runs");
+            return;
+        };
+        let title = self.doc.scenario().title.clone();
+        self.analysis.control_family = Some(ControlFamily {
+            title: title.clone(),
+            table: r.table.clone(),
+        });
+        self.analysis.open = true;
+        self.analysis.tab = AnalysisTab::LostCurrent;
+        self.set_notice(format!("Kept the family of \"{title}\" as the control"));
     }
 
     pub(super) fn export_done(&mut self, done: Result<String, String>) {

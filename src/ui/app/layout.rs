@@ -158,7 +158,13 @@ impl App {
             plots.show(ui, &input, Some(&mut commands));
         });
         if analysis.open {
-            analysis.show(ui, scenario, runtime.shown_len() > 0, &mut commands);
+            analysis.show(
+                ui,
+                scenario,
+                runtime.shown_len() > 0,
+                family.result.as_ref(),
+                &mut commands,
+            );
         }
 
         if let Some(d) = dialog {

@@ -7,6 +7,7 @@ use egui::{RichText, ScrollArea, Ui};
 use egui_plot::{HLine, Line, LineStyle, MarkerShape, Plot, Points, VLine};
 
 use crate::scenario::Scenario;
+use crate::ui::analysis::AnalysisCommand;
 use crate::ui::command::Command;
 use crate::ui::panels::plots::{hover_label, nice_label, nice_steps};
 use crate::ui::state::family::FamilyState;
@@ -54,6 +55,17 @@ pub fn show(ui: &mut Ui, f: &FamilyState, s: &Scenario, commands: &mut Vec<Comma
         ui.colored_label(ui.visuals().warn_fg_color, e);
     }
     let Some(r) = &f.result else { return };
+    // Block is read from the clamp current, so only a voltage-clamp family is a control.
+    if r.runs.clamped
+        && ui
+        .add_enabled(f.progress().is_none(), egui::Button::new("Keep as control"))
+        .on_hover_text(
+            "Keep these measurements, change the scenario (add a blocker, raise its dose), and read the current lost at each level in Analysis → Lost current",
+        )
+        .clicked()
+    {
+        commands.push(Command::Analysis(AnalysisCommand::KeepControlFamily));
+    }
     let t = &r.table;
     let Some(measure) = t.measures.first() else { return };
     let clamped = r.runs.clamped;
