@@ -22,6 +22,7 @@ pub mod dialogs;
 pub mod panels;
 mod shortcuts;
 pub mod state;
+pub mod time;
 mod theme;
 mod widgets;
 
