@@ -226,6 +226,7 @@ mod tests {
             .filter(|m| m.step_size >= 120_000.0 - 1e-6)
             .map(|m| TimeUnit::Min.tick_label(*m))
             .collect();
-        assert_eq!(labelled, ["0", "2", "4", "6", "8", "10"]);
+        // egui_plot leaves out a line on the upper bound itself.
+        assert_eq!(labelled, ["0", "2", "4", "6", "8"]);
     }
 }

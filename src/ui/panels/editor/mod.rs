@@ -70,7 +70,7 @@ fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
     ui.heading("Ions and permeabilities")
         .on_hover_text("The file's values: what the cell starts from at t = 0");
     ui.label(
-        RichText::new("At start (t = 0). The readouts below show the run now.")
+        RichText::new("Values at the start of the run; the readouts below show them now too.")
             .small()
             .weak(),
     );
