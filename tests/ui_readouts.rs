@@ -222,6 +222,14 @@ fn the_lower_plot_is_sized_from_the_steady_state_before_a_run_and_from_the_data_
         hi >= top && hi - lo < 4.0 * pump_max,
         "{lo}..{hi} with a pump at {top}"
     );
+    // After a restart, before the run again: the axis holds every current at t = 0.
+    let at_start: Vec<f64> = d.currents_ua_per_cm2.iter().map(|c| c[0]).collect();
+    h.get_by_label("↺ Restart").click();
+    h.run_steps(3);
+    let [_, (lo, hi)] = h.state().plot_y_ranges().expect("drawn");
+    for i in at_start {
+        assert!(lo <= i && i <= hi, "{i} µA/cm² outside {lo}..{hi}");
+    }
 }
 
 // Point 6: the pump example's notes said to watch inside concentrations, which no plot showed.

@@ -22,8 +22,8 @@ pub mod dialogs;
 pub mod panels;
 mod shortcuts;
 pub mod state;
-pub mod time;
 mod theme;
+pub mod time;
 mod widgets;
 
 pub use dialogs::export;

@@ -160,7 +160,7 @@ impl LowerRange {
 }
 
 /// Every column the lower plot draws in `view`, each a value per sample.
-fn lower_columns<'a>(d: &'a Derived, view: LowerPlot) -> Vec<&'a [f64]> {
+fn lower_columns(d: &Derived, view: LowerPlot) -> Vec<&[f64]> {
     match view {
         LowerPlot::Currents => d
             .currents_ua_per_cm2
