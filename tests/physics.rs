@@ -803,3 +803,40 @@ fn no_ion_on_either_side_leaves_the_steady_state_undefined() {
     assert_eq!(ss.resting_mv, Err(Undefined::NoCurrent));
     assert!(ss.crossings.is_empty());
 }
+
+#[test]
+fn the_ghk_potential_follows_the_concentrations_in_force_not_the_files() {
+    // Goldman 1943; Hodgkin & Katz 1949: V = (RT/F) ln((P_K K_o + P_Na Na_o + P_Cl Cl_i) /
+    // (P_K K_i + P_Na Na_i + P_Cl Cl_o)), written out here with CODATA 2018 R and F (exact in
+    // the 2019 SI) at 37 °C.
+    let rt_f_mv = 8.314_462_618_153_24 * (37.0 + 273.15) / 96_485.332_123_310_02 * 1e3;
+    let closed = |k_o: f64, na_i: f64| {
+        let num = 5e-7 * k_o + 2e-8 * 145.0 + 1e-7 * 10.0;
+        let den = 5e-7 * 140.0 + 2e-8 * na_i + 1e-7 * 120.0;
+        rt_f_mv * (num / den).ln()
+    };
+    let m = Membrane::new(
+        37.0,
+        1.0,
+        vec![
+            ion(1, 140.0, 5.0, 5e-7),
+            ion(1, 12.0, 145.0, 2e-8),
+            ion(-1, 10.0, 120.0, 1e-7),
+        ],
+        vec![],
+        None,
+    );
+    // The file's concentrations: the resting report's GHK potential.
+    let file = m.file_values();
+    let at_file = m.ghk_potential_mv(&file).expect("defined");
+    // To the root finder's tolerance, far below a readout's 0.1 mV.
+    assert!((at_file - closed(5.0, 12.0)).abs() < 1e-6, "{at_file}");
+    // A raised bath K+ and a loaded inside Na+, with a blocker's factor that the GHK
+    // potential of the resting permeabilities does not see.
+    let mut now = file.clone();
+    now.outside_mm[0] = 25.0;
+    now.inside_mm[1] = 20.0;
+    now.p_factor[0] = 0.5;
+    let at_now = m.ghk_potential_mv(&now).expect("defined");
+    assert!((at_now - closed(25.0, 20.0)).abs() < 1e-6, "{at_now}");
+}

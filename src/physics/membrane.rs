@@ -3,7 +3,7 @@
 //! and the analysis all compute currents through [`Membrane::currents`].
 
 use super::gates::{Kinetics, temperature_factor};
-use super::{ghk_current_ua_per_cm2, pump};
+use super::{Undefined, ghk_current_ua_per_cm2, ghk_potential_mv, pump};
 
 /// One permeant species with its file values.
 #[derive(Debug, Clone, PartialEq)]
@@ -155,6 +155,25 @@ impl Membrane {
             inject_ua_per_cm2: 0.0,
             pump_block: 0.0,
         }
+    }
+
+    /// The GHK potential of the resting permeabilities alone (no channels, pump, factors or
+    /// injection) with the concentrations of `cond`: with the file's own concentrations it is
+    /// the resting report's GHK potential, and along a run it follows the bath and the inside
+    /// as they change, so the window's GHK line and its readouts "now" have one source.
+    pub fn ghk_potential_mv(&self, cond: &Conditions) -> Result<f64, Undefined> {
+        let ions: Vec<Ion> = self
+            .ions
+            .iter()
+            .zip(cond.inside_mm.iter().zip(&cond.outside_mm))
+            .map(|(ion, (inside, outside))| Ion {
+                charge: ion.charge,
+                inside_mm: inside.max(0.0),
+                outside_mm: outside.max(0.0),
+                p_cm_per_s: ion.p_cm_per_s,
+            })
+            .collect();
+        ghk_potential_mv(&ions, self.temperature_c)
     }
 
     /// Total permeability of species `s` at this instant, cm/s.

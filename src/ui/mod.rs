@@ -23,6 +23,7 @@ pub mod panels;
 mod shortcuts;
 pub mod state;
 mod theme;
+pub mod time;
 mod widgets;
 
 pub use dialogs::export;

@@ -19,7 +19,7 @@ use crate::ui::dialogs::{Dialog, Pending};
 use crate::ui::panels::plots::{PlotInput, Plots};
 use crate::ui::panels::presentation;
 use crate::ui::state::document::{Document, Origin};
-use crate::ui::state::prefs::{self, Prefs};
+use crate::ui::state::prefs::{self, Prefs, Speed};
 use crate::ui::theme;
 
 impl App {
@@ -205,6 +205,10 @@ impl App {
         self.readouts.refresh(&self.doc);
         self.side.document_loaded(self.doc.scenario());
         self.presentation.document_loaded();
+        // A speed chosen for the last scenario may suit this one badly (a quarter-second
+        // demo's 50 ms/s makes a minute-long run last twenty minutes).
+        self.prefs.speed = Speed::Auto;
+        self.plots.clear_cursor();
     }
 
     fn keep_recent(&mut self) {
@@ -342,6 +346,7 @@ impl App {
             generation: self.runtime.generation,
             kept: &self.analysis.kept.traces,
             family: self.family.result.as_ref(),
+            start: self.runtime.start_readout(),
         };
         let mut plots = Plots::default();
         let style = ctx.global_style();

@@ -109,9 +109,15 @@ impl App {
                 .size_range(240.0..=(width * 0.4).max(240.0))
                 .resizable(true)
                 .show(ui, |ui| {
+                    let cursor = plots.cursor_ms();
                     let info = EditorInfo {
                         rest: &readouts.rest,
                         now_ms: runtime.shown_ms(),
+                        at_start: runtime.at_start(),
+                        now: runtime
+                            .snapshot_at(cursor.unwrap_or_else(|| runtime.shown_ms()))
+                            .or_else(|| runtime.at_start()),
+                        at_cursor: cursor.is_some(),
                     };
                     editor::show(
                         ui,
@@ -154,6 +160,7 @@ impl App {
                 generation: runtime.generation,
                 kept: &analysis.kept.traces,
                 family: family.result.as_ref(),
+                start: runtime.start_readout(),
             };
             plots.show(ui, &input, Some(&mut commands));
         });

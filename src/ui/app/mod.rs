@@ -384,6 +384,21 @@ impl App {
     }
 
     /// Whether the window is in presentation.
+    /// Where a click on a plot placed the cursor, ms.
+    pub fn plot_cursor_ms(&self) -> Option<f64> {
+        self.plots.cursor_ms()
+    }
+
+    /// Each plot's y range as last drawn (upper in mV, lower in its view's unit).
+    pub fn plot_y_ranges(&self) -> Option<[(f64, f64); 2]> {
+        self.plots.y_shown()
+    }
+
+    /// The unit the plots' time axis was last written in.
+    pub fn plot_time_unit(&self) -> crate::ui::time::TimeUnit {
+        self.plots.time_unit()
+    }
+
     pub fn presenting(&self) -> bool {
         self.presentation.on
     }

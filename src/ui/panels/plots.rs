@@ -11,7 +11,7 @@ use egui_plot::{
 use crate::analysis::RestReport;
 use crate::analysis::decimate::Decimator;
 use crate::analysis::family::Member;
-use crate::engine::Trace;
+use crate::engine::{Readout, Trace};
 use crate::scenario::{Event, Interval, Scenario, Wording};
 use crate::ui::analysis::kept::KeptTrace;
 use crate::ui::command::Command;
@@ -21,6 +21,7 @@ use crate::ui::state::family::FamilyResult;
 use crate::ui::state::prefs::LowerPlot;
 use crate::ui::state::runtime::Derived;
 use crate::ui::theme::{band_fill, neutral_color, potential_color, species_color};
+use crate::ui::time::TimeUnit;
 use std::collections::HashMap;
 
 /// Reversal lines further than this from 0 mV are left out of the automatic range (they are
@@ -45,6 +46,8 @@ pub struct PlotInput<'a> {
     pub kept: &'a [KeptTrace],
     /// The family of runs, each drawn under the live run.
     pub family: Option<&'a FamilyResult>,
+    /// The state at the start of the run, for axes before the run has a sample.
+    pub start: Option<&'a Readout>,
 }
 
 /// Dash patterns of successive runs of a family, so that runs differ without colour.
@@ -129,6 +132,89 @@ pub struct Plots {
     reversal_spans: Vec<(String, f64, f64)>,
     /// The lower plot's axis title as last drawn.
     lower_title: &'static str,
+    /// Where the user last clicked a plot, ms: the readouts "now" are read there.
+    cursor_ms: Option<f64>,
+    /// Each plot's y range as last drawn (upper, lower).
+    y_shown: Option<[(f64, f64); 2]>,
+    /// The unit the time axis was last written in.
+    time_unit: TimeUnit,
+    /// The lower plot's data range so far, updated with new samples only.
+    lower_range: LowerRange,
+}
+
+/// The range of the lower plot's values over the samples shown so far.
+#[derive(Debug, Default)]
+struct LowerRange {
+    /// The run generation and view it was taken for.
+    key: Option<(u64, LowerPlot)>,
+    done: usize,
+    lo: f64,
+    hi: f64,
+}
+
+impl LowerRange {
+    fn take(&mut self, v: f64) {
+        if v.is_finite() {
+            self.lo = self.lo.min(v);
+            self.hi = self.hi.max(v);
+        }
+    }
+}
+
+/// Every column the lower plot draws in `view`, each a value per sample.
+fn lower_columns(d: &Derived, view: LowerPlot) -> Vec<&[f64]> {
+    match view {
+        LowerPlot::Currents => d
+            .currents_ua_per_cm2
+            .iter()
+            .map(Vec::as_slice)
+            .chain([
+                d.pump_ua_per_cm2.as_slice(),
+                d.net_ua_per_cm2.as_slice(),
+                d.inject_ua_per_cm2.as_slice(),
+                d.clamp_ua_per_cm2.as_slice(),
+            ])
+            .collect(),
+        LowerPlot::Permeabilities => d.log10_p.iter().map(Vec::as_slice).collect(),
+        LowerPlot::Gates => Vec::new(),
+        LowerPlot::Volume => vec![d.volume_rel.as_slice()],
+        LowerPlot::Osmolarity => vec![d.osm_in_mosm.as_slice(), d.osm_out_mosm.as_slice()],
+        LowerPlot::Concentrations => d.inside_mm.iter().map(Vec::as_slice).collect(),
+    }
+}
+
+/// The same values at the start of a run that has no sample yet (the steady state, or the
+/// file's state), so the axis before a run is sized from them and not left to guess.
+fn start_values(r: &Readout, view: LowerPlot) -> Vec<f64> {
+    let c = &r.currents;
+    match view {
+        LowerPlot::Currents => c
+            .species_ua_per_cm2
+            .iter()
+            .copied()
+            .chain([
+                c.pump_ua_per_cm2,
+                c.net_ua_per_cm2,
+                c.inject_ua_per_cm2,
+                c.clamp_ua_per_cm2,
+            ])
+            .collect(),
+        LowerPlot::Permeabilities | LowerPlot::Gates => Vec::new(),
+        LowerPlot::Volume => vec![r.volume_rel],
+        LowerPlot::Osmolarity => vec![r.osm_in_mosm, r.osm_out_mosm],
+        LowerPlot::Concentrations => r.conditions.inside_mm.clone(),
+    }
+}
+
+/// Whether the lower plot can show `choice` for this scenario: the volume views need a
+/// tracked volume, the inside concentrations concentrations that change.
+pub fn lower_offered(choice: LowerPlot, s: &Scenario) -> bool {
+    let volume = !s.cell.volume.is_fixed();
+    match choice {
+        LowerPlot::Volume | LowerPlot::Osmolarity => volume,
+        LowerPlot::Concentrations => volume || s.cell.track_concentrations,
+        _ => true,
+    }
 }
 
 /// The decimated points of one line, reusing its decimator while the view is unchanged.
@@ -175,6 +261,7 @@ impl Plots {
     pub fn show(&mut self, ui: &mut Ui, input: &PlotInput, controls: Option<&mut Vec<Command>>) {
         let link = Id::unique("permeant time axis");
         let duration = input.scenario.run.duration_ms.max(1e-6);
+        let unit = TimeUnit::for_duration(duration);
         let total = ui.available_height();
         let selector_h = ui.spacing().interact_size.y + 6.0;
         let upper_h = ((total - selector_h) * 0.58).max(120.0);
@@ -200,17 +287,18 @@ impl Plots {
             .link_cursor(link, [true, false])
             .y_axis_label("Membrane potential (mV)")
             .y_axis_min_width(axis_w)
-            .x_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
+            .x_grid_spacer(unit.grid_spacer())
             .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
-            .x_axis_formatter(nice_label)
+            .x_axis_formatter(move |mark, _| unit.tick_label(mark))
             .y_axis_formatter(nice_label)
-            .label_formatter(|h| hover_label(h, "ms", "mV"))
+            .label_formatter(move |h| unit.hover_label(h, "mV"))
             .show(ui, |pui| {
                 if follow {
                     pui.set_plot_bounds_x(0.0..=duration);
                     pui.set_plot_bounds_y(y_lo..=y_hi);
                 }
                 self.reversal_spans = potential_items(&mut self.lines, pui, input);
+                cursor_line(pui, self.cursor_ms);
             });
         self.axis_w[0] = upper.response.rect.left() - left;
         kept_legend(ui, upper.response.rect, input.kept);
@@ -222,16 +310,20 @@ impl Plots {
             && near(upper_bounds.min()[1], y_lo)
             && near(upper_bounds.max()[1], y_hi);
 
-        if let Some(commands) = controls
-            && lower_choice(ui, input, self.zoomed, commands)
-        {
-            self.fit = true;
-            ui.ctx().request_repaint();
+        if let Some(commands) = controls {
+            let (fit, clear) = lower_choice(ui, input, self.zoomed, self.cursor_ms, commands);
+            if fit {
+                self.fit = true;
+                ui.ctx().request_repaint();
+            }
+            if clear {
+                self.cursor_ms = None;
+            }
         }
 
         // A volume view chosen for another cell shows currents while this cell's volume is fixed.
         let view = match input.lower {
-            v if v.needs_tracked_volume() && input.scenario.cell.volume.is_fixed() => LowerPlot::Currents,
+            v if !lower_offered(v, input.scenario) => LowerPlot::Currents,
             v => v,
         };
         let (y_label, fixed_y) = match view {
@@ -240,20 +332,30 @@ impl Plots {
             LowerPlot::Gates => ("Open fraction", Some((-0.02, 1.02))),
             LowerPlot::Volume => ("Volume (relative to start)", None),
             LowerPlot::Osmolarity => ("Osmolarity (mOsm/L)", None),
+            LowerPlot::Concentrations => ("Inside concentration (mM)", None),
         };
         self.lower_title = y_label;
+        let y_unit = match view {
+            LowerPlot::Currents => "µA/cm²",
+            LowerPlot::Permeabilities => "(log₁₀ cm/s)",
+            LowerPlot::Gates | LowerPlot::Volume => "",
+            LowerPlot::Osmolarity => "mOsm/L",
+            LowerPlot::Concentrations => "mM",
+        };
+        let lower_y = fixed_y.or_else(|| self.lower_y_range(input, view));
         let mut lower = Plot::new(("lower plot", view as u8))
             .height(ui.available_height().max(80.0))
             .default_x_bounds(0.0, duration)
             .link_axis(link, [true, false])
             .link_cursor(link, [true, false])
-            .x_axis_label("Time (ms)")
+            .x_axis_label(unit.axis_title())
             .y_axis_label(y_label)
             .y_axis_min_width(axis_w)
-            .x_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
+            .x_grid_spacer(unit.grid_spacer())
             .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
-            .x_axis_formatter(nice_label)
+            .x_axis_formatter(move |mark, _| unit.tick_label(mark))
             .y_axis_formatter(nice_label)
+            .label_formatter(move |h| unit.hover_label(h, y_unit))
             .legend(Legend::default().position(Corner::LeftTop).background_alpha(0.6));
         if let Some((lo, hi)) = fixed_y {
             lower = lower.default_y_bounds(lo, hi);
@@ -266,26 +368,127 @@ impl Plots {
             // Not when the upper plot was just moved: the lower one takes its time range.
             if follow && upper_home {
                 pui.set_plot_bounds_x(0.0..=duration);
+                if let Some((lo, hi)) = lower_y {
+                    pui.set_plot_bounds_y(lo..=hi);
+                }
             }
+            cursor_line(pui, self.cursor_ms);
             match view {
                 LowerPlot::Currents => current_items(&mut self.lines, pui, input),
                 LowerPlot::Permeabilities => permeability_items(&mut self.lines, pui, input),
                 LowerPlot::Gates => gate_items(&mut self.lines, pui, input),
                 LowerPlot::Volume => volume_items(&mut self.lines, pui, input),
                 LowerPlot::Osmolarity => osmolarity_items(&mut self.lines, pui, input),
+                LowerPlot::Concentrations => concentration_items(&mut self.lines, pui, input),
             }
         });
         // A view away from the whole run was zoomed or moved by the pointer: it stays until
         // "Fit view" (or a double-click) brings it home.
         let lower_bounds = shown.transform.bounds();
-        self.zoomed =
-            !(upper_home && near(lower_bounds.min()[0], 0.0) && near(lower_bounds.max()[0], duration));
+        let lower_y_home =
+            lower_y.is_none_or(|(lo, hi)| near(lower_bounds.min()[1], lo) && near(lower_bounds.max()[1], hi));
+        self.zoomed = !(upper_home
+            && lower_y_home
+            && near(lower_bounds.min()[0], 0.0)
+            && near(lower_bounds.max()[0], duration));
+        // A click (not a drag) on either plot puts the cursor there.
+        for (response, transform) in [
+            (&upper.response, &upper.transform),
+            (&shown.response, &shown.transform),
+        ] {
+            if response.clicked()
+                && let Some(pos) = response.interact_pointer_pos()
+            {
+                let t = transform.value_from_position(pos).x;
+                self.cursor_ms = Some(t.clamp(0.0, duration));
+            }
+        }
         self.axis_w[1] = shown.response.rect.left() - left;
         self.frames = Some([upper.response.rect, shown.response.rect]);
+        self.y_shown = Some([
+            (upper_bounds.min()[1], upper_bounds.max()[1]),
+            (lower_bounds.min()[1], lower_bounds.max()[1]),
+        ]);
+        self.time_unit = unit;
         if self.axis_w[0] != self.axis_w[1] {
             // Widened next frame: draw it then.
             ui.ctx().request_repaint();
         }
+    }
+
+    /// Each plot's y range as last drawn (upper, lower), in its own unit.
+    pub fn y_shown(&self) -> Option<[(f64, f64); 2]> {
+        self.y_shown
+    }
+
+    /// The unit the time axis was last written in.
+    pub fn time_unit(&self) -> TimeUnit {
+        self.time_unit
+    }
+
+    /// The cursor a click on a plot placed, ms.
+    pub fn cursor_ms(&self) -> Option<f64> {
+        self.cursor_ms
+    }
+
+    /// Takes the cursor away: the readouts "now" go back to the end of what is shown.
+    pub fn clear_cursor(&mut self) {
+        self.cursor_ms = None;
+    }
+
+    /// The lower plot's automatic range: every value drawn so far (before a run, the values at
+    /// its start), with a margin; a flat line gets a span of its own size.
+    fn lower_y_range(&mut self, input: &PlotInput, view: LowerPlot) -> Option<(f64, f64)> {
+        let r = &mut self.lower_range;
+        let key = (input.generation, view);
+        let cols = lower_columns(input.derived, view);
+        let n = cols
+            .iter()
+            .map(|c| c.len())
+            .min()
+            .unwrap_or(0)
+            .min(input.shown_len);
+        if r.key != Some(key) || n < r.done {
+            *r = LowerRange {
+                key: Some(key),
+                done: 0,
+                lo: f64::INFINITY,
+                hi: f64::NEG_INFINITY,
+            };
+        }
+        for c in &cols {
+            for &v in &c[r.done..n] {
+                r.take(v);
+            }
+        }
+        r.done = n;
+        let (mut lo, mut hi) = (r.lo, r.hi);
+        if n == 0 {
+            // Nothing shown yet: the start alone, not what a previous run left.
+            (lo, hi) = (f64::INFINITY, f64::NEG_INFINITY);
+            for v in input.start.map(|s| start_values(s, view)).unwrap_or_default() {
+                if v.is_finite() {
+                    lo = lo.min(v);
+                    hi = hi.max(v);
+                }
+            }
+        }
+        if view == LowerPlot::Currents && lo <= hi {
+            // The zero line is part of a current plot.
+            lo = lo.min(0.0);
+            hi = hi.max(0.0);
+        }
+        if lo > hi {
+            // Nothing finite to size the axis from.
+            return None;
+        }
+        let span = hi - lo;
+        let floor = match view {
+            LowerPlot::Permeabilities => 0.5,
+            _ => (0.05 * lo.abs().max(hi.abs())).max(1e-3),
+        };
+        let pad = (0.08 * span).max(if span < floor { (floor - span) / 2.0 } else { 0.0 });
+        Some((lo - pad, hi + pad))
     }
 
     /// Each reversal line as last drawn: its name ("E K+") and the time span (ms) it covers.
@@ -372,18 +575,26 @@ impl Plots {
 
 /// The choice of what the lower plot shows, between the two plots, and "Fit view" (whether
 /// it was clicked is returned): marked while a zoom or move keeps the view from following the run.
-fn lower_choice(ui: &mut Ui, input: &PlotInput, zoomed: bool, commands: &mut Vec<Command>) -> bool {
+/// Beside it, the cursor's time with a button that takes the cursor away (whether it was
+/// clicked is returned second).
+fn lower_choice(
+    ui: &mut Ui,
+    input: &PlotInput,
+    zoomed: bool,
+    cursor_ms: Option<f64>,
+    commands: &mut Vec<Command>,
+) -> (bool, bool) {
     let mut fit = false;
+    let mut clear = false;
     // Wrapped, never wider than the plots: a row wider than the panel would widen the lower
     // plot past the upper one (and past the window's edge with large text).
     ui.horizontal_wrapped(|ui| {
         // Clear of the lower plot's rotated axis label, which can be taller than its plot.
         ui.add_space(ui.spacing().interact_size.y * 1.5);
         ui.label(RichText::new("Below:").small());
-        let tracked = !input.scenario.cell.volume.is_fixed();
         for choice in LowerPlot::ALL
             .into_iter()
-            .filter(|c| tracked || !c.needs_tracked_volume())
+            .filter(|c| lower_offered(*c, input.scenario))
         {
             if ui
                 .selectable_label(input.lower == choice, choice.label())
@@ -416,8 +627,15 @@ fn lower_choice(ui: &mut Ui, input: &PlotInput, zoomed: bool, commands: &mut Vec
             "Show the whole run (the plots follow it until you zoom or drag them)."
         };
         fit = ui.button(label).on_hover_text(hover).clicked();
+        if let Some(t) = cursor_ms {
+            let unit = TimeUnit::for_duration(input.scenario.run.duration_ms);
+            clear = ui
+                .button(format!("Cursor {} ×", unit.format(t)))
+                .on_hover_text("The readouts \"now\" are read at this time; click to take the cursor away and read them at the end of what is shown. Click a plot to move it.")
+                .clicked();
+        }
     });
-    fit
+    (fit, clear)
 }
 
 /// The hover text of a plot: the nearest item's name, then both coordinates with units.
@@ -434,6 +652,19 @@ pub fn hover_label(h: &HoverPosition, x_unit: &str, y_unit: &str) -> Option<Stri
         format!("{name}\n")
     };
     Some(format!("{head}{:.2} {x_unit}\n{:.3} {y_unit}", p.x, p.y))
+}
+
+/// The cursor a click placed, as a line across the plot.
+fn cursor_line(pui: &mut PlotUi, cursor_ms: Option<f64>) {
+    if let Some(t) = cursor_ms {
+        let dark = pui.ctx().global_style().visuals.dark_mode;
+        pui.vline(
+            VLine::new("cursor", t)
+                .color(neutral_color(dark))
+                .width(1.2)
+                .style(LineStyle::dashed_dense()),
+        );
+    }
 }
 
 /// Tick labels of a log10 axis as powers of ten.
@@ -628,7 +859,50 @@ fn potential_items(
                 .anchor(egui::Align2::RIGHT_BOTTOM),
             );
         }
-        if let Ok(v) = r.ghk_mv {
+        let shown = input.trace.map_or(0, |t| input.shown_len.min(t.len()));
+        let ghk_along = (shown > 0 && input.derived.ghk_mv.len() >= shown)
+            .then_some(&input.derived.ghk_mv)
+            .zip(input.trace);
+        if let Some((col, trace)) = ghk_along {
+            // The concentrations change in this run: the GHK potential follows them, and
+            // after the shown part stays at its last value to the end of the axis.
+            let c = neutral_color(dark);
+            if let Some(line) = series(lines, pui, input, col, "GHK potential".into()) {
+                pui.line(line.color(c).width(1.2).style(LineStyle::dotted_loose()));
+            }
+            let t_last = trace.t_ms[shown - 1];
+            let end = x_right.max(input.scenario.run.duration_ms);
+            let last = col[..shown].iter().rev().find(|e| e.is_finite()).copied();
+            if let Some(e) = last
+                && end > t_last
+            {
+                pui.line(
+                    Line::new("GHK potential", vec![[t_last, e], [end, e]])
+                        .color(c)
+                        .width(1.2)
+                        .style(LineStyle::dotted_loose()),
+                );
+            }
+            // Labelled with its value at the left edge of the view.
+            let k = trace.t_ms[..shown]
+                .partition_point(|&t| t < x_left)
+                .min(shown - 1);
+            let at_left = if trace.t_ms[shown - 1] < x_left {
+                last
+            } else {
+                Some(col[k])
+            };
+            if let Some(v) = at_left.filter(|v| v.is_finite()) {
+                pui.text(
+                    Text::new(
+                        "GHK label",
+                        PlotPoint::new(x_left, v),
+                        RichText::new(format!(" GHK {v:+.1} mV")).color(c),
+                    )
+                    .anchor(egui::Align2::LEFT_BOTTOM),
+                );
+            }
+        } else if let Ok(v) = r.ghk_mv {
             let c = neutral_color(dark);
             pui.hline(
                 HLine::new("GHK potential", v)
@@ -755,6 +1029,18 @@ fn volume_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input:
         .map(|l| l.color(potential_color(dark)).width(2.0))
     {
         pui.line(line);
+    }
+}
+
+/// Each species' inside concentration, mM, in its colour.
+fn concentration_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+    let d = input.derived;
+    for (i, (name, col)) in d.species.iter().zip(&d.inside_mm).enumerate() {
+        if let Some(line) = series(lines, pui, input, col, format!("{name} inside"))
+            .map(|l| l.color(species_color(i)).width(1.8))
+        {
+            pui.line(line);
+        }
     }
 }
 

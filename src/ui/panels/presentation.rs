@@ -140,28 +140,18 @@ fn bar(ui: &mut Ui, info: &PresentInfo, s: &Scenario, commands: &mut Vec<Command
         {
             commands.push(Command::Restart);
         }
-        egui::ComboBox::from_id_salt("presentation speed")
-            .selected_text(info.speed.label())
-            .width(90.0)
-            // Every choice in view, with no scrolling to reach the last.
-            .height(f32::INFINITY)
-            .show_ui(ui, |ui| {
-                for s in Speed::CHOICES {
-                    if ui.selectable_label(s == info.speed, s.label()).clicked() {
-                        commands.push(Command::SetSpeed(s));
-                    }
-                }
-            })
-            .response
-            .on_hover_text("Simulated milliseconds per second");
+        crate::ui::time::speed_box(ui, "presentation speed", info.speed, s.run.duration_ms, commands);
         ui.separator();
         let v = info
             .v_mv
             .map_or_else(|| "—".to_string(), |v| format!("{v:+.1} mV"));
         ui.label(
-            RichText::new(format!("t = {:.0} ms    V = {v}", info.shown_ms))
-                .size(18.0)
-                .strong(),
+            RichText::new(format!(
+                "t = {}    V = {v}",
+                crate::ui::time::TimeUnit::for_duration(s.run.duration_ms).format(info.shown_ms)
+            ))
+            .size(18.0)
+            .strong(),
         );
         ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
             if ui

@@ -30,7 +30,12 @@ pub fn show(ui: &mut Ui, info: &StatusInfo) {
         };
         ui.label(RichText::new(state).strong());
         ui.separator();
-        ui.monospace(format!("t = {:.1} ms of {} ms", info.shown_ms, info.duration_ms));
+        let unit = crate::ui::time::TimeUnit::for_duration(info.duration_ms);
+        ui.monospace(format!(
+            "t = {} of {}",
+            unit.format(info.shown_ms),
+            unit.format_short(info.duration_ms)
+        ));
         ui.separator();
         let v = info
             .v_mv

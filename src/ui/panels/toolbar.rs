@@ -10,7 +10,7 @@ use crate::ui::analysis::AnalysisCommand;
 use crate::ui::app::Example;
 use crate::ui::command::Command;
 use crate::ui::dialogs::export::ExportKind;
-use crate::ui::state::prefs::{Prefs, Speed, ThemeChoice};
+use crate::ui::state::prefs::{Prefs, ThemeChoice};
 use crate::ui::widgets::Editing;
 
 /// What the toolbar shows besides the scenario.
@@ -159,21 +159,14 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
             ed.commands.push(Command::Restart);
         }
         let speed_label = ui.label("Speed");
-        egui::ComboBox::from_id_salt("speed")
-            .selected_text(info.prefs.speed.label())
-            .width(84.0)
-            // Every choice in view, with no scrolling to reach the last.
-            .height(f32::INFINITY)
-            .show_ui(ui, |ui| {
-                for s in Speed::CHOICES {
-                    if ui.selectable_label(s == info.prefs.speed, s.label()).clicked() {
-                        ed.commands.push(Command::SetSpeed(s));
-                    }
-                }
-            })
-            .response
-            .labelled_by(speed_label.id)
-            .on_hover_text("Simulated milliseconds per second");
+        crate::ui::time::speed_box(
+            ui,
+            "speed",
+            info.prefs.speed,
+            ed.scenario.run.duration_ms,
+            ed.commands,
+        )
+        .labelled_by(speed_label.id);
         ui.separator();
         if ui
             .add_enabled(info.can_undo, egui::Button::new("↶ Undo"))

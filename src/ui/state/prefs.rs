@@ -27,6 +27,8 @@ pub enum LowerPlot {
     Permeabilities,
     /// Every gate's open fraction.
     Gates,
+    /// Each species' inside concentration, when inside concentrations are tracked.
+    Concentrations,
     /// The relative volume of a cell whose volume is tracked.
     Volume,
     /// Inside and bath osmolarity of a cell whose volume is tracked.
@@ -34,10 +36,11 @@ pub enum LowerPlot {
 }
 
 impl LowerPlot {
-    pub const ALL: [LowerPlot; 5] = [
+    pub const ALL: [LowerPlot; 6] = [
         LowerPlot::Currents,
         LowerPlot::Permeabilities,
         LowerPlot::Gates,
+        LowerPlot::Concentrations,
         LowerPlot::Volume,
         LowerPlot::Osmolarity,
     ];
@@ -50,27 +53,30 @@ impl LowerPlot {
             LowerPlot::Currents => "Currents",
             LowerPlot::Permeabilities => "Permeabilities",
             LowerPlot::Gates => "Gates",
+            LowerPlot::Concentrations => "Inside concentrations",
             LowerPlot::Volume => "Volume",
             LowerPlot::Osmolarity => "Osmolarity",
         }
     }
 }
 
-/// Simulated milliseconds per second of wall time, or as fast as the machine allows.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+/// Simulated milliseconds per second of wall time, as fast as the machine allows, or chosen
+/// from the run's length so that it finishes in a few seconds (the default).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, Default)]
 pub enum Speed {
     MsPerSecond(f64),
     Fastest,
+    #[default]
+    Auto,
 }
 
-impl Default for Speed {
-    fn default() -> Self {
-        Speed::MsPerSecond(50.0)
-    }
-}
+/// Wall time an automatic speed gives a whole run, seconds: long enough to watch it unfold,
+/// short enough that a one-minute or ten-minute run is not a wait.
+pub const AUTO_RUN_S: f64 = 5.0;
 
 impl Speed {
-    pub const CHOICES: [Speed; 9] = [
+    pub const CHOICES: [Speed; 12] = [
+        Speed::Auto,
         Speed::MsPerSecond(1.0),
         Speed::MsPerSecond(5.0),
         Speed::MsPerSecond(20.0),
@@ -78,16 +84,56 @@ impl Speed {
         Speed::MsPerSecond(200.0),
         Speed::MsPerSecond(1000.0),
         Speed::MsPerSecond(5000.0),
-        // A minute per second: a cell's volume changes over minutes.
+        Speed::MsPerSecond(20000.0),
+        // A minute per second and more: a cell's volume changes over minutes.
         Speed::MsPerSecond(60000.0),
+        Speed::MsPerSecond(300000.0),
         Speed::Fastest,
     ];
 
-    pub fn label(self) -> String {
+    /// The speed in force for a run of `duration_ms`: "auto" becomes the slowest speed on a
+    /// 1-2-5 ladder (in ms/s, s/s or min/s, whichever reads best) that shows the whole run
+    /// within [`AUTO_RUN_S`] seconds.
+    pub fn resolved(self, duration_ms: f64) -> Speed {
         match self {
-            Speed::MsPerSecond(v) if v >= 60000.0 => format!("{} min/s", v / 60000.0),
-            Speed::MsPerSecond(v) => format!("{v} ms/s"),
+            Speed::Auto => {
+                let raw = (duration_ms / AUTO_RUN_S).max(1.0);
+                let unit = if raw >= 60_000.0 {
+                    60_000.0
+                } else if raw >= 1_000.0 {
+                    1_000.0
+                } else {
+                    1.0
+                };
+                let x = raw / unit;
+                let decade = 10f64.powf(x.log10().floor());
+                let m = [1.0, 2.0, 5.0, 10.0]
+                    .into_iter()
+                    .find(|m| m * decade >= x * (1.0 - 1e-12))
+                    .unwrap_or(10.0);
+                Speed::MsPerSecond(m * decade * unit)
+            }
+            s => s,
+        }
+    }
+
+    /// The speed as written in a menu ("50 ms/s", "20 s/s", "2 min/s", "fastest", "auto").
+    pub fn label(self) -> String {
+        let n = crate::report::csv::number;
+        match self {
+            Speed::MsPerSecond(v) if v >= 60000.0 => format!("{} min/s", n(v / 60000.0)),
+            Speed::MsPerSecond(v) if v >= 1000.0 => format!("{} s/s", n(v / 1000.0)),
+            Speed::MsPerSecond(v) => format!("{} ms/s", n(v)),
             Speed::Fastest => "fastest".into(),
+            Speed::Auto => "auto".into(),
+        }
+    }
+
+    /// The label of the speed in force for a run of `duration_ms`: "auto (20 s/s)" for auto.
+    pub fn label_for(self, duration_ms: f64) -> String {
+        match self {
+            Speed::Auto => format!("auto ({})", self.resolved(duration_ms).label()),
+            s => s.label(),
         }
     }
 }
@@ -98,6 +144,10 @@ impl Speed {
 pub struct Prefs {
     pub theme: ThemeChoice,
     pub large_text: bool,
+    /// Not kept between sessions: a speed in ms/s suits runs of one length only, and one
+    /// saved for a quarter-second demo would make a minute-long run take twenty minutes.
+    /// Each session and each opened scenario start at "auto".
+    #[serde(skip)]
     pub speed: Speed,
     pub lower_plot: LowerPlot,
     pub show_iv: bool,
@@ -196,6 +246,28 @@ mod tests {
     use super::*;
 
     #[test]
+    fn auto_speed_shows_a_run_in_a_few_seconds() {
+        let ms_per_s = |d: f64| match Speed::Auto.resolved(d) {
+            Speed::MsPerSecond(v) => v,
+            s => panic!("{s:?}"),
+        };
+        // 250 ms at 50 ms/s: 5 s; 60 s at 20 s/s: 3 s; 10 min at 2 min/s: 5 s.
+        assert_eq!(ms_per_s(250.0), 50.0);
+        assert_eq!(ms_per_s(60_000.0), 20_000.0);
+        assert_eq!(ms_per_s(600_000.0), 120_000.0);
+        for d in [1.0, 7.0, 250.0, 1234.0, 60_000.0, 600_000.0, 3_600_000.0] {
+            let wall_s = d / ms_per_s(d);
+            assert!(
+                wall_s <= AUTO_RUN_S + 1e-9 && (d <= 5.0 || wall_s > 1.0),
+                "{d} ms: {wall_s} s"
+            );
+        }
+        assert_eq!(Speed::Auto.label_for(600_000.0), "auto (2 min/s)");
+        assert_eq!(Speed::MsPerSecond(60_000.0).label(), "1 min/s");
+        assert_eq!(Speed::MsPerSecond(5_000.0).label(), "5 s/s");
+    }
+
+    #[test]
     fn recent_files_keep_order_without_duplicates() {
         let mut r = Vec::new();
         for k in 0..12 {
@@ -223,7 +295,13 @@ mod tests {
         };
         store.save_prefs(&p).expect("saved");
         store.save_recent(&[PathBuf::from("/a/b.ron")]).expect("saved");
-        assert_eq!(store.load_prefs(), p);
+        assert_eq!(
+            store.load_prefs(),
+            Prefs {
+                speed: Speed::Auto,
+                ..p
+            }
+        );
         assert_eq!(store.load_recent(), vec![PathBuf::from("/a/b.ron")]);
         // Pins are kept as the field paths of the file; one this version does not know is
         // dropped, the others and every other preference kept.
@@ -236,6 +314,15 @@ mod tests {
         assert!(read.large_text);
         let pins: Vec<String> = read.pins.iter().map(ToString::to_string).collect();
         assert_eq!(pins, ["species[0].outside_mm", "protocol[2].dose_um"]);
+        // A speed saved by an older version is read past and not used.
+        std::fs::write(
+            dir.path().join("nested/prefs.ron"),
+            "(large_text: true, speed: MsPerSecond(50.0))",
+        )
+        .expect("written");
+        let old = store.load_prefs();
+        assert!(old.large_text);
+        assert_eq!(old.speed, Speed::Auto);
         store.save_prefs(&read).expect("saved");
         assert_eq!(store.load_prefs(), read);
         // A damaged file falls back to the defaults instead of failing.

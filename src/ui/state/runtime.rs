@@ -37,6 +37,12 @@ pub struct Derived {
     pub volume_rel: Vec<f64>,
     pub osm_in_mosm: Vec<f64>,
     pub osm_out_mosm: Vec<f64>,
+    /// Each species' inside concentration in force at each sample, mM.
+    pub inside_mm: Vec<Vec<f64>>,
+    /// The GHK potential of the resting permeabilities with the concentrations in force at
+    /// each sample (`Membrane::ghk_potential_mv`), mV, when any concentration changes during
+    /// the run; empty otherwise (the file's GHK potential holds throughout).
+    pub ghk_mv: Vec<f64>,
     /// Samples done for the currents and for the permeabilities.
     currents_done: usize,
     perms_done: usize,
@@ -65,6 +71,7 @@ impl Derived {
         remap(&mut self.currents_ua_per_cm2, &old_names, self.currents_done);
         remap(&mut self.log10_p, &old_names, self.perms_done);
         remap(&mut self.reversal_mv, &old_names, self.currents_done);
+        remap(&mut self.inside_mm, &old_names, self.currents_done);
         self.species = names.to_vec();
     }
 
@@ -96,6 +103,9 @@ impl Derived {
             self.osm_out_mosm.push(r.osm_out_mosm);
             self.clamp_ua_per_cm2.push(c.clamp_ua_per_cm2);
             self.command_mv.push(c.command_mv);
+            for (col, c) in self.inside_mm.iter_mut().zip(&r.conditions.inside_mm) {
+                col.push(*c);
+            }
             if any_varying {
                 for (s, col) in self.reversal_mv.iter_mut().enumerate() {
                     let e = match varying.get(s) {
@@ -104,6 +114,10 @@ impl Derived {
                     };
                     col.push(e.unwrap_or(f64::NAN));
                 }
+                // Padded when the concentrations started to vary only after an edit mid-run.
+                self.ghk_mv.resize(k, f64::NAN);
+                let ghk = model.membrane.ghk_potential_mv(&r.conditions);
+                self.ghk_mv.push(ghk.unwrap_or(f64::NAN));
             } else {
                 self.reversal_mv.iter_mut().for_each(|c| c.push(f64::NAN));
             }
@@ -129,6 +143,52 @@ impl Derived {
             self.perms_done += 1;
         }
     }
+}
+
+/// The cell at one stored sample, for the readouts "now".
+#[derive(Debug, Clone, PartialEq)]
+pub struct Snapshot {
+    pub t_ms: f64,
+    pub v_mv: f64,
+    /// The GHK potential with the concentrations in force (resting permeabilities).
+    pub ghk_mv: Option<f64>,
+    pub species: Vec<String>,
+    /// Concentrations in force, mM.
+    pub inside_mm: Vec<f64>,
+    pub outside_mm: Vec<f64>,
+    /// Each species' reversal potential with the concentrations in force, mV.
+    pub reversal_mv: Vec<Option<f64>>,
+    /// Whether each species' concentrations change during the run.
+    pub varying: Vec<bool>,
+}
+
+/// A stored state `y` at `t_ms` read through the model: the snapshot and the engine's readout.
+fn snapshot_of(model: &crate::engine::Model, t_ms: f64, y: &[f64]) -> (Snapshot, Readout) {
+    let mut r = model.readout();
+    model.read(t_ms, y, &mut r);
+    let cond = &r.conditions;
+    let t_c = model.membrane.temperature_c;
+    let reversal_mv = model
+        .membrane
+        .ions
+        .iter()
+        .enumerate()
+        .map(|(s, ion)| {
+            let (inside, outside) = (cond.inside_mm.get(s)?, cond.outside_mm.get(s)?);
+            crate::physics::nernst_mv(ion.charge, *inside, *outside, t_c)
+        })
+        .collect();
+    let snapshot = Snapshot {
+        t_ms,
+        v_mv: y.first().copied().unwrap_or(f64::NAN),
+        ghk_mv: model.membrane.ghk_potential_mv(cond).ok(),
+        species: model.species_names.clone(),
+        inside_mm: cond.inside_mm.clone(),
+        outside_mm: cond.outside_mm.clone(),
+        reversal_mv,
+        varying: model.concentrations_vary(),
+    };
+    (snapshot, r)
 }
 
 /// Samples whose derived quantities (currents, permeabilities) are computed per frame at most.
@@ -179,13 +239,17 @@ pub struct Runtime {
     /// Changes whenever a new run starts or the trace's columns change meaning, so that views
     /// can drop what they cached about the old ones.
     pub generation: u64,
+    /// The state the run starts from, read at the last restart.
+    start: Option<(Snapshot, Readout)>,
 }
 
 /// Solver settings for the window: the default tolerances, with steps short enough that an edit
-/// made while running takes effect within a small fraction of the run.
+/// made while running takes effect within a small fraction of the run. A thousandth of the run
+/// (not a fixed 5 ms, which made a ten-minute volume run take 120 000 steps and fall behind a
+/// speed of minutes per second).
 fn window_settings(s: &Scenario) -> SolverSettings {
     SolverSettings {
-        h_max_ms: (s.run.duration_ms / 1000.0).clamp(0.05, 5.0),
+        h_max_ms: (s.run.duration_ms / 1000.0).clamp(0.05, 1000.0),
         ..SolverSettings::default()
     }
 }
@@ -204,6 +268,7 @@ impl Runtime {
             meter: StepMeter::default(),
             scratch: Vec::new(),
             generation: 0,
+            start: None,
         };
         r.restart(s);
         r
@@ -230,11 +295,13 @@ impl Runtime {
         self.meter = StepMeter::default();
         match Run::new(s, window_settings(s)) {
             Ok(run) => {
+                self.start = Some(snapshot_of(run.model(), run.t_ms(), run.state()));
                 self.run = Some(run);
                 self.error = None;
             }
             Err(e) => {
                 self.run = None;
+                self.start = None;
                 self.error = Some(e.to_string());
                 self.running = false;
             }
@@ -323,9 +390,9 @@ impl Runtime {
         };
         if self.running {
             let dt = dt_s.clamp(0.0, 0.1);
-            let target = match speed {
+            let target = match speed.resolved(run.duration_ms()) {
                 Speed::MsPerSecond(r) => (self.shown_ms + r * dt).min(run.duration_ms()),
-                Speed::Fastest => f64::INFINITY,
+                Speed::Fastest | Speed::Auto => f64::INFINITY,
             };
             let deadline = now + budget;
             loop {
@@ -387,6 +454,43 @@ impl Runtime {
     pub fn shown_v_mv(&self) -> Option<f64> {
         let n = self.shown_len();
         self.trace().and_then(|t| n.checked_sub(1).map(|k| t.v_mv()[k]))
+    }
+
+    /// What the cell is at time `t_ms` (the last shown sample at or before it; the first
+    /// sample for a time before it), or nothing before the run has a sample.
+    pub fn snapshot_at(&self, t_ms: f64) -> Option<Snapshot> {
+        let run = self.run.as_ref()?;
+        let trace = run.trace();
+        let n = self.shown_len();
+        let k = trace.t_ms[..n]
+            .partition_point(|&x| x <= t_ms + 1e-9)
+            .max(1)
+            .checked_sub(1)?;
+        if k >= n {
+            return None;
+        }
+        let mut y = vec![0.0; trace.columns.len()];
+        trace.state(k, &mut y);
+        Some(snapshot_of(run.model(), trace.t_ms[k], &y).0)
+    }
+
+    /// What the cell is at t = 0: the first sample, or before the run has one, the state it
+    /// starts from (kept from the last restart).
+    pub fn at_start(&self) -> Option<Snapshot> {
+        let run = self.run.as_ref()?;
+        let trace = run.trace();
+        if trace.t_ms.first().is_some_and(|&t| t <= 0.0) {
+            let mut y = vec![0.0; trace.columns.len()];
+            trace.state(0, &mut y);
+            return Some(snapshot_of(run.model(), trace.t_ms[0], &y).0);
+        }
+        self.start.as_ref().map(|s| s.0.clone())
+    }
+
+    /// Conditions and currents of the state the run starts from, for plot axes before the
+    /// run has a sample.
+    pub fn start_readout(&self) -> Option<&Readout> {
+        self.start.as_ref().map(|s| &s.1)
     }
 
     pub fn steps_per_second(&self) -> f64 {

@@ -11,7 +11,9 @@ pub mod solutions;
 use crate::analysis::RestReport;
 use crate::scenario::Edit;
 use crate::scenario::fields::Part;
+use crate::ui::state::runtime::Snapshot;
 use crate::ui::theme::species_color;
+use crate::ui::time::TimeUnit;
 use crate::ui::widgets::{Editing, color_swatch};
 
 /// Which tab of the editor is open.
@@ -30,6 +32,11 @@ pub struct EditorInfo<'a> {
     pub rest: &'a Result<RestReport, String>,
     /// Present simulated time, for the protocol's time strip.
     pub now_ms: f64,
+    /// The cell at t = 0 and at the time the readouts "now" are read (the plot cursor, or the
+    /// end of what is shown), and whether that time is the cursor's.
+    pub at_start: Option<Snapshot>,
+    pub now: Option<Snapshot>,
+    pub at_cursor: bool,
 }
 
 pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editing) {
@@ -60,13 +67,19 @@ pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editin
 }
 
 fn cell_tab(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
-    ui.heading("Ions and permeabilities");
+    ui.heading("Ions and permeabilities")
+        .on_hover_text("The file's values: what the cell starts from at t = 0");
+    ui.label(
+        RichText::new("Values at the start of the run; the readouts below show them now too.")
+            .small()
+            .weak(),
+    );
     species_table(ui, info, ed);
     ui.horizontal(|ui| {
         ed.button(ui, "+ Add ion", "Add an ion species", Edit::AddSpecies);
     });
     ui.add_space(6.0);
-    readouts(ui, info);
+    readouts(ui, info, ed.scenario);
     ui.add_space(8.0);
     ui.heading("Temperature and size");
     Grid::new("cell grid")
@@ -230,6 +243,31 @@ fn species_grid(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
         });
 }
 
+/// One readout value, in bold (and its species' colour), read out by a screen reader with its
+/// row and time ("GHK potential now: −46.9 mV").
+fn value_cell(ui: &mut Ui, what: &str, text: String, color: Option<egui::Color32>) {
+    let mut rich = RichText::new(text.as_str()).strong();
+    if let Some(c) = color {
+        rich = rich.color(c);
+    }
+    let response = ui.label(rich);
+    let name = format!("{what}: {text}");
+    response.widget_info(|| egui::WidgetInfo::labeled(egui::Role::Label, true, name.as_str()));
+}
+
+/// A concentration with the digits a change of a few hundredths of a mM needs.
+fn concentration_text(c: f64) -> String {
+    if c == 0.0 {
+        "0".into()
+    } else if c.abs() >= 1.0 {
+        format!("{c:.2}")
+    } else if c.abs() >= 0.01 {
+        format!("{c:.4}")
+    } else {
+        format!("{c:.3e}")
+    }
+}
+
 fn relative_text(r: f64) -> String {
     if r == 0.0 {
         "0".into()
@@ -243,7 +281,7 @@ fn relative_text(r: f64) -> String {
     }
 }
 
-fn readouts(ui: &mut Ui, info: &EditorInfo) {
+fn readouts(ui: &mut Ui, info: &EditorInfo, scenario: &crate::scenario::Scenario) {
     let report = match info.rest {
         Ok(r) => r,
         Err(e) => {
@@ -251,26 +289,91 @@ fn readouts(ui: &mut Ui, info: &EditorInfo) {
             return;
         }
     };
+    let unit = TimeUnit::for_duration(scenario.run.duration_ms);
+    let mv = |v: Option<f64>| v.map_or_else(|| "—".to_string(), |v| format!("{v:+.1} mV"));
+    let mm = |v: Option<f64>| v.map_or_else(|| "—".to_string(), |v| format!("{} mM", concentration_text(v)));
+    let start = info.at_start.as_ref();
+    let now = info.now.as_ref();
+    let when_now = if info.at_cursor { "at cursor" } else { "now" };
     Grid::new("readouts")
-        .num_columns(2)
+        .num_columns(3)
         .spacing([12.0, 4.0])
+        .striped(true)
         .show(ui, |ui| {
+            ui.label("");
+            ui.label(RichText::new("At start").small().strong())
+                .on_hover_text("At t = 0 ms, from the file's values");
+            let now_head = match now {
+                Some(n) if info.at_cursor => format!("At cursor, {}", unit.format(n.t_ms)),
+                Some(n) => format!("Now, {}", unit.format(n.t_ms)),
+                None => "Now".to_string(),
+            };
+            ui.label(RichText::new(now_head).small().strong()).on_hover_text(
+                "At the plot cursor when one is placed (click a plot), otherwise at the end of what the plots show",
+            );
+            ui.end_row();
+
+            ui.label("Membrane potential")
+                .on_hover_text("V at that time; at the start, the potential the run starts from");
+            value_cell(ui, "Membrane potential at start", mv(start.map(|s| s.v_mv)), None);
+            value_cell(ui, &format!("Membrane potential {when_now}"), mv(now.map(|n| n.v_mv)), None);
+            ui.end_row();
+
             ui.label("GHK potential").on_hover_text(
-                "Zero-current potential of the resting permeabilities alone (no pump, channels or protocol)",
+                "Zero-current potential of the resting permeabilities alone (no pump, channels or agents), with the concentrations in force at that time",
             );
             match &report.ghk_mv {
-                Ok(v) => ui.label(RichText::new(format!("{v:+.1} mV")).strong()),
-                Err(e) => ui.label("—").on_hover_text(e.to_string()),
-            };
+                Ok(v) => value_cell(ui, "GHK potential at start", mv(Some(*v)), None),
+                Err(e) => {
+                    ui.label("—").on_hover_text(e.to_string());
+                }
+            }
+            value_cell(ui, &format!("GHK potential {when_now}"), mv(now.and_then(|n| n.ghk_mv)), None);
             ui.end_row();
+
             ui.label("Resting potential").on_hover_text(
                 "Steady state at t = 0: pump, channels and the commands in force at t = 0 included",
             );
             match &report.steady.resting_mv {
-                Ok(v) => ui.label(RichText::new(format!("{v:+.1} mV")).strong()),
-                Err(e) => ui.colored_label(ui.visuals().warn_fg_color, format!("undefined: {e}")),
-            };
+                Ok(v) => value_cell(ui, "Resting potential at start", mv(Some(*v)), None),
+                Err(e) => {
+                    ui.colored_label(ui.visuals().warn_fg_color, format!("undefined: {e}"));
+                }
+            }
+            ui.label("");
             ui.end_row();
+
+            // Species whose concentrations change in the run: their concentrations and
+            // reversal potential then and now.
+            let tracks_inside = scenario.cell.track_concentrations || !scenario.cell.volume.is_fixed();
+            if let (Some(s0), Some(n)) = (start, now) {
+                for (i, name) in n.species.iter().enumerate() {
+                    if n.varying.get(i) != Some(&true) {
+                        continue;
+                    }
+                    let c = species_color(i);
+                    let (out0, out1) = (s0.outside_mm.get(i).copied(), n.outside_mm.get(i).copied());
+                    if !tracks_inside || out0 != out1 {
+                        ui.label(format!("Bath {name}"));
+                        value_cell(ui, &format!("Bath {name} at start"), mm(out0), None);
+                        value_cell(ui, &format!("Bath {name} {when_now}"), mm(out1), None);
+                        ui.end_row();
+                    }
+                    if tracks_inside {
+                        ui.label(format!("Inside {name}"));
+                        value_cell(ui, &format!("Inside {name} at start"), mm(s0.inside_mm.get(i).copied()), None);
+                        value_cell(ui, &format!("Inside {name} {when_now}"), mm(n.inside_mm.get(i).copied()), None);
+                        ui.end_row();
+                    }
+                    ui.label(format!("E {name}"))
+                        .on_hover_text(format!("Reversal (Nernst) potential of {name} with the concentrations in force"));
+                    let e0 = mv(s0.reversal_mv.get(i).copied().flatten());
+                    let e1 = mv(n.reversal_mv.get(i).copied().flatten());
+                    value_cell(ui, &format!("E {name} at start"), e0, Some(c));
+                    value_cell(ui, &format!("E {name} {when_now}"), e1, Some(c));
+                    ui.end_row();
+                }
+            }
             if report.steady.crossings.len() > 1 {
                 ui.label("Zero-current points");
                 let text = report
@@ -286,7 +389,7 @@ fn readouts(ui: &mut Ui, info: &EditorInfo) {
                     })
                     .collect::<Vec<_>>()
                     .join(", ");
-                ui.label(text);
+                ui.label(text).on_hover_text("At the start");
                 ui.end_row();
             }
         });
