@@ -10,6 +10,7 @@ use crate::ui::panels::editor::{self, EditorInfo};
 use crate::ui::panels::family as family_view;
 use crate::ui::panels::iv;
 use crate::ui::panels::notes::{self, SideTab};
+use crate::ui::panels::plot_labels::PlotLook;
 use crate::ui::panels::plots::PlotInput;
 use crate::ui::panels::presentation::{self, PresentInfo};
 use crate::ui::panels::status::{self, StatusInfo};
@@ -155,6 +156,12 @@ impl App {
                 kept: &analysis.kept.traces,
                 family: family.result.as_ref(),
             };
+            plots.set_pinned(if presentation.on { &prefs.pins } else { &[] });
+            plots.set_look(if presentation.on {
+                PlotLook::PRESENTATION
+            } else {
+                PlotLook::DESK
+            });
             plots.show(ui, &input, Some(&mut commands));
         });
         if analysis.open {

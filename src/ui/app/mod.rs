@@ -378,6 +378,11 @@ impl App {
         self.plots.shown_t_ms()
     }
 
+    /// The plots as last drawn: their labels, legend and time ranges.
+    pub fn plots(&self) -> &Plots {
+        &self.plots
+    }
+
     /// Whether the window is in presentation.
     pub fn presenting(&self) -> bool {
         self.presentation.on
