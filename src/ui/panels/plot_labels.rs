@@ -280,25 +280,28 @@ pub fn legend_row(ui: &mut Ui, entries: &[LegendEntry], look: PlotLook) -> Rect 
     let font = FontId::proportional(look.legend_pt);
     ui.horizontal_wrapped(|ui| {
         for e in entries {
-            let sample = vec2(look.legend_pt * 1.6, look.legend_pt);
-            let (rect, _) = ui.allocate_exact_size(sample, egui::Sense::hover());
+            // The sample and the name are one item, so a wrap never parts them (or the name).
+            let galley = ui.painter().layout_no_wrap(e.name.clone(), font.clone(), e.color);
+            let sample_w = look.legend_pt * 1.6;
+            let gap = look.legend_pt * 0.3;
+            let size = vec2(sample_w + gap + galley.size().x, galley.size().y);
+            let (rect, _) = ui.allocate_exact_size(size, egui::Sense::hover());
             let y = rect.center().y;
             let stroke = Stroke::new(e.width.min(4.0), e.color);
+            let painter = ui.painter();
             match e.style {
                 LineStyle::Solid => {
-                    ui.painter()
-                        .line_segment([pos2(rect.left(), y), pos2(rect.right(), y)], stroke);
+                    painter.line_segment([pos2(rect.left(), y), pos2(rect.left() + sample_w, y)], stroke);
                 }
                 _ => {
-                    let dash = rect.width() / 5.0;
+                    let dash = sample_w / 5.0;
                     for k in [0.0, 2.0, 4.0] {
                         let a = rect.left() + k * dash;
-                        ui.painter()
-                            .line_segment([pos2(a, y), pos2((a + dash).min(rect.right()), y)], stroke);
+                        painter.line_segment([pos2(a, y), pos2(a + dash, y)], stroke);
                     }
                 }
             }
-            ui.label(egui::RichText::new(&e.name).font(font.clone()).color(e.color));
+            painter.galley(pos2(rect.left() + sample_w + gap, rect.top()), galley, e.color);
             ui.add_space(look.legend_pt * 0.5);
         }
     })

@@ -33,7 +33,8 @@ pub struct EditorInfo<'a> {
 }
 
 pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editing) {
-    ui.horizontal(|ui| {
+    // Wrapped: a narrow panel (large text) puts the last tabs on a second row.
+    ui.horizontal_wrapped(|ui| {
         for (t, label) in [
             (EditorTab::Cell, "Cell"),
             (EditorTab::Channels, "Pump & channels"),
