@@ -14,6 +14,9 @@ pub fn control_name(a: Address, s: &Scenario) -> String {
     let name = match a.field().holder.part() {
         Part::Species => match s.species.get(i) {
             Some(sp) => match last {
+                // With a bath change of this ion in the protocol, the file's value is the bath
+                // before it.
+                "outside_mm" if changes_bath(s, &sp.name) => format!("bath {} before the change", sp.name),
                 "outside_mm" => format!("bath {}", sp.name),
                 "inside_mm" => format!("inside {}", sp.name),
                 "permeability_cm_per_s" => format!("{} resting permeability", sp.name),
@@ -28,6 +31,13 @@ pub fn control_name(a: Address, s: &Scenario) -> String {
         _ => a.label(s),
     };
     capitalized(&name)
+}
+
+/// Whether the protocol changes the bath concentration of `species`.
+fn changes_bath(s: &Scenario, species: &str) -> bool {
+    s.protocol
+        .iter()
+        .any(|e| matches!(e, Event::BathChange { species: x, .. } if x == species))
 }
 
 /// An event's number named by what the event does.
@@ -101,7 +111,8 @@ mod tests {
             "Injected pulse amplitude"
         );
         assert_eq!(name("protocol[].from_ms", &[1]), "Injected pulse start");
-        assert_eq!(name("species[].outside_mm", &[0]), "Bath K+");
+        assert_eq!(name("species[].outside_mm", &[0]), "Bath K+ before the change");
+        assert_eq!(name("species[].outside_mm", &[1]), "Bath Na+");
         assert_eq!(name("temperature_c", &[]), "Temperature");
         // No internal numbering or field paths in any of them.
         for a in crate::scenario::fields::addresses(&s) {

@@ -249,7 +249,7 @@ impl Plots {
             .default_y_bounds(y_lo, y_hi)
             .link_axis(link, [true, false])
             .link_cursor(link, [true, false])
-            .y_axis_label("Membrane potential (mV)")
+            .y_axis_label(fit_title(ui, "Membrane potential (mV)", "V (mV)", upper_h))
             .y_axis_min_width(axis_w)
             .x_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
             .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
@@ -295,13 +295,21 @@ impl Plots {
             LowerPlot::Volume => ("Volume (relative to start)", None),
             LowerPlot::Osmolarity => ("Osmolarity (mOsm)", None),
         };
+        let short_label = match view {
+            LowerPlot::Currents => "I (µA/cm²)",
+            LowerPlot::Permeabilities => "P (cm/s)",
+            LowerPlot::Gates => "Open",
+            LowerPlot::Volume => "Volume",
+            LowerPlot::Osmolarity => "mOsm",
+        };
+        let lower_h = ui.available_height().max(80.0);
         let mut lower = Plot::new(("lower plot", view as u8))
-            .height(ui.available_height().max(80.0))
+            .height(lower_h)
             .default_x_bounds(0.0, duration)
             .link_axis(link, [true, false])
             .link_cursor(link, [true, false])
             .x_axis_label("Time (ms)")
-            .y_axis_label(y_label)
+            .y_axis_label(fit_title(ui, y_label, short_label, lower_h))
             .y_axis_min_width(axis_w)
             .x_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
             .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
@@ -540,6 +548,18 @@ fn lower_choice(ui: &mut Ui, input: &PlotInput, zoomed: bool, commands: &mut Vec
         fit = ui.button(label).on_hover_text(hover).clicked();
     });
     fit
+}
+
+/// A y axis title that fits along a plot `height` points high: `long`, or else `short` (large
+/// text or presentation on a low window would cut the long one at both ends).
+fn fit_title(ui: &Ui, long: &str, short: &str, height: f32) -> String {
+    let font = egui::TextStyle::Body.resolve(ui.style());
+    let w = ui
+        .painter()
+        .layout_no_wrap(long.to_string(), font, Color32::WHITE)
+        .size()
+        .x;
+    if w <= height - 8.0 { long } else { short }.to_string()
 }
 
 /// The hover text of a plot: the nearest item's name, then both coordinates with units.
