@@ -158,20 +158,33 @@ impl Placer {
     }
 
     fn take(&mut self, text: String, candidates: impl Iterator<Item = Rect>) -> Rect {
-        let mut first = None;
-        for r in candidates {
-            first.get_or_insert(r);
-            if self.free(r) {
-                self.placed.push(Placed {
-                    text,
-                    rect: r,
-                    size_pt: self.font.size,
-                    clear: true,
-                });
-                return r;
-            }
+        let candidates: Vec<Rect> = candidates.collect();
+        if let Some(&r) = candidates.iter().find(|r| self.free(**r)) {
+            self.placed.push(Placed {
+                text,
+                rect: r,
+                size_pt: self.font.size,
+                clear: true,
+            });
+            return r;
         }
-        let r = first.unwrap_or(Rect::NOTHING);
+        // Nowhere clear (spikes across the whole plot): inside the plot, apart from the other
+        // labels, over as few trace segments as can be; the first few dozen places are enough.
+        let cost = |r: Rect| {
+            self.obstacles
+                .iter()
+                .flat_map(|l| l.windows(2))
+                .filter(|w| segment_hits(w[0], w[1], r))
+                .count()
+        };
+        let r = candidates
+            .iter()
+            .filter(|r| self.frame.contains_rect(**r) && !self.placed.iter().any(|p| p.rect.intersects(**r)))
+            .take(48)
+            .min_by_key(|r| cost(**r))
+            .or(candidates.first())
+            .copied()
+            .unwrap_or(Rect::NOTHING);
         self.placed.push(Placed {
             text,
             rect: r,
