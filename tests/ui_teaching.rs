@@ -65,12 +65,12 @@ fn presentation_hides_the_editor_and_shows_the_pinned_slider() {
     assert!((zoom - 1.3).abs() < 1e-6, "zoom {zoom}");
 
     // The big slider moves the bath potassium, checked like any edit.
-    h.get_by_label("K+ outside, big slider").set_value_accesskit(25.0);
+    h.get_by_label("Bath K+, big slider").set_value_accesskit(25.0);
     h.run_steps(2);
     assert_eq!(h.state().scenario().species[0].outside_mm, 25.0);
     // And by the pointer: pressed at its middle (5 mM: the range is four decades around the
     // value it had when shown) and dragged to the right end (500 mM).
-    let rail = h.get_by_label("K+ outside, big slider").rect();
+    let rail = h.get_by_label("Bath K+, big slider").rect();
     h.drag_at(rail.center());
     h.run_steps(1);
     h.hover_at(rail.center() + egui::vec2(rail.width() * 0.25, 0.0));

@@ -8,6 +8,7 @@ mod edit;
 mod events;
 mod family;
 pub mod fields;
+mod naming;
 mod read;
 mod recipes;
 mod save;
@@ -25,6 +26,7 @@ pub use edit::{
 pub use events::{Interval, Wording};
 pub use family::{FamilyError, MAX_FAMILY_RUNS, member, range_values};
 pub use fields::{Address, AddressError, Drag, Span, Style};
+pub use naming::control_name;
 pub use read::{Location, Problem, ScenarioError, from_str, nearest_name, read_file};
 pub use recipes::{CompoundIon, DEFAULT_BRIDGE_KCL_MM, Reference, Solution, UserCompound};
 pub(crate) use save::through_links;

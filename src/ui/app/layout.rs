@@ -10,6 +10,7 @@ use crate::ui::panels::editor::{self, EditorInfo};
 use crate::ui::panels::family as family_view;
 use crate::ui::panels::iv;
 use crate::ui::panels::notes::{self, SideTab};
+use crate::ui::panels::plot_labels::PlotLook;
 use crate::ui::panels::plots::PlotInput;
 use crate::ui::panels::presentation::{self, PresentInfo};
 use crate::ui::panels::status::{self, StatusInfo};
@@ -51,6 +52,9 @@ impl App {
         // Side panels never take more than their share of the width, so the plots keep room
         // when the window is small or the text is large.
         let width = ui.available_width();
+        // In a window under 1000 points wide (1280×720 with large text is 853) the side panels
+        // keep to smaller shares, so the plots keep about half the width.
+        let (editor_share, side_share) = if width < 1000.0 { (0.38, 0.2) } else { (0.4, 0.3) };
 
         if presentation.on {
             let info = PresentInfo {
@@ -105,8 +109,8 @@ impl App {
             });
 
             Panel::left("editor")
-                .default_size(440.0_f32.min(width * 0.4))
-                .size_range(240.0..=(width * 0.4).max(240.0))
+                .default_size(440.0_f32.min(width * editor_share))
+                .size_range(240.0..=(width * editor_share).max(240.0))
                 .resizable(true)
                 .show(ui, |ui| {
                     let cursor = plots.cursor_ms();
@@ -130,8 +134,8 @@ impl App {
 
         if prefs.show_iv {
             Panel::right("iv view")
-                .default_size(270.0_f32.min(width * 0.25))
-                .size_range(180.0..=(width * 0.3).max(180.0))
+                .default_size(270.0_f32.min(width * side_share))
+                .size_range(170.0..=(width * side_share).max(170.0))
                 .resizable(true)
                 .show(ui, |ui| {
                     notes::tabs(ui, side, scenario.run.family.is_some());
@@ -162,6 +166,12 @@ impl App {
                 family: family.result.as_ref(),
                 start: runtime.start_readout(),
             };
+            plots.set_pinned(if presentation.on { &prefs.pins } else { &[] });
+            plots.set_look(if presentation.on {
+                PlotLook::PRESENTATION
+            } else {
+                PlotLook::DESK
+            });
             plots.show(ui, &input, Some(&mut commands));
         });
         if analysis.open {

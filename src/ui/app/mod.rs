@@ -383,6 +383,11 @@ impl App {
         self.plots.shown_t_ms()
     }
 
+    /// The plots as last drawn: their labels, legend and time ranges.
+    pub fn plots(&self) -> &Plots {
+        &self.plots
+    }
+
     /// Whether the window is in presentation.
     /// Where a click on a plot placed the cursor, ms.
     pub fn plot_cursor_ms(&self) -> Option<f64> {

@@ -4,6 +4,7 @@ pub mod editor;
 pub mod family;
 pub mod iv;
 pub mod notes;
+pub mod plot_labels;
 pub mod plots;
 pub mod presentation;
 pub mod status;

@@ -46,7 +46,8 @@ pub fn tabs(ui: &mut Ui, side: &mut Side, has_family: bool) {
     if !has_family && side.tab == SideTab::Family {
         side.tab = SideTab::Iv;
     }
-    ui.horizontal(|ui| {
+    // Wrapped: a narrow side panel (large text) puts a tab on a second row.
+    ui.horizontal_wrapped(|ui| {
         let mut list = vec![(SideTab::Iv, "Current–voltage"), (SideTab::Notes, "Notes")];
         if has_family {
             list.push((SideTab::Family, "Family"));

@@ -4,9 +4,7 @@
 //! visible range, so a frame costs the same for a thousand samples or a million.
 
 use egui::{Color32, Id, RichText, Ui};
-use egui_plot::{
-    Corner, HLine, HoverPosition, Legend, Line, LineStyle, Plot, PlotPoint, PlotUi, Points, Span, Text, VLine,
-};
+use egui_plot::{HLine, HoverPosition, Line, LineStyle, Plot, PlotPoint, PlotUi, Points, Span, Text, VLine};
 
 use crate::analysis::RestReport;
 use crate::analysis::decimate::Decimator;
@@ -17,6 +15,7 @@ use crate::ui::analysis::kept::KeptTrace;
 use crate::ui::command::Command;
 use crate::ui::panels::editor::protocol::{MAX_PULSES_DRAWN, event_color};
 use crate::ui::panels::family::MARKERS;
+use crate::ui::panels::plot_labels::{self, LegendEntry, LineLabel, Placed, Placer, PlotLook};
 use crate::ui::state::family::FamilyResult;
 use crate::ui::state::prefs::LowerPlot;
 use crate::ui::state::runtime::Derived;
@@ -68,8 +67,9 @@ fn family_lines(
     input: &PlotInput,
     what: &str,
     pick: fn(&Member) -> &[f64],
-) {
-    let Some(f) = input.family else { return };
+) -> Vec<LegendEntry> {
+    let mut named = Vec::new();
+    let Some(f) = input.family else { return named };
     let range = visible_t(pui);
     let cols = columns(pui);
     let unit = f.runs.field.field().unit;
@@ -85,6 +85,14 @@ fn family_lines(
             String::new()
         };
         let color = species_color(k);
+        if !name.is_empty() {
+            named.push(LegendEntry {
+                name: name.clone(),
+                color,
+                width: 1.3,
+                style: family_style(k),
+            });
+        }
         let n = m.t_ms.len().min(y.len());
         let step = (n / 6).max(1);
         let marks: Vec<[f64; 2]> = (step / 2..n).step_by(step).map(|i| [m.t_ms[i], y[i]]).collect();
@@ -101,6 +109,7 @@ fn family_lines(
                 .color(color),
         );
     }
+    named
 }
 
 /// What the plots keep between frames: the running V range and one [`Decimator`] per line,
@@ -130,8 +139,6 @@ pub struct Plots {
     shown_t_ms: Option<(f64, f64)>,
     /// Each reversal line as last drawn: its name and the time span (ms) it covers.
     reversal_spans: Vec<(String, f64, f64)>,
-    /// The lower plot's axis title as last drawn.
-    lower_title: &'static str,
     /// Where the user last clicked a plot, ms: the readouts "now" are read there.
     cursor_ms: Option<f64>,
     /// Each plot's y range as last drawn (upper, lower).
@@ -140,6 +147,21 @@ pub struct Plots {
     time_unit: TimeUnit,
     /// The lower plot's data range so far, updated with new samples only.
     lower_range: LowerRange,
+    /// Text sizes and line widths (the desk's, or presentation's).
+    look: Option<PlotLook>,
+    /// The labels of lines and bands as last drawn over the potential plot.
+    placed: Vec<Placed>,
+    /// The lower plot's legend as last drawn, and where.
+    legend: Vec<LegendEntry>,
+    legend_rect: Option<egui::Rect>,
+    /// The time range (ms) the lower plot showed last, and its y axis title.
+    lower_t_ms: Option<(f64, f64)>,
+    lower_title: String,
+    /// Where the plots' panel begins (its left edge, points), as last drawn.
+    area_left: Option<f32>,
+    /// Numbers shown as big sliders in presentation: each one's value is written on the line
+    /// it moves.
+    pinned: Vec<crate::scenario::Address>,
 }
 
 /// The range of the lower plot's values over the samples shown so far.
@@ -256,9 +278,37 @@ impl Plots {
         (self.v_min <= self.v_max).then_some((self.v_min, self.v_max))
     }
 
+    /// Sets the text sizes and line widths: the desk's, or presentation's.
+    pub fn set_look(&mut self, look: PlotLook) {
+        self.look = Some(look);
+    }
+
+    /// The numbers shown as big sliders, whose values are written on the lines they move (a
+    /// bath concentration on its reversal line, a permeability or the temperature on the GHK
+    /// line; an event's numbers are in its band's label already).
+    pub fn set_pinned(&mut self, pinned: &[crate::scenario::Address]) {
+        if self.pinned != pinned {
+            self.pinned = pinned.to_vec();
+        }
+    }
+
     /// Draws both plots; with `controls`, the choice of the lower plot between them (a figure
     /// for export has none).
     pub fn show(&mut self, ui: &mut Ui, input: &PlotInput, controls: Option<&mut Vec<Command>>) {
+        let look = self.look.unwrap_or(PlotLook::DESK);
+        ui.scope(|ui| {
+            look.apply(ui);
+            self.show_plots(ui, input, controls, look);
+        });
+    }
+
+    fn show_plots(
+        &mut self,
+        ui: &mut Ui,
+        input: &PlotInput,
+        controls: Option<&mut Vec<Command>>,
+        look: PlotLook,
+    ) {
         let link = Id::unique("permeant time axis");
         let duration = input.scenario.run.duration_ms.max(1e-6);
         let unit = TimeUnit::for_duration(duration);
@@ -279,13 +329,14 @@ impl Plots {
         let axis_w = self.axis_w[0].max(self.axis_w[1]).max(40.0);
         let follow = !self.zoomed || std::mem::take(&mut self.fit);
         let left = ui.cursor().left();
+        self.area_left = Some(ui.max_rect().left());
         let upper = Plot::new("potential plot")
             .height(upper_h)
             .default_x_bounds(0.0, duration)
             .default_y_bounds(y_lo, y_hi)
             .link_axis(link, [true, false])
             .link_cursor(link, [true, false])
-            .y_axis_label("Membrane potential (mV)")
+            .y_axis_label(fit_title(ui, "Membrane potential (mV)", "V (mV)", upper_h))
             .y_axis_min_width(axis_w)
             .x_grid_spacer(unit.grid_spacer())
             .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
@@ -297,10 +348,13 @@ impl Plots {
                     pui.set_plot_bounds_x(0.0..=duration);
                     pui.set_plot_bounds_y(y_lo..=y_hi);
                 }
-                self.reversal_spans = potential_items(&mut self.lines, pui, input);
+                let notes = line_notes(&self.pinned, input.scenario);
+                let drawn = potential_items(&mut self.lines, pui, input, look.line_scale, &notes);
                 cursor_line(pui, self.cursor_ms);
+                drawn
             });
         self.axis_w[0] = upper.response.rect.left() - left;
+        self.place_labels(ui, &upper);
         kept_legend(ui, upper.response.rect, input.kept);
         let upper_bounds = *upper.transform.bounds();
         self.shown_t_ms = Some((upper_bounds.min()[0], upper_bounds.max()[0]));
@@ -328,13 +382,14 @@ impl Plots {
         };
         let (y_label, fixed_y) = match view {
             LowerPlot::Currents => ("Current (µA/cm²)", None),
-            LowerPlot::Permeabilities => ("log₁₀ permeability (cm/s)", None),
+            // The ticks read as powers of ten ("10⁻⁷"), so the title names the quantity, not
+            // its logarithm.
+            LowerPlot::Permeabilities => ("Permeability (cm/s, log scale)", None),
             LowerPlot::Gates => ("Open fraction", Some((-0.02, 1.02))),
             LowerPlot::Volume => ("Volume (relative to start)", None),
             LowerPlot::Osmolarity => ("Osmolarity (mOsm/L)", None),
             LowerPlot::Concentrations => ("Inside concentration (mM)", None),
         };
-        self.lower_title = y_label;
         let y_unit = match view {
             LowerPlot::Currents => "µA/cm²",
             LowerPlot::Permeabilities => "(log₁₀ cm/s)",
@@ -343,26 +398,41 @@ impl Plots {
             LowerPlot::Concentrations => "mM",
         };
         let lower_y = fixed_y.or_else(|| self.lower_y_range(input, view));
+        let short_label = match view {
+            LowerPlot::Currents => "I (µA/cm²)",
+            LowerPlot::Permeabilities => "P (cm/s)",
+            LowerPlot::Gates => "Open",
+            LowerPlot::Volume => "Volume",
+            LowerPlot::Osmolarity => "mOsm",
+            LowerPlot::Concentrations => "c (mM)",
+        };
+        let lower_h = ui.available_height().max(80.0);
         let mut lower = Plot::new(("lower plot", view as u8))
-            .height(ui.available_height().max(80.0))
+            .height(lower_h)
             .default_x_bounds(0.0, duration)
             .link_axis(link, [true, false])
             .link_cursor(link, [true, false])
             .x_axis_label(unit.axis_title())
-            .y_axis_label(y_label)
+            .y_axis_label(fit_title(ui, y_label, short_label, lower_h))
             .y_axis_min_width(axis_w)
             .x_grid_spacer(unit.grid_spacer())
             .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
             .x_axis_formatter(move |mark, _| unit.tick_label(mark))
             .y_axis_formatter(nice_label)
-            .label_formatter(move |h| unit.hover_label(h, y_unit))
-            .legend(Legend::default().position(Corner::LeftTop).background_alpha(0.6));
+            .label_formatter(move |h| unit.hover_label(h, y_unit));
+        self.lower_title = y_label.to_string();
         if let Some((lo, hi)) = fixed_y {
             lower = lower.default_y_bounds(lo, hi);
         }
-        if input.lower == LowerPlot::Permeabilities {
-            lower = lower.y_axis_formatter(|mark, _| format_power_of_ten(mark.value));
+        if view == LowerPlot::Permeabilities {
+            lower = lower
+                .y_grid_spacer(plot_labels::log_steps)
+                .y_axis_formatter(plot_labels::power_of_ten_label)
+                .label_formatter(permeability_hover);
         }
+        // The legend is a row above the plot, never over its data (the first spike, the
+        // opening current level); it lists what the plot drew last frame.
+        self.legend_rect = (!self.legend.is_empty()).then(|| plot_labels::legend_row(ui, &self.legend, look));
         let left = ui.cursor().left();
         let shown = lower.show(ui, |pui| {
             // Not when the upper plot was just moved: the lower one takes its time range.
@@ -373,15 +443,24 @@ impl Plots {
                 }
             }
             cursor_line(pui, self.cursor_ms);
+            let mut pen = Pen {
+                scale: look.line_scale,
+                legend: Vec::new(),
+            };
             match view {
-                LowerPlot::Currents => current_items(&mut self.lines, pui, input),
-                LowerPlot::Permeabilities => permeability_items(&mut self.lines, pui, input),
-                LowerPlot::Gates => gate_items(&mut self.lines, pui, input),
-                LowerPlot::Volume => volume_items(&mut self.lines, pui, input),
-                LowerPlot::Osmolarity => osmolarity_items(&mut self.lines, pui, input),
-                LowerPlot::Concentrations => concentration_items(&mut self.lines, pui, input),
+                LowerPlot::Currents => current_items(&mut self.lines, pui, input, &mut pen),
+                LowerPlot::Permeabilities => permeability_items(&mut self.lines, pui, input, &mut pen),
+                LowerPlot::Gates => gate_items(&mut self.lines, pui, input, &mut pen),
+                LowerPlot::Volume => volume_items(&mut self.lines, pui, input, &mut pen),
+                LowerPlot::Osmolarity => osmolarity_items(&mut self.lines, pui, input, &mut pen),
+                LowerPlot::Concentrations => concentration_items(&mut self.lines, pui, input, &mut pen),
             }
+            pen.legend
         });
+        if shown.inner != self.legend {
+            self.legend = shown.inner.clone();
+            ui.ctx().request_repaint();
+        }
         // A view away from the whole run was zoomed or moved by the pointer: it stays until
         // "Fit view" (or a double-click) brings it home.
         let lower_bounds = shown.transform.bounds();
@@ -403,6 +482,7 @@ impl Plots {
                 self.cursor_ms = Some(t.clamp(0.0, duration));
             }
         }
+        self.lower_t_ms = Some((lower_bounds.min()[0], lower_bounds.max()[0]));
         self.axis_w[1] = shown.response.rect.left() - left;
         self.frames = Some([upper.response.rect, shown.response.rect]);
         self.y_shown = Some([
@@ -496,14 +576,67 @@ impl Plots {
         &self.reversal_spans
     }
 
-    /// The lower plot's axis title as last drawn (its quantity and unit).
-    pub fn lower_title(&self) -> &'static str {
-        self.lower_title
-    }
-
     /// The time range (ms) the plots showed last.
     pub fn shown_t_ms(&self) -> Option<(f64, f64)> {
         self.shown_t_ms
+    }
+
+    /// The time range (ms) the lower plot showed last.
+    pub fn lower_t_ms(&self) -> Option<(f64, f64)> {
+        self.lower_t_ms
+    }
+
+    /// The labels of lines and protocol bands as last drawn over the potential plot.
+    pub fn placed_labels(&self) -> &[Placed] {
+        &self.placed
+    }
+
+    /// The lower plot's legend as last drawn, and the rectangle it took.
+    pub fn legend(&self) -> (&[LegendEntry], Option<egui::Rect>) {
+        (&self.legend, self.legend_rect)
+    }
+
+    /// Where the plots' panel begins (its left edge, points), as last drawn.
+    pub fn area_left(&self) -> Option<f32> {
+        self.area_left
+    }
+
+    /// The lower plot's y axis title as last drawn.
+    pub fn lower_title(&self) -> &str {
+        &self.lower_title
+    }
+
+    /// Places and paints the labels of the potential plot (protocol bands first, then
+    /// reversal lines and the GHK potential) where they cover no trace and no other label.
+    fn place_labels(&mut self, ui: &Ui, upper: &egui_plot::PlotResponse<Upper>) {
+        let t = &upper.transform;
+        let screen = |p: &[f64; 2]| t.position_from_point(&PlotPoint::new(p[0], p[1]));
+        let drawn = &upper.inner;
+        let mut obstacles: Vec<Vec<egui::Pos2>> = drawn
+            .traces
+            .iter()
+            .map(|l| l.iter().map(screen).collect())
+            .collect();
+        obstacles.extend(drawn.labels.iter().map(|l| l.1.iter().map(screen).collect()));
+        let size = self.look.unwrap_or(PlotLook::DESK).label_pt;
+        let mut placer = Placer::new(*t.frame(), obstacles, size);
+        for (t_ms, text, color) in &drawn.bands {
+            let x = t.position_from_point_x(*t_ms);
+            placer.band_label(ui, x, text, *color);
+        }
+        for (text, line, color, from_left) in &drawn.labels {
+            placer.line_label(
+                ui,
+                &LineLabel {
+                    text: text.clone(),
+                    color: *color,
+                    line: line.iter().map(screen).collect(),
+                    from_left: *from_left,
+                },
+            );
+        }
+        self.reversal_spans = drawn.spans.clone();
+        self.placed = placer.placed;
     }
 
     /// The plot areas (upper, lower) as last drawn, in points.
@@ -638,6 +771,18 @@ fn lower_choice(
     (fit, clear)
 }
 
+/// A y axis title that fits along a plot `height` points high: `long`, or else `short` (large
+/// text or presentation on a low window would cut the long one at both ends).
+fn fit_title(ui: &Ui, long: &str, short: &str, height: f32) -> String {
+    let font = egui::TextStyle::Body.resolve(ui.style());
+    let w = ui
+        .painter()
+        .layout_no_wrap(long.to_string(), font, Color32::WHITE)
+        .size()
+        .x;
+    if w <= height - 8.0 { long } else { short }.to_string()
+}
+
 /// The hover text of a plot: the nearest item's name, then both coordinates with units.
 pub fn hover_label(h: &HoverPosition, x_unit: &str, y_unit: &str) -> Option<String> {
     let (name, p) = match h {
@@ -667,15 +812,6 @@ fn cursor_line(pui: &mut PlotUi, cursor_ms: Option<f64>) {
     }
 }
 
-/// Tick labels of a log10 axis as powers of ten.
-fn format_power_of_ten(v: f64) -> String {
-    if (v - v.round()).abs() < 1e-9 {
-        format!("1e{}", v.round())
-    } else {
-        format!("{:.1e}", 10f64.powf(v))
-    }
-}
-
 /// How many pixel columns the plot has, for decimation.
 fn columns(pui: &PlotUi) -> usize {
     let ppp = pui.ctx().pixels_per_point();
@@ -695,18 +831,29 @@ fn series<'a>(
     y: &[f64],
     name: String,
 ) -> Option<Line<'a>> {
+    let points = series_points(lines, pui, input, y, &name)?;
+    Some(Line::new(name, points))
+}
+
+/// The decimated points of `y` against the shown part of the trace's time.
+fn series_points(
+    lines: &mut HashMap<String, Decimator>,
+    pui: &PlotUi,
+    input: &PlotInput,
+    y: &[f64],
+    name: &str,
+) -> Option<Vec<[f64; 2]>> {
     let trace = input.trace?;
     let n = input.shown_len.min(trace.len()).min(y.len());
     let key = format!("{:?}/{name}", input.lower);
-    let points = decimated(
+    Some(decimated(
         lines,
         &key,
         &trace.t_ms[..n],
         &y[..n],
         visible_t(pui),
         columns(pui),
-    );
-    Some(Line::new(name, points))
+    ))
 }
 
 /// One shaded band of the protocol and its label ("" for no label).
@@ -775,30 +922,92 @@ fn bands(s: &Scenario) -> Vec<Band> {
     out
 }
 
-fn protocol_bands(pui: &mut PlotUi, input: &PlotInput, dark: bool) {
+/// Shades each protocol band; returns each labelled band's start (ms), label and colour, for
+/// labels placed over the plot afterwards (egui_plot cuts a span's own label to its width).
+fn protocol_bands(pui: &mut PlotUi, input: &PlotInput, dark: bool) -> Vec<(f64, String, Color32)> {
     let s = input.scenario;
+    let mut labels = Vec::new();
     for band in bands(s) {
         let Some(e) = s.protocol.get(band.event) else {
             continue;
         };
         let color = event_color(s, e, dark);
         pui.span(
-            Span::new(band.label, band.from_ms..=band.until_ms)
+            Span::new(String::new(), band.from_ms..=band.until_ms)
                 .fill(band_fill(color, dark))
                 .border_width(0.0),
         );
+        if !band.label.is_empty() {
+            labels.push((band.from_ms, band.label, color));
+        }
+    }
+    labels
+}
+
+/// What the potential plot drew, for the labels placed over it.
+struct Upper {
+    /// Each reversal line's name and the time span (ms) it covers.
+    spans: Vec<(String, f64, f64)>,
+    /// The traces labels keep clear of, in plot coordinates.
+    traces: Vec<Vec<[f64; 2]>>,
+    /// Each labelled protocol band: its start (ms), label and colour.
+    bands: Vec<(f64, String, Color32)>,
+    /// Each labelled line: its label, the line in plot coordinates, its colour, and whether
+    /// its label is tried from the left end first.
+    labels: Vec<(String, Vec<[f64; 2]>, Color32, bool)>,
+}
+
+/// What is written after the labels of the reversal lines (by species) and the GHK line: the
+/// values of the pinned numbers that move them.
+#[derive(Default)]
+struct LineNotes {
+    species: HashMap<usize, Vec<String>>,
+    ghk: Vec<String>,
+}
+
+fn line_notes(pinned: &[crate::scenario::Address], s: &Scenario) -> LineNotes {
+    use crate::scenario::fields::Part;
+    let mut notes = LineNotes::default();
+    for a in pinned {
+        let Some(v) = a.get(s) else { continue };
+        let row = a.field();
+        let value = format!("{} {}", row.style.format(v), row.unit);
+        let name = crate::scenario::control_name(*a, s);
+        let text = format!("{name} {value}");
+        match row.holder.part() {
+            Part::Species if row.path.ends_with("_mm") => {
+                if let Some(&i) = a.indices().first() {
+                    notes.species.entry(i).or_default().push(text);
+                }
+            }
+            Part::Species | Part::Scenario => notes.ghk.push(text),
+            _ => {}
+        }
+    }
+    notes
+}
+
+/// `label`, then each note after a separator.
+fn with_notes(label: String, notes: Option<&Vec<String>>) -> String {
+    match notes {
+        Some(n) if !n.is_empty() => format!("{label} · {}", n.join(" · ")),
+        _ => label,
     }
 }
 
-/// Draws the potential plot's items; returns each reversal line's name and the span it covers.
+/// Draws the potential plot's items, with line widths times `k`.
 fn potential_items(
     lines: &mut HashMap<String, Decimator>,
     pui: &mut PlotUi,
     input: &PlotInput,
-) -> Vec<(String, f64, f64)> {
+    k: f32,
+    notes: &LineNotes,
+) -> Upper {
     let mut spans = Vec::new();
+    let mut traces = Vec::new();
+    let mut labels = Vec::new();
     let dark = pui.ctx().global_style().visuals.dark_mode;
-    protocol_bands(pui, input, dark);
+    let bands = protocol_bands(pui, input, dark);
     let bounds = pui.plot_bounds();
     let (x_left, x_right) = (bounds.min()[0], bounds.max()[0]);
     if let Some(r) = input.rest {
@@ -814,13 +1023,16 @@ fn potential_items(
                 input.derived.reversal_mv.get(i).filter(|col| {
                     input.derived.varying.get(i) == Some(&true) && shown > 0 && col.len() >= shown
                 });
-            let (e_label, line_at) = match (along, input.trace) {
+            let line_at = match (along, input.trace) {
                 (Some(col), Some(trace)) => {
-                    let points = series(lines, pui, input, col, name.clone()).map(|l| l.color(c).width(1.5));
+                    let mut points = series_points(lines, pui, input, col, &name).unwrap_or_default();
                     let last = col[..shown].iter().rev().find(|e| e.is_finite()).copied();
-                    if let Some(line) = points {
-                        pui.line(line.style(LineStyle::dashed_loose()));
-                    }
+                    pui.line(
+                        Line::new(name.clone(), points.clone())
+                            .color(c)
+                            .width(1.5 * k)
+                            .style(LineStyle::dashed_loose()),
+                    );
                     let t_last = trace.t_ms[shown - 1];
                     let end = x_right.max(input.scenario.run.duration_ms);
                     if let Some(e) = last
@@ -829,35 +1041,36 @@ fn potential_items(
                         pui.line(
                             Line::new(name.clone(), vec![[t_last, e], [end, e]])
                                 .color(c)
-                                .width(1.5)
+                                .width(1.5 * k)
                                 .style(LineStyle::dashed_loose()),
                         );
+                        points.push([t_last, e]);
+                        points.push([end, e]);
                     }
                     spans.push((name.clone(), trace.t_ms[0], end));
-                    (last, None)
+                    if let Some(e) = last {
+                        let text = with_notes(format!("E {} {e:+.1} mV", row.name), notes.species.get(&i));
+                        labels.push((text, points, c, false));
+                    }
+                    None
                 }
-                _ => (row.reversal_mv, row.reversal_mv),
+                _ => row.reversal_mv,
             };
             if let Some(e) = line_at {
                 spans.push((name.clone(), f64::NEG_INFINITY, f64::INFINITY));
                 pui.hline(
                     HLine::new(format!("E {}", row.name), e)
                         .color(c)
-                        .width(1.5)
+                        .width(1.5 * k)
                         .style(LineStyle::dashed_loose()),
                 );
+                labels.push((
+                    with_notes(format!("E {} {e:+.1} mV", row.name), notes.species.get(&i)),
+                    vec![[x_left, e], [x_right, e]],
+                    c,
+                    false,
+                ));
             }
-            let Some(e) = e_label else { continue };
-            pui.text(
-                Text::new(
-                    format!("E {} label", row.name),
-                    PlotPoint::new(x_right, e),
-                    RichText::new(format!("E {} {:+.1} mV", row.name, e))
-                        .color(c)
-                        .strong(),
-                )
-                .anchor(egui::Align2::RIGHT_BOTTOM),
-            );
         }
         let shown = input.trace.map_or(0, |t| input.shown_len.min(t.len()));
         let ghk_along = (shown > 0 && input.derived.ghk_mv.len() >= shown)
@@ -867,76 +1080,63 @@ fn potential_items(
             // The concentrations change in this run: the GHK potential follows them, and
             // after the shown part stays at its last value to the end of the axis.
             let c = neutral_color(dark);
-            if let Some(line) = series(lines, pui, input, col, "GHK potential".into()) {
-                pui.line(line.color(c).width(1.2).style(LineStyle::dotted_loose()));
-            }
+            let mut points = series_points(lines, pui, input, col, "GHK potential").unwrap_or_default();
             let t_last = trace.t_ms[shown - 1];
             let end = x_right.max(input.scenario.run.duration_ms);
             let last = col[..shown].iter().rev().find(|e| e.is_finite()).copied();
             if let Some(e) = last
                 && end > t_last
             {
+                points.extend([[t_last, e], [end, e]]);
+            }
+            if let Some(v) = last
+                && !points.is_empty()
+            {
                 pui.line(
-                    Line::new("GHK potential", vec![[t_last, e], [end, e]])
+                    Line::new("GHK potential", points.clone())
                         .color(c)
-                        .width(1.2)
+                        .width(1.2 * k)
                         .style(LineStyle::dotted_loose()),
                 );
-            }
-            // Labelled with its value at the left edge of the view.
-            let k = trace.t_ms[..shown]
-                .partition_point(|&t| t < x_left)
-                .min(shown - 1);
-            let at_left = if trace.t_ms[shown - 1] < x_left {
-                last
-            } else {
-                Some(col[k])
-            };
-            if let Some(v) = at_left.filter(|v| v.is_finite()) {
-                pui.text(
-                    Text::new(
-                        "GHK label",
-                        PlotPoint::new(x_left, v),
-                        RichText::new(format!(" GHK {v:+.1} mV")).color(c),
-                    )
-                    .anchor(egui::Align2::LEFT_BOTTOM),
-                );
+                let text = with_notes(format!("GHK {v:+.1} mV"), Some(&notes.ghk));
+                labels.push((text, points, c, true));
             }
         } else if let Ok(v) = r.ghk_mv {
             let c = neutral_color(dark);
             pui.hline(
                 HLine::new("GHK potential", v)
                     .color(c)
-                    .width(1.2)
+                    .width(1.2 * k)
                     .style(LineStyle::dotted_loose()),
             );
-            pui.text(
-                Text::new(
-                    "GHK label",
-                    PlotPoint::new(x_left, v),
-                    RichText::new(format!(" GHK {v:+.1} mV")).color(c),
-                )
-                .anchor(egui::Align2::LEFT_BOTTOM),
-            );
+            let text = with_notes(format!("GHK {v:+.1} mV"), Some(&notes.ghk));
+            labels.push((text, vec![[x_left, v], [x_right, v]], c, true));
         }
     }
     kept_lines(lines, pui, input.kept);
     family_lines(lines, pui, input, "v", |m| &m.v_mv);
     let clamped = !input.scenario.run.mode.is_current_clamp();
-    if clamped
-        && let Some(line) = series(lines, pui, input, &input.derived.command_mv, "command".into())
-            .map(|l| l.color(neutral_color(dark)).width(1.4))
-    {
-        pui.line(line.style(LineStyle::dashed_dense()));
+    if clamped && let Some(points) = series_points(lines, pui, input, &input.derived.command_mv, "command") {
+        pui.line(
+            Line::new("command", points.clone())
+                .color(neutral_color(dark))
+                .width(1.4 * k)
+                .style(LineStyle::dashed_dense()),
+        );
+        traces.push(points);
     }
     if let Some(trace) = input.trace
-        && let Some(line) = series(lines, pui, input, trace.v_mv(), "V".into())
-            .map(|l| l.color(potential_color(dark)).width(2.0))
+        && let Some(points) = series_points(lines, pui, input, trace.v_mv(), "V")
     {
-        pui.line(line);
+        pui.line(
+            Line::new("V", points.clone())
+                .color(potential_color(dark))
+                .width(2.0 * k),
+        );
+        traces.push(points);
     }
     // What an amplifier would show (V plus the junction and reference offset in force), when
-    // the cell and bath are solutions; its legend entry hides or shows it.
+    // the cell and bath are solutions.
     if let Some(trace) = input.trace
         && let Some(offsets) = crate::solutions::recording_offsets(input.scenario)
     {
@@ -946,22 +1146,29 @@ fn potential_items(
             .zip(trace.v_mv())
             .map(|(t, v)| v + offsets.at(*t))
             .collect();
-        if let Some(line) = series(lines, pui, input, &recorded, "V recorded".into()) {
+        if let Some(points) = series_points(lines, pui, input, &recorded, "V recorded") {
             pui.line(
-                line.color(potential_color(dark).gamma_multiply(0.6))
-                    .width(1.5)
+                Line::new("V recorded", points.clone())
+                    .color(potential_color(dark).gamma_multiply(0.6))
+                    .width(1.5 * k)
                     .style(egui_plot::LineStyle::dashed_loose()),
             );
+            traces.push(points);
         }
     }
     if input.shown_ms > 0.0 {
         pui.vline(
             VLine::new("now", input.shown_ms)
                 .color(neutral_color(dark).gamma_multiply(0.5))
-                .width(1.0),
+                .width(1.0 * k),
         );
     }
-    spans
+    Upper {
+        spans,
+        traces,
+        bands,
+        labels,
+    }
 }
 
 /// The names of the visible kept traces (and of the run they are drawn over) in a box at the
@@ -1016,112 +1223,150 @@ fn kept_lines(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, kept: &[
     }
 }
 
+/// Draws the lower plot's lines with widths times `scale`, and lists them for its legend.
+struct Pen {
+    scale: f32,
+    legend: Vec<LegendEntry>,
+}
+
+impl Pen {
+    /// Draws `line` (when there is one) and adds it to the legend under `name`.
+    fn draw<'a>(
+        &mut self,
+        pui: &mut PlotUi<'a>,
+        line: Option<Line<'a>>,
+        name: &str,
+        color: Color32,
+        width: f32,
+        style: LineStyle,
+    ) {
+        let Some(line) = line else { return };
+        let width = width * self.scale;
+        pui.line(line.color(color).width(width).style(style));
+        self.legend.push(LegendEntry {
+            name: name.to_string(),
+            color,
+            width,
+            style,
+        });
+    }
+}
+
 /// The relative volume, with the starting volume marked.
-fn volume_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+fn volume_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput, pen: &mut Pen) {
     let dark = pui.ctx().global_style().visuals.dark_mode;
     pui.hline(
         HLine::new("start", 1.0)
             .color(neutral_color(dark))
-            .width(1.0)
+            .width(1.0 * pen.scale)
             .style(LineStyle::dotted_loose()),
     );
-    if let Some(line) = series(lines, pui, input, &input.derived.volume_rel, "volume".into())
-        .map(|l| l.color(potential_color(dark)).width(2.0))
-    {
-        pui.line(line);
-    }
+    let line = series(lines, pui, input, &input.derived.volume_rel, "volume".into());
+    pen.draw(pui, line, "volume", potential_color(dark), 2.0, LineStyle::Solid);
 }
 
 /// Each species' inside concentration, mM, in its colour.
-fn concentration_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+fn concentration_items(
+    lines: &mut HashMap<String, Decimator>,
+    pui: &mut PlotUi,
+    input: &PlotInput,
+    pen: &mut Pen,
+) {
     let d = input.derived;
     for (i, (name, col)) in d.species.iter().zip(&d.inside_mm).enumerate() {
-        if let Some(line) = series(lines, pui, input, col, format!("{name} inside"))
-            .map(|l| l.color(species_color(i)).width(1.8))
-        {
-            pui.line(line);
-        }
+        let line = series(lines, pui, input, col, format!("{name} inside"));
+        pen.draw(pui, line, &format!("{name} inside"), species_color(i), 1.8, LineStyle::Solid);
     }
 }
 
 /// Inside osmolarity against the bath's: water moves while they differ.
-fn osmolarity_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+fn osmolarity_items(
+    lines: &mut HashMap<String, Decimator>,
+    pui: &mut PlotUi,
+    input: &PlotInput,
+    pen: &mut Pen,
+) {
     let dark = pui.ctx().global_style().visuals.dark_mode;
     let d = input.derived;
+    let line = series(lines, pui, input, &d.osm_out_mosm, "bath".into());
     // Dashed as well as grey: in the dark theme both lines are light.
-    if let Some(line) = series(lines, pui, input, &d.osm_out_mosm, "bath".into())
-        .map(|l| l.color(neutral_color(dark)).width(3.0))
-    {
-        pui.line(line.style(LineStyle::dashed_loose()));
-    }
-    if let Some(line) = series(lines, pui, input, &d.osm_in_mosm, "inside".into())
-        .map(|l| l.color(potential_color(dark)).width(2.0))
-    {
-        pui.line(line);
-    }
+    pen.draw(pui, line, "bath", neutral_color(dark), 3.0, LineStyle::dashed_loose());
+    let line = series(lines, pui, input, &d.osm_in_mosm, "inside".into());
+    pen.draw(pui, line, "inside", potential_color(dark), 2.0, LineStyle::Solid);
 }
 
-fn current_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+fn current_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput, pen: &mut Pen) {
     let dark = pui.ctx().global_style().visuals.dark_mode;
     let d = input.derived;
-    family_lines(lines, pui, input, "i", |m| &m.i_ua_per_cm2);
+    let runs = family_lines(lines, pui, input, "i", |m| &m.i_ua_per_cm2);
+    pen.legend.extend(runs);
     if let crate::scenario::RunMode::VoltageClamp {
         series_resistance_mohm,
         ..
     } = input.scenario.run.mode
         && series_resistance_mohm > 0.0
-        && let Some(line) = series(lines, pui, input, &d.clamp_ua_per_cm2, "I pipette".into())
-            .map(|l| l.color(neutral_color(dark)).width(2.0))
     {
-        pui.line(line);
+        let line = series(lines, pui, input, &d.clamp_ua_per_cm2, "I pipette".into());
+        pen.draw(pui, line, "I pipette", neutral_color(dark), 2.0, LineStyle::Solid);
     }
     for (i, (name, col)) in d.species.iter().zip(&d.currents_ua_per_cm2).enumerate() {
-        if let Some(line) =
-            series(lines, pui, input, col, format!("I {name}")).map(|l| l.color(species_color(i)).width(1.6))
-        {
-            pui.line(line);
-        }
+        let label = format!("I {name}");
+        let line = series(lines, pui, input, col, label.clone());
+        pen.draw(pui, line, &label, species_color(i), 1.6, LineStyle::Solid);
     }
-    if input.scenario.pump.is_some()
-        && let Some(line) = series(lines, pui, input, &d.pump_ua_per_cm2, "I pump".into())
-            .map(|l| l.color(neutral_color(dark)).width(1.4))
-    {
-        pui.line(line.style(LineStyle::dashed_dense()));
+    if input.scenario.pump.is_some() {
+        let line = series(lines, pui, input, &d.pump_ua_per_cm2, "I pump".into());
+        pen.draw(
+            pui,
+            line,
+            "I pump",
+            neutral_color(dark),
+            1.4,
+            LineStyle::dashed_dense(),
+        );
     }
     if input
         .scenario
         .protocol
         .iter()
         .any(|e| e.clamp_only() == Some(false))
-        && let Some(line) = series(lines, pui, input, &d.inject_ua_per_cm2, "injected".into())
-            .map(|l| l.color(neutral_color(dark)).width(1.4))
     {
-        pui.line(line.style(LineStyle::dotted_dense()));
+        let line = series(lines, pui, input, &d.inject_ua_per_cm2, "injected".into());
+        pen.draw(
+            pui,
+            line,
+            "injected",
+            neutral_color(dark),
+            1.4,
+            LineStyle::dotted_dense(),
+        );
     }
-    if let Some(line) = series(lines, pui, input, &d.net_ua_per_cm2, "I net".into())
-        .map(|l| l.color(potential_color(dark)).width(2.0))
-    {
-        pui.line(line);
-    }
+    let line = series(lines, pui, input, &d.net_ua_per_cm2, "I net".into());
+    pen.draw(pui, line, "I net", potential_color(dark), 2.0, LineStyle::Solid);
     pui.hline(
         HLine::new("", 0.0)
             .color(neutral_color(dark).gamma_multiply(0.4))
-            .width(0.8),
+            .width(0.8 * pen.scale),
     );
 }
 
-fn permeability_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+fn permeability_items(
+    lines: &mut HashMap<String, Decimator>,
+    pui: &mut PlotUi,
+    input: &PlotInput,
+    pen: &mut Pen,
+) {
     let d = input.derived;
     for (i, (name, col)) in d.species.iter().zip(&d.log10_p).enumerate() {
-        if let Some(line) =
-            series(lines, pui, input, col, format!("P {name}")).map(|l| l.color(species_color(i)).width(1.6))
-        {
-            pui.line(line);
-        }
+        let label = format!("P {name}");
+        let line = series(lines, pui, input, col, label.clone());
+        pen.draw(pui, line, &label, species_color(i), 1.6, LineStyle::Solid);
     }
 }
 
-fn gate_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput) {
+/// Every gate's open fraction, named by channel and letter ("fast sodium: h (inactivation)");
+/// the gates of one channel share its species' hue in different shades and dash patterns.
+fn gate_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &PlotInput, pen: &mut Pen) {
     if input.scenario.channels.is_empty() {
         let b = pui.plot_bounds();
         let centre = PlotPoint::new((b.min()[0] + b.max()[0]) / 2.0, 0.5);
@@ -1133,6 +1378,7 @@ fn gate_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &
         return;
     }
     let Some(trace) = input.trace else { return };
+    let text = pui.ctx().global_style().visuals.text_color();
     let styles = [
         LineStyle::Solid,
         LineStyle::dashed_loose(),
@@ -1140,25 +1386,40 @@ fn gate_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &
     ];
     let mut k = 0;
     for ch in &input.scenario.channels {
-        let color = input
+        let base = input
             .scenario
             .species_index(&ch.species)
             .map_or(Color32::GRAY, species_color);
-        for j in 0..ch.gates.len() {
-            let Some(name) = input.gate_names.get(k) else {
+        for (j, gate) in ch.gates.iter().enumerate() {
+            if input.gate_names.get(k).is_none() {
                 return;
-            };
+            }
             let Some(col) = trace.columns.get(1 + k) else {
                 return;
             };
-            if let Some(line) =
-                series(lines, pui, input, col, name.clone()).map(|l| l.color(color).width(1.6))
-            {
-                pui.line(line.style(styles[j % styles.len()]));
-            }
+            let name = plot_labels::gate_name(&ch.label, &gate.kinetics, j);
+            let color = plot_labels::gate_color(base, j, text);
+            let line = series(lines, pui, input, col, name.clone());
+            pen.draw(pui, line, &name, color, 1.6, styles[j % styles.len()]);
             k += 1;
         }
     }
+}
+
+/// The hover text of the permeability plot: the value the log axis stands for.
+fn permeability_hover(h: &HoverPosition) -> Option<String> {
+    let (name, p) = match h {
+        HoverPosition::NearDataPoint {
+            plot_name, position, ..
+        } => (*plot_name, position),
+        HoverPosition::Elsewhere { position } => ("", position),
+    };
+    let head = if name.is_empty() {
+        String::new()
+    } else {
+        format!("{name}\n")
+    };
+    Some(format!("{head}{:.2} ms\n{:.3e} cm/s", p.x, 10f64.powf(p.y)))
 }
 
 #[cfg(test)]
@@ -1196,13 +1457,6 @@ mod tests {
         );
         assert_eq!(b[1].label, "");
         assert_eq!(b[2].label, "3. 1 µA/cm²");
-    }
-
-    #[test]
-    fn log_axis_labels_read_as_powers_of_ten() {
-        assert_eq!(format_power_of_ten(-7.0), "1e-7");
-        assert_eq!(format_power_of_ten(0.0), "1e0");
-        assert_eq!(format_power_of_ten(-6.5), "3.2e-7");
     }
 }
 

@@ -111,6 +111,9 @@ pub struct PresentInfo<'a> {
     pub notice: Option<&'a str>,
 }
 
+/// Text size of the big sliders' names and values, points (before presentation's own scale).
+const SLIDER_TEXT_PT: f32 = 18.0;
+
 /// The bar across the top and the big sliders along the bottom.
 pub fn panels(ui: &mut Ui, state: &mut Presentation, info: &PresentInfo, ed: &mut Editing) {
     Panel::top("presentation bar").show(ui, |ui| bar(ui, info, ed.scenario, ed.commands));
@@ -190,7 +193,22 @@ fn sliders(ui: &mut Ui, state: &mut Presentation, ed: &mut Editing) {
         ui.add_space(6.0);
         return;
     }
-    let label_w = 190.0;
+    // The name column is as wide as the longest name needs (up to a third of the width), and
+    // a longer name wraps: a control's name is never cut.
+    let name_font = egui::FontId::proportional(SLIDER_TEXT_PT);
+    let label_w = ed
+        .pinned
+        .iter()
+        .map(|&a| {
+            let name = crate::scenario::control_name(a, s);
+            ui.painter()
+                .layout_no_wrap(name, name_font.clone(), egui::Color32::WHITE)
+                .size()
+                .x
+        })
+        .fold(120.0_f32, f32::max)
+        .min(ui.available_width() / 3.0)
+        + 8.0;
     let value_w = 130.0;
     for &field in ed.pinned {
         ui.horizontal(|ui| {
@@ -203,15 +221,22 @@ fn sliders(ui: &mut Ui, state: &mut Presentation, ed: &mut Editing) {
                 }
             };
             let Some(value) = field.get(s) else {
-                ui.label(RichText::new(format!("{field}: not in this scenario")).weak());
+                ui.label(
+                    RichText::new(format!(
+                        "A big slider for a {} that this scenario does not have",
+                        field.field().label
+                    ))
+                    .weak(),
+                );
                 unpin(ui, ed.commands);
                 return;
             };
-            let name = field.label(s);
+            // Named as the experiment's control ("Bath K+ after the change"), never by its
+            // place in the file.
+            let name = crate::scenario::control_name(field, s);
             ui.spacing_mut().interact_size.y = 30.0;
             fixed_width(ui, label_w, egui::Align::Min, |ui| {
-                ui.add(egui::Label::new(RichText::new(&name).size(18.0).strong()).truncate())
-                    .on_hover_text(field.to_string());
+                ui.add(egui::Label::new(RichText::new(&name).size(SLIDER_TEXT_PT).strong()).wrap());
             });
             let range = *state
                 .ranges
@@ -240,7 +265,7 @@ fn sliders(ui: &mut Ui, state: &mut Presentation, ed: &mut Editing) {
             }
             let shown = format!("{} {unit}", field.field().style.format(value));
             fixed_width(ui, value_w, egui::Align::Max, |ui| {
-                ui.label(RichText::new(shown).size(18.0).monospace());
+                ui.label(RichText::new(shown).size(SLIDER_TEXT_PT).monospace());
             });
             unpin(ui, ed.commands);
         });

@@ -18,7 +18,8 @@ pub struct StatusInfo<'a> {
 }
 
 pub fn show(ui: &mut Ui, info: &StatusInfo) {
-    ui.horizontal(|ui| {
+    // Wrapped, so a long warning goes on a second line instead of past the window's edge.
+    ui.horizontal_wrapped(|ui| {
         let state = if info.running {
             "running"
         } else if info.finished {

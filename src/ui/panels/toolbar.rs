@@ -29,7 +29,13 @@ pub struct ToolbarInfo<'a> {
 }
 
 pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
-    egui::MenuBar::new().ui(ui, |ui| {
+    // Wrapped: with large text, or in a narrow window, the rest goes on a second row instead of
+    // past the window's edge.
+    egui::MenuBar::new().ui(ui, |ui| ui.horizontal_wrapped(|ui| bar(ui, info, ed)));
+}
+
+fn bar(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
+    {
         ui.menu_button("File", |ui| {
             if ui
                 .button("New")
@@ -199,12 +205,12 @@ pub fn show(ui: &mut Ui, info: &ToolbarInfo, ed: &mut Editing) {
                 .push(Command::Analysis(AnalysisCommand::Show(!info.analysis_open)));
         }
         ui.separator();
-        ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
-            let width = ui.available_width().clamp(80.0, 360.0);
-            let title = ed.scenario.title.clone();
-            ed.text(ui, "title", &title, "Scenario title", width, Edit::Title);
-        });
-    });
+        // The rest of the row, up to 360 points; with less than 160 left it starts a new row.
+        let left = ui.available_width() - 8.0;
+        let width = if left >= 160.0 { left.min(360.0) } else { 240.0 };
+        let title = ed.scenario.title.clone();
+        ed.text(ui, "title", &title, "Scenario title", width, Edit::Title);
+    }
 }
 
 /// The PNG export's size in pixels, picked where the export is chosen.

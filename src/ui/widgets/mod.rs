@@ -492,7 +492,14 @@ impl Editing<'_> {
                 error: None,
             },
         };
-        let response = ui.add(TextEdit::singleline(&mut typing.text).id(id).desired_width(width));
+        // At least `width`: in a grid the space left is last frame's column width, which would
+        // otherwise keep a longer name cut ("NMDG+" shown as "NMI").
+        let response = ui.add(
+            TextEdit::singleline(&mut typing.text)
+                .id(id)
+                .desired_width(width)
+                .min_size(vec2(width, 0.0)),
+        );
         if response.changed() {
             typing.error = self.check(&make(typing.text.clone())).err().map(|p| p.message);
         }

@@ -40,7 +40,8 @@ pub struct EditorInfo<'a> {
 }
 
 pub fn show(ui: &mut Ui, tab: &mut EditorTab, info: &EditorInfo, ed: &mut Editing) {
-    ui.horizontal(|ui| {
+    // Wrapped: a narrow panel (large text) puts the last tabs on a second row.
+    ui.horizontal_wrapped(|ui| {
         for (t, label) in [
             (EditorTab::Cell, "Cell"),
             (EditorTab::Channels, "Pump & channels"),
@@ -171,26 +172,74 @@ fn species_table(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
     }
 }
 
+/// The species table: one row per ion when the panel is wide enough for it; otherwise (large
+/// text, a narrow panel) two tables, concentrations first, then permeabilities and reversal
+/// potentials, so that no column is cut off at the panel's edge.
 fn species_grid(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
+    let full_w_id = egui::Id::unique("species table full width");
+    let full_w: Option<f32> = ui.data(|d| d.get_temp(full_w_id));
+    // Every name in full ("NMDG+", "Ca2+"), in a field as wide as the longest.
+    let font = egui::TextStyle::Body.resolve(ui.style());
+    let name_w = ed
+        .scenario
+        .species
+        .iter()
+        .map(|s| {
+            ui.painter()
+                .layout_no_wrap(s.name.clone(), font.clone(), egui::Color32::WHITE)
+                .size()
+                .x
+        })
+        .fold(0.0_f32, f32::max)
+        .max(30.0)
+        + 14.0;
+    let split = full_w.is_some_and(|w| w > ui.available_width() + 0.5);
+    if split {
+        species_rows(ui, info, ed, name_w, Columns::Concentrations);
+        ui.add_space(4.0);
+        species_rows(ui, info, ed, name_w, Columns::Permeabilities);
+    } else {
+        let w = species_rows(ui, info, ed, name_w, Columns::All);
+        ui.data_mut(|d| d.insert_temp(full_w_id, w));
+    }
+}
+
+/// Which columns of the species table a grid shows.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Columns {
+    All,
+    Concentrations,
+    Permeabilities,
+}
+
+/// One grid of the species table; returns its width.
+fn species_rows(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing, name_w: f32, columns: Columns) -> f32 {
     let rows = ed.scenario.species.len();
     let report = info.rest.as_ref().ok();
-    Grid::new("species table")
-        .num_columns(9)
+    let concentrations = columns != Columns::Permeabilities;
+    let permeabilities = columns != Columns::Concentrations;
+    let headers: &[&str] = match columns {
+        Columns::All => &[
+            "",
+            "Name",
+            "z",
+            "Inside",
+            "Outside",
+            "Permeability",
+            "Rel.",
+            "Reversal",
+            "",
+        ],
+        Columns::Concentrations => &["", "Name", "z", "Inside", "Outside", ""],
+        Columns::Permeabilities => &["", "Ion", "Permeability", "Rel.", "Reversal"],
+    };
+    Grid::new(("species table", columns as u8))
+        .num_columns(headers.len())
         .spacing([6.0, 4.0])
         .striped(true)
         .show(ui, |ui| {
-            for h in [
-                "",
-                "Name",
-                "z",
-                "Inside",
-                "Outside",
-                "Permeability",
-                "Rel.",
-                "Reversal",
-                "",
-            ] {
-                ui.label(RichText::new(h).small().strong());
+            for h in headers {
+                ui.label(RichText::new(*h).small().strong());
             }
             ui.end_row();
             for i in 0..rows {
@@ -199,12 +248,19 @@ fn species_grid(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
                 };
                 color_swatch(ui, species_color(i))
                     .on_hover_text(format!("{}: its colour in every plot", sp.name));
+                if !concentrations {
+                    // The second table names each row; the name is edited in the first.
+                    ui.label(RichText::new(&sp.name).color(species_color(i)).strong());
+                    species_permeability(ui, ed, report, i, &sp.name);
+                    ui.end_row();
+                    continue;
+                }
                 ed.text(
                     ui,
                     ("species name", i),
                     &sp.name,
                     &format!("name of ion {}", i + 1),
-                    44.0,
+                    name_w,
                     move |name| Edit::SpeciesName { index: i, name },
                 );
                 ed.number(ui, "species[].charge", &[i], 22.0);
@@ -219,28 +275,38 @@ fn species_grid(ui: &mut Ui, info: &EditorInfo, ed: &mut Editing) {
                         }
                     }
                 }
-                ed.number(ui, "species[].permeability_cm_per_s", &[i], 70.0);
-                let row = report.and_then(|r| r.species.get(i));
-                let rel = row.and_then(|r| r.relative_permeability);
-                ui.label(rel.map_or_else(|| "—".into(), relative_text))
-                    .on_hover_text("Resting permeability relative to the most permeant ion");
-                match row.and_then(|r| r.reversal_mv) {
-                    Some(e) => {
-                        ui.label(
-                            RichText::new(format!("{e:+.1} mV"))
-                                .color(species_color(i))
-                                .strong(),
-                        )
-                        .on_hover_text(format!("Reversal (Nernst) potential of {}", sp.name));
-                    }
-                    None => {
-                        ui.label("—").on_hover_text("Undefined: a concentration is 0");
-                    }
+                if permeabilities {
+                    species_permeability(ui, ed, report, i, &sp.name);
                 }
                 ed.button(ui, "×", &format!("Remove {}", sp.name), Edit::RemoveSpecies(i));
                 ui.end_row();
             }
-        });
+        })
+        .response
+        .rect
+        .width()
+}
+
+/// A species' permeability field, its relative permeability and its reversal potential.
+fn species_permeability(ui: &mut Ui, ed: &mut Editing, report: Option<&RestReport>, i: usize, name: &str) {
+    ed.number(ui, "species[].permeability_cm_per_s", &[i], 70.0);
+    let row = report.and_then(|r| r.species.get(i));
+    let rel = row.and_then(|r| r.relative_permeability);
+    ui.label(rel.map_or_else(|| "—".into(), relative_text))
+        .on_hover_text("Resting permeability relative to the most permeant ion");
+    match row.and_then(|r| r.reversal_mv) {
+        Some(e) => {
+            ui.label(
+                RichText::new(format!("{e:+.1} mV"))
+                    .color(species_color(i))
+                    .strong(),
+            )
+            .on_hover_text(format!("Reversal (Nernst) potential of {name}"));
+        }
+        None => {
+            ui.label("—").on_hover_text("Undefined: a concentration is 0");
+        }
+    }
 }
 
 /// One readout value, in bold (and its species' colour), read out by a screen reader with its
