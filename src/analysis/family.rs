@@ -240,6 +240,25 @@ impl FromStr for Measure {
     }
 }
 
+impl Measure {
+    /// The measurement in words with its window, for people rather than the command line
+    /// (`Display` gives the `--measure` spelling).
+    pub fn describe(&self) -> String {
+        let n = |x: f64| crate::report::csv::number(x);
+        match *self {
+            Measure::Peak { from_ms, until_ms } => format!("Peak from {} to {} ms", n(from_ms), n(until_ms)),
+            Measure::Late { from_ms, until_ms } => format!("Mean from {} to {} ms", n(from_ms), n(until_ms)),
+            Measure::Tail { at_ms } => format!("Tail at {} ms", n(at_ms)),
+            Measure::Spikes { from_ms, until_ms } => {
+                format!("Spikes from {} to {} ms", n(from_ms), n(until_ms))
+            }
+            Measure::Latency { from_ms, until_ms } => {
+                format!("First-spike latency from {} to {} ms", n(from_ms), n(until_ms))
+            }
+        }
+    }
+}
+
 impl fmt::Display for Measure {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {

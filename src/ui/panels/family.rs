@@ -36,9 +36,10 @@ pub fn show(ui: &mut Ui, f: &FamilyState, s: &Scenario, commands: &mut Vec<Comma
         return;
     };
     let field = family.field();
-    let label = field.label(s);
+    // The experiment's name for the varied number, not its field path.
+    let label = crate::scenario::control_name(field, s);
     let unit = field.field().unit;
-    ui.label(RichText::new(format!("One run per {label}")).strong());
+    ui.label(RichText::new(format!("One run per value of: {label}")).strong());
     if let Some((done, total)) = f.progress() {
         ui.horizontal(|ui| {
             ui.add(
@@ -72,9 +73,12 @@ pub fn show(ui: &mut Ui, f: &FamilyState, s: &Scenario, commands: &mut Vec<Comma
     let y_unit = if clamped { "µA/cm²" } else { "" };
     ui.label(
         RichText::new(if clamped {
-            format!("{measure} of the recorded current (ideal clamp: no capacitive current)")
+            format!(
+                "{} of the recorded current (ideal clamp: no capacitive current)",
+                measure.describe()
+            )
         } else {
-            format!("{measure}: spikes per run")
+            measure.describe()
         })
         .small(),
     );
@@ -187,7 +191,7 @@ pub fn show(ui: &mut Ui, f: &FamilyState, s: &Scenario, commands: &mut Vec<Comma
     ScrollArea::vertical().auto_shrink([false, true]).show(ui, |ui| {
         egui::Grid::new("family table").striped(true).show(ui, |ui| {
             ui.label(RichText::new(&label).strong());
-            ui.label(RichText::new(measure.to_string()).strong());
+            ui.label(RichText::new(measure.describe()).strong());
             if !t.blocked.is_empty() {
                 ui.label(RichText::new("blocked").strong());
             }
