@@ -374,7 +374,7 @@ impl App {
     }
 
     /// The lower plot's axis title as last drawn: the quantity shown and its unit.
-    pub fn lower_plot_title(&self) -> &'static str {
+    pub fn lower_plot_title(&self) -> &str {
         self.plots.lower_title()
     }
 

@@ -1275,7 +1275,14 @@ fn concentration_items(
     let d = input.derived;
     for (i, (name, col)) in d.species.iter().zip(&d.inside_mm).enumerate() {
         let line = series(lines, pui, input, col, format!("{name} inside"));
-        pen.draw(pui, line, &format!("{name} inside"), species_color(i), 1.8, LineStyle::Solid);
+        pen.draw(
+            pui,
+            line,
+            &format!("{name} inside"),
+            species_color(i),
+            1.8,
+            LineStyle::Solid,
+        );
     }
 }
 
@@ -1290,7 +1297,14 @@ fn osmolarity_items(
     let d = input.derived;
     let line = series(lines, pui, input, &d.osm_out_mosm, "bath".into());
     // Dashed as well as grey: in the dark theme both lines are light.
-    pen.draw(pui, line, "bath", neutral_color(dark), 3.0, LineStyle::dashed_loose());
+    pen.draw(
+        pui,
+        line,
+        "bath",
+        neutral_color(dark),
+        3.0,
+        LineStyle::dashed_loose(),
+    );
     let line = series(lines, pui, input, &d.osm_in_mosm, "inside".into());
     pen.draw(pui, line, "inside", potential_color(dark), 2.0, LineStyle::Solid);
 }
