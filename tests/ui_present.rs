@@ -275,3 +275,31 @@ fn a_pinned_slider_is_named_as_the_control_and_its_value_shows_on_the_trace() {
         labels.iter().map(|l| &l.text).collect::<Vec<_>>()
     );
 }
+
+// Point 4 (found after the merge): the lower plot's legend row was laid out after the plot's
+// height was taken, so the plot ran its time axis (ticks and title) under the status line.
+#[test]
+fn the_lower_plot_keeps_its_time_axis_above_the_status_line_with_its_legend() {
+    for large in [false, true] {
+        let mut h = harness();
+        open(&mut h, "raised-bath-potassium.ron");
+        h.state_mut().queue(Command::SetLargeText(large));
+        run_to_end(&mut h);
+        assert!(
+            !h.state().plots().legend().0.is_empty(),
+            "the currents have a legend row"
+        );
+        let [_, lower] = h.state().plot_frames().expect("drawn");
+        let status = h.get_by_label("finished").rect();
+        // Tick labels and the axis title stand under the frame: two rows of text at least (in
+        // points; large text zooms points to pixels).
+        let text_h = 14.0;
+        assert!(
+            lower.bottom() + 2.0 * text_h <= status.top() + 0.5,
+            "large text {large}: the lower plot ends at y = {} and its axis needs {} more, the status line begins at {}",
+            lower.bottom(),
+            2.0 * text_h,
+            status.top()
+        );
+    }
+}

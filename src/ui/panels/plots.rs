@@ -406,6 +406,10 @@ impl Plots {
             LowerPlot::Osmolarity => "mOsm",
             LowerPlot::Concentrations => "c (mM)",
         };
+        // The legend is a row above the plot, never over its data (the first spike, the
+        // opening current level); it lists what the plot drew last frame.
+        self.legend_rect = (!self.legend.is_empty()).then(|| plot_labels::legend_row(ui, &self.legend, look));
+        // After the legend row, so the plot with its time axis ends at the panel's bottom.
         let lower_h = ui.available_height().max(80.0);
         let mut lower = Plot::new(("lower plot", view as u8))
             .height(lower_h)
@@ -430,9 +434,6 @@ impl Plots {
                 .y_axis_formatter(plot_labels::power_of_ten_label)
                 .label_formatter(permeability_hover);
         }
-        // The legend is a row above the plot, never over its data (the first spike, the
-        // opening current level); it lists what the plot drew last frame.
-        self.legend_rect = (!self.legend.is_empty()).then(|| plot_labels::legend_row(ui, &self.legend, look));
         let left = ui.cursor().left();
         let shown = lower.show(ui, |pui| {
             // Not when the upper plot was just moved: the lower one takes its time range.
@@ -1098,8 +1099,9 @@ fn potential_items(
                         .width(1.2 * k)
                         .style(LineStyle::dotted_loose()),
                 );
+                // Its value at the end, so tried from the right end first, where the line has it.
                 let text = with_notes(format!("GHK {v:+.1} mV"), Some(&notes.ghk));
-                labels.push((text, points, c, true));
+                labels.push((text, points, c, false));
             }
         } else if let Ok(v) = r.ghk_mv {
             let c = neutral_color(dark);
