@@ -420,7 +420,7 @@ impl Plots {
             .y_axis_label(fit_title(ui, y_label, short_label, lower_h))
             .y_axis_min_width(axis_w)
             .x_grid_spacer(unit.grid_spacer())
-            .y_grid_spacer(egui_plot::uniform_grid_spacer(nice_steps))
+            .y_grid_spacer(egui_plot::uniform_grid_spacer(few_steps))
             .x_axis_formatter(move |mark, _| unit.tick_label(mark))
             .y_axis_formatter(nice_label)
             .label_formatter(move |h| unit.hover_label(h, y_unit));
@@ -1480,8 +1480,19 @@ mod tests {
 /// finer unlabelled lines between. The default base-10 spacer jumps from 10 to 100 mV, which left
 /// a potential axis of −100..+60 mV with a single label.
 pub fn nice_steps(input: egui_plot::GridInput) -> [f64; 3] {
+    steps_for_labels(input, 5.0)
+}
+
+/// As [`nice_steps`] with about three labels: for the low lower plot, whose five labels would
+/// stand closer than their text is high in large text or presentation, and egui_plot then
+/// leaves the axis without a number.
+pub fn few_steps(input: egui_plot::GridInput) -> [f64; 3] {
+    steps_for_labels(input, 3.0)
+}
+
+fn steps_for_labels(input: egui_plot::GridInput, labels: f64) -> [f64; 3] {
     let span = (input.bounds.1 - input.bounds.0).abs().max(f64::MIN_POSITIVE);
-    let raw = span / 5.0;
+    let raw = span / labels;
     let decade = 10f64.powf(raw.log10().floor());
     let mantissa = [1.0, 2.0, 5.0, 10.0]
         .into_iter()
