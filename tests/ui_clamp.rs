@@ -107,3 +107,34 @@ fn a_family_can_be_cancelled_and_says_so() {
     assert!(f.was_cancelled() && f.progress().is_none());
     assert!(f.error.as_deref().is_some_and(|e| e.contains("cancelled")));
 }
+
+// Found after the merge: the lower plot sized itself from the live run alone; a cell held at
+// −90 mV carries almost no current, so the family's step currents (about 150 µA/cm²) stood 1e5
+// plot heights off the axis and their dashed lines ran out of memory at large text.
+#[test]
+fn the_current_axis_holds_every_run_of_the_family() {
+    let mut h = harness();
+    h.state_mut().queue(Command::OpenExample(
+        "delayed-potassium-activation-family.ron".into(),
+    ));
+    until_family_done(&mut h);
+    h.run_steps(3);
+    let f = h.state().family().result.as_ref().expect("a family");
+    let (lo, hi) = f
+        .runs
+        .members
+        .iter()
+        .flat_map(|m| m.i_ua_per_cm2.iter().copied())
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+            (a.min(v), b.max(v))
+        });
+    assert!(
+        hi > 100.0,
+        "the +50 mV step carries a large outward current ({hi})"
+    );
+    let [_, (y_lo, y_hi)] = h.state().plot_y_ranges().expect("drawn");
+    assert!(
+        y_lo <= lo && y_hi >= hi,
+        "the axis {y_lo}..{y_hi} µA/cm² holds the family's {lo}..{hi} µA/cm²"
+    );
+}

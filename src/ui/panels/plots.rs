@@ -403,7 +403,7 @@ impl Plots {
             LowerPlot::Permeabilities => "P (cm/s)",
             LowerPlot::Gates => "Open",
             LowerPlot::Volume => "Volume",
-            LowerPlot::Osmolarity => "mOsm",
+            LowerPlot::Osmolarity => "mOsm/L",
             LowerPlot::Concentrations => "c (mM)",
         };
         // The legend is a row above the plot, never over its data (the first spike, the
@@ -551,6 +551,20 @@ impl Plots {
                 if v.is_finite() {
                     lo = lo.min(v);
                     hi = hi.max(v);
+                }
+            }
+        }
+        if view == LowerPlot::Currents
+            && let Some(f) = input.family
+        {
+            // A family's runs are drawn with the live one: the axis holds them all. Sized from
+            // the live run alone, a held cell's near-zero current gave a range 1e5 times
+            // smaller than the steps' currents, and their dashed lines ran to millions of
+            // dashes (memory ran out).
+            for v in f.runs.members.iter().flat_map(|m| m.i_ua_per_cm2.iter()) {
+                if v.is_finite() {
+                    lo = lo.min(*v);
+                    hi = hi.max(*v);
                 }
             }
         }
@@ -1483,11 +1497,11 @@ pub fn nice_steps(input: egui_plot::GridInput) -> [f64; 3] {
     steps_for_labels(input, 5.0)
 }
 
-/// As [`nice_steps`] with about three labels: for the low lower plot, whose five labels would
+/// As [`nice_steps`] with two or three labels: for the low lower plot, whose five labels would
 /// stand closer than their text is high in large text or presentation, and egui_plot then
 /// leaves the axis without a number.
 pub fn few_steps(input: egui_plot::GridInput) -> [f64; 3] {
-    steps_for_labels(input, 3.0)
+    steps_for_labels(input, 2.0)
 }
 
 fn steps_for_labels(input: egui_plot::GridInput, labels: f64) -> [f64; 3] {
