@@ -83,27 +83,23 @@ impl TimeUnit {
     /// The hover text of a time plot: the nearest item's name, the time in this unit and the
     /// value with its unit.
     pub fn hover_label(self, h: &HoverPosition, y_unit: &str) -> Option<String> {
-        let (name, p) = match h {
-            HoverPosition::NearDataPoint {
-                plot_name, position, ..
-            } => (*plot_name, position),
-            HoverPosition::Elsewhere { position } => ("", position),
-        };
-        let head = if name.is_empty() {
-            String::new()
-        } else {
-            format!("{name}\n")
-        };
+        self.hover_text(h, |y| format!("{y:.3} {y_unit}"))
+    }
+
+    /// As [`TimeUnit::hover_label`] with the value written by `y_text` (a log axis writes the
+    /// value its logarithm stands for).
+    pub fn hover_text(self, h: &HoverPosition, y_text: impl Fn(f64) -> String) -> Option<String> {
+        let (head, p) = hover_parts(h);
         let digits = match self {
             TimeUnit::Ms => 2,
             TimeUnit::S | TimeUnit::Min => 3,
         };
         Some(format!(
-            "{head}{:.*} {}\n{:.3} {y_unit}",
+            "{head}{:.*} {}\n{}",
             digits,
             self.value(p.x),
             self.symbol(),
-            p.y
+            y_text(p.y)
         ))
     }
 
@@ -185,6 +181,23 @@ pub fn speed_box(
         ))
 }
 
+/// What every plot's hover text starts from: the nearest item's name on a line of its own (empty
+/// away from any item) and the pointer's position.
+pub fn hover_parts(h: &HoverPosition) -> (String, egui_plot::PlotPoint) {
+    let (name, p) = match h {
+        HoverPosition::NearDataPoint {
+            plot_name, position, ..
+        } => (*plot_name, *position),
+        HoverPosition::Elsewhere { position } => ("", *position),
+    };
+    let head = if name.is_empty() {
+        String::new()
+    } else {
+        format!("{name}\n")
+    };
+    (head, p)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -211,6 +224,21 @@ mod tests {
         assert_eq!(
             TimeUnit::Ms.hover_label(&h, "mV").as_deref(),
             Some("90000.00 ms\n-61.250 mV")
+        );
+    }
+
+    #[test]
+    fn a_log_axis_hover_writes_its_value_and_the_time_in_the_axis_unit() {
+        // The permeability plot of a minute-long run: the time reads in s like its axis, the
+        // value as the permeability its logarithm stands for.
+        let h = HoverPosition::Elsewhere {
+            position: egui_plot::PlotPoint::new(1500.0, -7.0),
+        };
+        assert_eq!(
+            TimeUnit::S
+                .hover_text(&h, |y| format!("{:.3e} cm/s", 10f64.powf(y)))
+                .as_deref(),
+            Some("1.500 s\n1.000e-7 cm/s")
         );
     }
 

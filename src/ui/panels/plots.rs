@@ -432,7 +432,7 @@ impl Plots {
             lower = lower
                 .y_grid_spacer(plot_labels::log_steps)
                 .y_axis_formatter(plot_labels::power_of_ten_label)
-                .label_formatter(permeability_hover);
+                .label_formatter(move |h| unit.hover_text(h, |y| format!("{:.3e} cm/s", 10f64.powf(y))));
         }
         let left = ui.cursor().left();
         let shown = lower.show(ui, |pui| {
@@ -800,17 +800,7 @@ fn fit_title(ui: &Ui, long: &str, short: &str, height: f32) -> String {
 
 /// The hover text of a plot: the nearest item's name, then both coordinates with units.
 pub fn hover_label(h: &HoverPosition, x_unit: &str, y_unit: &str) -> Option<String> {
-    let (name, p) = match h {
-        HoverPosition::NearDataPoint {
-            plot_name, position, ..
-        } => (*plot_name, position),
-        HoverPosition::Elsewhere { position } => ("", position),
-    };
-    let head = if name.is_empty() {
-        String::new()
-    } else {
-        format!("{name}\n")
-    };
+    let (head, p) = crate::ui::time::hover_parts(h);
     Some(format!("{head}{:.2} {x_unit}\n{:.3} {y_unit}", p.x, p.y))
 }
 
@@ -1434,22 +1424,6 @@ fn gate_items(lines: &mut HashMap<String, Decimator>, pui: &mut PlotUi, input: &
             k += 1;
         }
     }
-}
-
-/// The hover text of the permeability plot: the value the log axis stands for.
-fn permeability_hover(h: &HoverPosition) -> Option<String> {
-    let (name, p) = match h {
-        HoverPosition::NearDataPoint {
-            plot_name, position, ..
-        } => (*plot_name, position),
-        HoverPosition::Elsewhere { position } => ("", position),
-    };
-    let head = if name.is_empty() {
-        String::new()
-    } else {
-        format!("{name}\n")
-    };
-    Some(format!("{head}{:.2} ms\n{:.3e} cm/s", p.x, 10f64.powf(p.y)))
 }
 
 #[cfg(test)]
