@@ -316,17 +316,7 @@ fn dose_plot(ui: &mut Ui, d: &DoseBlock) {
         )
         .x_axis_formatter(|mark, _| short(10f64.powf(mark.value)))
         .label_formatter(|h: &HoverPosition<'_>| {
-            let (name, p) = match h {
-                HoverPosition::NearDataPoint {
-                    plot_name, position, ..
-                } => (*plot_name, *position),
-                HoverPosition::Elsewhere { position } => ("", *position),
-            };
-            let head = if name.is_empty() {
-                String::new()
-            } else {
-                format!("{name}\n")
-            };
+            let (head, p) = crate::ui::time::hover_parts(h);
             Some(format!(
                 "{head}dose {} µM\nblocked {:.1} %",
                 short(10f64.powf(p.x)),
