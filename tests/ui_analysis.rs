@@ -1,6 +1,7 @@
 //! The analysis window, driven through egui_kittest on the real app: keeping a trace and its
 //! metrics, a scan computed in the background against the library's own scan, a fit that
-//! recovers the ratios its points were made from, and a data file with a bad row.
+//! recovers the ratios its points were made from, a data file with a bad row, and an ion
+//! substitution planned as a replacement of a bath compound.
 
 use std::time::{Duration, Instant};
 
@@ -229,4 +230,132 @@ fn a_bad_data_file_shows_the_row_it_stopped_at() {
     h.get_by_label_contains("row 3: the v_mv cell \"about -60\" is not a number");
     // Nothing to fit, so the button waits.
     assert!(h.get_by_label("Fit ratios").accesskit_node().is_disabled());
+}
+
+// An ion substitution planned in the window: the bath is a solution, so its sodium is not a
+// number to scan but a compound to replace.
+#[test]
+fn a_sodium_replacement_in_the_window_equals_the_library_and_the_ghk_equation() {
+    use common::reference::Ion;
+    use permeant::solutions::replace::Replace;
+    let mut h = harness();
+    h.state_mut()
+        .queue(Command::OpenExample("nmdg-sodium-substitution.ron".into()));
+    h.run_steps(2);
+    open_tab(&mut h, AnalysisTab::Scan);
+    h.get_by_label("Replace a bath compound").click();
+    h.run_steps(2);
+    // The bath's largest compound, by the impermeant cation of common practice.
+    let form = h
+        .state()
+        .analysis()
+        .replace_form
+        .clone()
+        .expect("a replacement form");
+    assert_eq!((form.old.as_str(), form.new.as_str()), ("NaCl", "NMDG-Cl"));
+    h.get_by_label("Compute replacement").click();
+    wait_for_job(&mut h);
+    let s = h.state().scenario().clone();
+    let range = ScanRange {
+        from: 0.0,
+        to: 140.0,
+        points: form.points,
+        log: false,
+    };
+    let expected = Replace::parse("NaCl:NMDG-Cl", &s)
+        .and_then(|r| r.scan(&s, &range, &ScanControl::default()))
+        .expect("library replacement");
+    let out = match &h.state().analysis().replace {
+        Some(Ok(out)) => out.clone(),
+        other => panic!("no replacement result: {other:?}"),
+    };
+    assert_eq!(out.points, expected);
+    h.get_by_label(&format!("Values ({} mixes)", out.points.len()))
+        .click();
+    h.run_steps(3);
+    assert!(
+        h.query_by_label("NMDG-Cl (mM)").is_some(),
+        "the table's first column"
+    );
+    assert!(h.query_by_label("Junction (mV)").is_some());
+    // With all 140 mM of NaCl replaced, the bath holds no Na+ and the same Cl-: the GHK voltage
+    // equation (Goldman 1943; Hodgkin & Katz 1949) by hand from the recipes at 22 °C. Pipette:
+    // K+ 130 + 10, Na+ 10, Cl- 10 + 10 + 2·2; bath: K+ 5, Na+ 0, Cl- 140 + 5 + 2·2 + 2·1.
+    let p = |name: &str| {
+        s.species
+            .iter()
+            .find(|x| x.name == name)
+            .map(|x| x.permeability_cm_per_s)
+            .expect("the species")
+    };
+    let ions = [
+        Ion {
+            charge: 1,
+            inside_mm: 140.0,
+            outside_mm: 5.0,
+            p_cm_per_s: p("K+"),
+        },
+        Ion {
+            charge: 1,
+            inside_mm: 10.0,
+            outside_mm: 0.0,
+            p_cm_per_s: p("Na+"),
+        },
+        Ion {
+            charge: -1,
+            inside_mm: 24.0,
+            outside_mm: 151.0,
+            p_cm_per_s: p("Cl-"),
+        },
+    ];
+    let by_hand = ghk_voltage_mv(&ions, 22.0);
+    let last = out.points.last().expect("points");
+    assert_eq!(last.value, 140.0);
+    let ghk = last.ghk_mv.expect("a GHK potential");
+    assert!((ghk - by_hand).abs() < ACCURACY_MV, "{ghk} vs {by_hand}");
+    // Sodium gone, the cell hyperpolarizes; NMDG+ being slower than Na+, the junction moves.
+    let first = &out.points[0];
+    assert!(ghk < first.ghk_mv.expect("a GHK potential") - 5.0);
+    assert!((last.ljp_mv.expect("a junction") - first.ljp_mv.expect("a junction")).abs() > 2.0);
+
+    // Its CSV, through the typed-path dialog, is what the command line writes for it.
+    let dir = tempfile::tempdir().expect("a temporary directory");
+    h.state_mut()
+        .queue(Command::TypePath(permeant::ui::command::FilePurpose::Export(
+            permeant::ui::export::ExportKind::ScanCsv,
+        )));
+    h.run_steps(3);
+    h.get_by_label("File path").click();
+    h.run_steps(1);
+    let target = dir.path().join("replace.csv");
+    h.get_by_label("File path")
+        .type_text(&target.display().to_string());
+    h.run_steps(1);
+    h.get_by_label("Export").click();
+    h.run_steps(3);
+    let written = std::fs::read_to_string(&target).expect("the CSV was written");
+    let cli_csv = dir.path().join("cli.csv");
+    let scenario_file = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("scenarios")
+        .join("nmdg-sodium-substitution.ron");
+    let status = std::process::Command::new(env!("CARGO_BIN_EXE_permeant"))
+        .args([
+            "scan",
+            &scenario_file.display().to_string(),
+            "--vary",
+            "replace:NaCl:NMDG-Cl",
+            "--from",
+            "0",
+            "--to",
+            "140",
+            "--points",
+            &form.points.to_string(),
+            "--csv",
+            &cli_csv.display().to_string(),
+        ])
+        .output()
+        .expect("the command line runs");
+    assert!(status.status.success(), "{status:?}");
+    assert_eq!(written, std::fs::read_to_string(&cli_csv).expect("the CLI's CSV"));
+    assert!(written.starts_with("value,ghk_mv,resting_mv,ljp_mv\n"));
 }

@@ -13,7 +13,7 @@ use common::reference::{fraction_blocked, ghk_voltage_mv};
 use permeant::analysis::metrics::{Blank, METRIC_COLUMNS};
 use permeant::analysis::scan::{ScanControl, Vary, scan, scan_csv};
 use permeant::scenario::{Edit, Scenario};
-use permeant::ui::analysis::{AnalysisTab, PlotView, curve_at};
+use permeant::ui::analysis::{AnalysisTab, PlotView, ScanKind, curve_at};
 use permeant::ui::command::FilePurpose;
 use permeant::ui::export::ExportKind;
 use permeant::ui::prefs::Speed;
@@ -143,14 +143,18 @@ fn the_control_is_the_baseline_and_the_blockers_effect_is_its_ghk_shift() {
 fn a_bath_sodium_scan_has_a_linear_range_a_table_its_csv_and_a_view_to_fit() {
     let dir = tempfile::tempdir().expect("temporary directory");
     let mut h = harness();
-    // Where a solution sets the bath, its concentrations are not offered (its recipe is what
-    // changes), and the scan form holds an input that can be scanned.
+    // Where a solution sets the bath, its concentrations are not offered as inputs (its recipe
+    // is what changes), and the scan form holds an input that can be scanned.
     h.state_mut()
         .queue(Command::OpenExample("sodium-substitution-steps.ron".into()));
     h.run_steps(2);
     h.state_mut().analysis_mut().open = true;
     h.state_mut().analysis_mut().tab = AnalysisTab::Scan;
     h.run_steps(4);
+    // The tab opens on the replacement of a bath compound, the scan such a bath allows.
+    assert_eq!(h.state().analysis().scan_kind, ScanKind::Replace);
+    h.get_by_label("Vary one input").click();
+    h.run_steps(2);
     h.get_by_label_contains("are changed through its recipe");
     let held = h.state().analysis().scan_form.clone().expect("a scan form");
     assert!(held.vary.check(h.state().scenario()).is_ok(), "{:?}", held.vary);

@@ -179,6 +179,7 @@ fn both_plots_share_the_same_time_axis_pixels_for_every_lower_plot_and_text_size
     h.run_steps(3);
     for large in [false, true] {
         h.state_mut().queue(Command::SetLargeText(large));
+        let mut bottom = None;
         for lower in LowerPlot::ALL {
             h.state_mut().queue(Command::SetLowerPlot(lower));
             h.run_steps(4);
@@ -186,6 +187,15 @@ fn both_plots_share_the_same_time_axis_pixels_for_every_lower_plot_and_text_size
             assert!(
                 (lefts[0] - lefts[1]).abs() < 0.5 && (rights[0] - rights[1]).abs() < 0.5,
                 "{lower:?}, large text {large}: left {lefts:?}, right {rights:?}"
+            );
+            // The lower plot keeps its share of the height under a legend of several rows
+            // (the gates' at large text took it down to a quarter of the upper, and pushed its
+            // time axis under the status line), and every view ends where the others do.
+            let [up, low] = h.state().plot_frames().expect("the plots were drawn");
+            let first_bottom = *bottom.get_or_insert(low.bottom());
+            assert!(
+                low.height() >= 0.3 * up.height() && (low.bottom() - first_bottom).abs() < 0.5,
+                "{lower:?}, large text {large}: upper {up:?}, lower {low:?}, bottom {first_bottom}"
             );
         }
     }

@@ -8,7 +8,7 @@ use serde::Serialize;
 use super::output::{Output, write_csv};
 use crate::analysis::scan::{ScanControl, ScanRange};
 use crate::scenario::Valid;
-use crate::solutions::replace::{Replace, ReplacePoint};
+use crate::solutions::replace::{Replace, ReplacePoint, replace_csv};
 
 #[derive(Serialize)]
 struct PointJson {
@@ -46,7 +46,7 @@ pub fn run(s: &Valid, q: Request<'_>) -> anyhow::Result<()> {
         }
     })?;
     if let Some(out) = q.csv {
-        write_csv(out, &csv(&points))?;
+        write_csv(out, &replace_csv(&points))?;
     }
     if q.json {
         let j = ScanJson {
@@ -65,24 +65,6 @@ pub fn run(s: &Valid, q: Request<'_>) -> anyhow::Result<()> {
     } else {
         super::emit(&table(&s.title, &r, &points))
     }
-}
-
-fn cell(x: Option<f64>) -> String {
-    x.map(crate::report::csv::number).unwrap_or_default()
-}
-
-fn csv(points: &[ReplacePoint]) -> String {
-    let mut o = String::from("value,ghk_mv,resting_mv,ljp_mv\n");
-    for p in points {
-        o += &format!(
-            "{},{},{},{}\n",
-            crate::report::csv::number(p.value),
-            cell(p.ghk_mv),
-            cell(p.resting_mv),
-            cell(p.ljp_mv)
-        );
-    }
-    o
 }
 
 fn table(title: &str, r: &Replace, points: &[ReplacePoint]) -> String {

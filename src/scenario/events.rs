@@ -166,7 +166,7 @@ impl Event {
                 amplitude_ua_per_cm2,
                 count,
                 ..
-            } => format!("{count} × {amplitude_ua_per_cm2} µA/cm²"),
+            } => format!("{count} pulses of {amplitude_ua_per_cm2} µA/cm²"),
             Event::Step { to_mv, .. } if standalone => format!("clamp to {to_mv} mV"),
             Event::Step { to_mv, .. } => format!("→ {to_mv} mV"),
             Event::Ramp { from_mv, to_mv, .. } if standalone => {

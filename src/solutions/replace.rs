@@ -191,3 +191,21 @@ impl Replace {
             .collect()
     }
 }
+
+/// `value,ghk_mv,resting_mv,ljp_mv` rows (`permeant scan --vary replace:… --csv` and the
+/// window's export): shortest round-trip numbers, an empty cell where a value is undefined.
+pub fn replace_csv(points: &[ReplacePoint]) -> String {
+    let number = crate::report::csv::number;
+    let cell = |x: Option<f64>| x.map(number).unwrap_or_default();
+    let mut o = String::from("value,ghk_mv,resting_mv,ljp_mv\n");
+    for p in points {
+        o += &format!(
+            "{},{},{},{}\n",
+            number(p.value),
+            cell(p.ghk_mv),
+            cell(p.resting_mv),
+            cell(p.ljp_mv)
+        );
+    }
+    o
+}

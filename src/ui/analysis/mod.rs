@@ -9,6 +9,7 @@
 pub mod fit;
 pub mod kept;
 pub mod lost;
+pub mod replace;
 
 use std::path::PathBuf;
 use std::sync::Arc;
@@ -30,6 +31,7 @@ use crate::ui::state::family::FamilyResult;
 use crate::ui::theme::{neutral_color, potential_color, species_color};
 use fit::{FitForm, FitOutput};
 use kept::Kept;
+use replace::{ReplaceForm, ReplaceOutput};
 
 /// What the analysis window asks for (inside [`Command::Analysis`]).
 #[derive(Debug, Clone, PartialEq)]
@@ -45,6 +47,8 @@ pub enum AnalysisCommand {
     SetBaseline(Option<usize>),
     /// Start the scan in the scan form.
     StartScan,
+    /// Start the replacement in the bath of the replacement form.
+    StartReplace,
     /// Start the dose–response in its form.
     StartDose,
     /// Start the fit of the loaded points.
@@ -210,9 +214,19 @@ pub struct DoseForm {
     pub count_spikes: bool,
 }
 
+/// What the Scan tab varies: one input of the scenario, or one compound of the bath solution
+/// replaced by another.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ScanKind {
+    #[default]
+    Input,
+    Replace,
+}
+
 /// What a background computation sends back.
 enum Outcome {
     Scan(Result<ScanOutput, String>),
+    Replace(Result<ReplaceOutput, String>),
     Dose(Result<DoseResponse, String>),
     Fit(Result<FitOutput, String>),
 }
@@ -221,6 +235,7 @@ enum Outcome {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum JobKind {
     Scan,
+    Replace,
     Dose,
     Fit,
 }
@@ -230,6 +245,7 @@ impl JobKind {
     fn name(self) -> &'static str {
         match self {
             JobKind::Scan => "scan",
+            JobKind::Replace => "replacement",
             JobKind::Dose => "dose–response",
             JobKind::Fit => "fit",
         }
@@ -254,11 +270,17 @@ pub struct Analysis {
     pub kept: Kept,
     pub scan_form: Option<ScanForm>,
     pub scan: Option<Result<ScanOutput, String>>,
+    /// Which of the Scan tab's two forms is shown and computed.
+    pub scan_kind: ScanKind,
+    /// The replacement form; `None` when the bath is not a solution.
+    pub replace_form: Option<ReplaceForm>,
+    pub replace: Option<Result<ReplaceOutput, String>>,
     pub dose_form: Option<DoseForm>,
     pub dose: Option<Result<DoseResponse, String>>,
     pub fit: FitForm,
     /// The views of the scan, dose–response and fit plots.
     pub scan_view: PlotView,
+    pub replace_view: PlotView,
     pub dose_view: PlotView,
     pub fit_view: PlotView,
     /// The family kept as control for the "Lost current" tab.
@@ -301,7 +323,38 @@ impl Analysis {
                 }
             });
         }
+        if self
+            .replace_form
+            .as_ref()
+            .is_none_or(|f| !replace::still_fits(f, s))
+        {
+            let first = self.replace_form.is_none();
+            self.replace_form = replace::default_form(s);
+            // Where the bath is a recipe, its concentrations cannot be scanned one by one, so
+            // the replacement is what the tab first offers.
+            if first && self.replace_form.is_some() {
+                self.scan_kind = ScanKind::Replace;
+            }
+        }
+        if self.replace_form.is_none() {
+            self.scan_kind = ScanKind::Input;
+        }
         self.fit.follow(s);
+    }
+
+    /// The values of the scan shown in the Scan tab as CSV, the columns `permeant scan --csv`
+    /// writes for it; `None` before one is computed.
+    pub fn scan_csv(&self) -> Option<String> {
+        match self.scan_kind {
+            ScanKind::Input => match &self.scan {
+                Some(Ok(out)) => Some(crate::analysis::scan::scan_csv(&out.points)),
+                _ => None,
+            },
+            ScanKind::Replace => match &self.replace {
+                Some(Ok(out)) => Some(crate::solutions::replace::replace_csv(&out.points)),
+                _ => None,
+            },
+        }
     }
 
     /// Applies a command that needs only the analysis state and the scenario.
@@ -314,6 +367,7 @@ impl Analysis {
             AnalysisCommand::DeleteKept(i) => self.kept.delete(i),
             AnalysisCommand::SetBaseline(b) => self.kept.set_baseline(b),
             AnalysisCommand::StartScan => self.start_scan(s, ctx),
+            AnalysisCommand::StartReplace => self.start_replace(s, ctx),
             AnalysisCommand::StartDose => self.start_dose(s, ctx),
             AnalysisCommand::StartFit => self.start_fit(s, ctx),
             AnalysisCommand::Cancel => {
@@ -385,6 +439,16 @@ impl Analysis {
         });
     }
 
+    fn start_replace(&mut self, s: &Scenario, ctx: &egui::Context) {
+        let Some(form) = self.replace_form.clone() else {
+            return;
+        };
+        let s = s.clone();
+        self.spawn(JobKind::Replace, form.points, ctx, move |control| {
+            Outcome::Replace(replace::compute(&s, &form, &control))
+        });
+    }
+
     fn start_dose(&mut self, s: &Scenario, ctx: &egui::Context) {
         let Some(form) = self.dose_form.clone() else {
             return;
@@ -431,6 +495,7 @@ impl Analysis {
                 let lost = format!("the {} stopped without a result", what.name());
                 match what {
                     JobKind::Scan => self.scan = Some(Err(lost)),
+                    JobKind::Replace => self.replace = Some(Err(lost)),
                     JobKind::Fit => self.fit.result = Some(Err(lost)),
                     JobKind::Dose => self.dose = Some(Err(lost)),
                 }
@@ -440,6 +505,7 @@ impl Analysis {
         self.job = None;
         match outcome {
             Outcome::Scan(r) => self.scan = Some(r),
+            Outcome::Replace(r) => self.replace = Some(r),
             Outcome::Dose(r) => self.dose = Some(r),
             Outcome::Fit(r) => self.fit.result = Some(r),
         }
@@ -513,6 +579,67 @@ impl Analysis {
     }
 
     fn scan_tab(&mut self, ui: &mut Ui, s: &Scenario, commands: &mut Vec<Command>) {
+        if self.replace_form.is_some() {
+            ui.horizontal(|ui| {
+                ui.radio_value(&mut self.scan_kind, ScanKind::Input, "Vary one input")
+                    .on_hover_text("Temperature, a permeability, a dose, or a concentration no solution sets");
+                ui.radio_value(&mut self.scan_kind, ScanKind::Replace, "Replace a bath compound")
+                    .on_hover_text(
+                        "An ion substitution: one compound of the bath solution replaced by another, mM for mM",
+                    );
+            });
+        }
+        match self.scan_kind {
+            ScanKind::Input => self.input_scan(ui, s, commands),
+            ScanKind::Replace => self.replace_scan(ui, s, commands),
+        }
+    }
+
+    fn replace_scan(&mut self, ui: &mut Ui, s: &Scenario, commands: &mut Vec<Command>) {
+        let busy = self.job.is_some();
+        let Some(form) = &mut self.replace_form else {
+            return;
+        };
+        replace::form_ui(ui, s, form);
+        ui.horizontal(|ui| {
+            if ui
+                .add_enabled(!busy, egui::Button::new("Compute replacement"))
+                .on_hover_text(
+                    "GHK and steady-state potential and the junction potential at each mix, on every core",
+                )
+                .clicked()
+            {
+                commands.push(Command::Analysis(AnalysisCommand::StartReplace));
+            }
+            if let Some(Ok(out)) = &self.replace {
+                if ui
+                    .button("Export values as CSV…")
+                    .on_hover_text("value,ghk_mv,resting_mv,ljp_mv: the table `permeant scan --csv` writes")
+                    .clicked()
+                {
+                    commands.push(Command::Export(ExportKind::ScanCsv));
+                }
+                ui.label(
+                    RichText::new(format!("{} mixes in {:.1} ms", out.points.len(), out.elapsed_ms)).weak(),
+                );
+            }
+        });
+        match &self.replace {
+            None => {}
+            Some(Err(e)) => {
+                ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
+            }
+            Some(Ok(out)) => {
+                egui::CollapsingHeader::new(format!("Values ({} mixes)", out.points.len()))
+                    .id_salt("replace values")
+                    .show(ui, |ui| replace::table(ui, out));
+                replace::plot(ui, out, &mut self.replace_view);
+            }
+        }
+    }
+
+    fn input_scan(&mut self, ui: &mut Ui, s: &Scenario, commands: &mut Vec<Command>) {
+        let can_replace = self.replace_form.is_some();
         let busy = self.job.is_some();
         let Some(form) = &mut self.scan_form else {
             return;
@@ -527,9 +654,14 @@ impl Analysis {
             .flatten()
             .collect();
         if !from_solutions.is_empty() {
+            let replacing = if can_replace {
+                " or by \"Replace a bath compound\""
+            } else {
+                ""
+            };
             ui.label(
                 RichText::new(format!(
-                    "Concentrations set by the solution {} are changed through its recipe (Solutions tab), not scanned here.",
+                    "Concentrations set by the solution {} are changed through its recipe (Solutions tab){replacing}, not scanned here.",
                     from_solutions
                         .iter()
                         .map(|n| format!("\"{n}\""))
@@ -627,7 +759,8 @@ fn log_value(ui: &mut Ui, v: &mut f64, unit: &str) {
             .speed(speed)
             .range(0.0..=f64::MAX)
             .suffix(unit)
-            .custom_formatter(|x, _| format!("{x:.4}"))
+            // Permeabilities are 1e-9 to 1e-5 cm/s: four decimals read them all as 0.0000.
+            .custom_formatter(|x, _| short(x))
             .min_decimals(1),
     );
 }
@@ -900,25 +1033,31 @@ fn scan_plot(ui: &mut Ui, out: &ScanOutput, view: &mut PlotView) {
                     .width(1.5),
             );
         }
-        pui.line(
-            Line::new("GHK potential", PlotPoints::new(ghk))
-                .color(neutral_color(dark))
-                .style(LineStyle::dotted_dense())
-                .width(2.0),
-        );
-        pui.line(
-            Line::new("Steady state", PlotPoints::new(rest.clone()))
-                .color(potential_color(dark))
-                .width(2.0),
-        );
-        if rest.len() <= 60 {
-            pui.points(
-                Points::new("Steady state", PlotPoints::new(rest))
-                    .color(potential_color(dark))
-                    .radius(2.0),
-            );
-        }
+        potential_lines(pui, dark, ghk, rest);
     });
+}
+
+/// A scan's GHK potential (dotted) and steady state (solid, its points marked when there are
+/// few enough to tell apart), in the same look on every scan plot.
+pub fn potential_lines(pui: &mut PlotUi<'_>, dark: bool, ghk: Vec<[f64; 2]>, rest: Vec<[f64; 2]>) {
+    pui.line(
+        Line::new("GHK potential", PlotPoints::new(ghk))
+            .color(neutral_color(dark))
+            .style(LineStyle::dotted_dense())
+            .width(2.0),
+    );
+    pui.line(
+        Line::new("Steady state", PlotPoints::new(rest.clone()))
+            .color(potential_color(dark))
+            .width(2.0),
+    );
+    if rest.len() <= 60 {
+        pui.points(
+            Points::new("Steady state", PlotPoints::new(rest))
+                .color(potential_color(dark))
+                .radius(2.0),
+        );
+    }
 }
 
 fn dose_plot(ui: &mut Ui, d: &DoseResponse, view: &mut PlotView) {

@@ -317,10 +317,7 @@ impl App {
                 })
                 .collect(),
             metrics_csv: self.analysis.kept.metrics_csv(),
-            scan_csv: match &self.analysis.scan {
-                Some(Ok(out)) => Some(crate::analysis::scan::scan_csv(&out.points)),
-                _ => None,
-            },
+            scan_csv: self.analysis.scan_csv(),
         };
         let done = export::export(kind, path, &shown, || self.plots_png(ctx));
         self.export_done(done);

@@ -342,6 +342,11 @@ impl eframe::App for App {
         }
         self.undo.feed_state(ui.input(|i| i.time), self.doc.version());
         self.readouts.refresh(&self.doc);
+        // Also here, not only before drawing: an edit or an opened file applied in this frame
+        // starts its family now, so no frame (and no test) sees the old family as the new one's.
+        if self.family.refresh(&self.doc) {
+            ctx.request_repaint();
+        }
         let title = self.doc.window_title();
         if title != self.title_sent {
             ctx.send_viewport_cmd(ViewportCommand::Title(title.clone()));

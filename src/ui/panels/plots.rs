@@ -314,7 +314,13 @@ impl Plots {
         let unit = TimeUnit::for_duration(duration);
         let total = ui.available_height();
         let selector_h = ui.spacing().interact_size.y + 6.0;
-        let upper_h = ((total - selector_h) * 0.58).max(120.0);
+        // The lower plot's legend row (as tall as last frame's) comes out of the shared height
+        // before the split: a legend of three rows at large text otherwise took it all from
+        // the lower plot, whose time axis then ran under the status line.
+        let legend_h = self
+            .legend_rect
+            .map_or(0.0, |r| r.height() + ui.spacing().item_spacing.y);
+        let upper_h = ((total - selector_h - legend_h) * 0.58).max(120.0);
 
         let (y_lo, y_hi) = self.potential_range(input);
         let text_size = ui
