@@ -316,7 +316,17 @@ fn a_sodium_replacement_in_the_window_equals_the_library_and_the_ghk_equation() 
     // Sodium gone, the cell hyperpolarizes; NMDG+ being slower than Na+, the junction moves.
     let first = &out.points[0];
     assert!(ghk < first.ghk_mv.expect("a GHK potential") - 5.0);
-    assert!((last.ljp_mv.expect("a junction") - first.ljp_mv.expect("a junction")).abs() > 2.0);
+    let (j0, j1) = (
+        first.ljp_mv.expect("a junction"),
+        last.ljp_mv.expect("a junction"),
+    );
+    assert!((j1 - j0).abs() > 2.0);
+    // Both changes, read off the table's ends, are summed up above the plot.
+    let line = format!("junction {j0:.2} → {j1:.2} mV (Δ {:+.2} mV)", j1 - j0);
+    assert!(
+        h.query_by_label_contains(&line).is_some(),
+        "the summary names {line}"
+    );
 
     // Its CSV, through the typed-path dialog, is what the command line writes for it.
     let dir = tempfile::tempdir().expect("a temporary directory");

@@ -16,4 +16,4 @@ pub use catalog::{Catalog, Compound, Ion};
 pub use junction::{Term, henderson_mv, junction_mv, reference_mv};
 pub use recipe::{Checks, Mixture, Particle, mix};
 pub use table::Role;
-pub use wiring::{Junction, Offsets, Plan, correct_points, fill_species, plan, recording_offsets};
+pub use wiring::{Junction, Offsets, Plan, correct_points, fill_species, plan, plan_of, recording_offsets};

@@ -156,7 +156,7 @@ impl Replace {
         })?;
         let (ghk, resting) = potentials(&t)?;
         let ljp_mv = match (t.inside.as_deref(), t.outside.as_deref()) {
-            (Some(p), Some(b)) => super::plan(&t).junction(&t, p, b).map(|j| j.ljp_mv),
+            (Some(p), Some(b)) => super::plan_of(&t, &[p, b]).junction(&t, p, b).map(|j| j.ljp_mv),
             _ => None,
         };
         Ok(ReplacePoint {

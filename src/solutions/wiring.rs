@@ -51,8 +51,32 @@ impl Offsets {
 
 /// Mixes every solution of `s` with its compounds.
 pub fn plan(s: &Scenario) -> Plan {
+    plan_where(s, |_| true)
+}
+
+/// Mixes only the solutions of `s` named in `names`; the others are left without particles.
+/// For callers that read nothing else (the species' values, one junction): a replacement scan
+/// of a file with ten solutions mixed all ten twice at every point.
+pub fn plan_of(s: &Scenario, names: &[&str]) -> Plan {
+    plan_where(s, |name| names.contains(&name))
+}
+
+fn plan_where(s: &Scenario, wanted: impl Fn(&str) -> bool) -> Plan {
     let (catalog, _) = Catalog::with_user(&s.compounds);
-    let mixtures = s.solutions.iter().map(|x| mix(&catalog, x)).collect();
+    let mixtures = s
+        .solutions
+        .iter()
+        .map(|x| {
+            if wanted(&x.name) {
+                mix(&catalog, x)
+            } else {
+                Mixture {
+                    particles: Vec::new(),
+                    titrant_mm: None,
+                }
+            }
+        })
+        .collect();
     Plan {
         catalog,
         mixtures,
@@ -160,10 +184,14 @@ pub fn recording_offsets(s: &Scenario) -> Option<Offsets> {
 /// `inside`, every outside value from `outside` (activities when on; 0 where the solution
 /// lacks the ion, or where a name does not resolve, which validation reports).
 pub fn fill_species(s: &mut Scenario) {
-    if s.inside.is_none() && s.outside.is_none() {
+    let names: Vec<&str> = [s.inside.as_deref(), s.outside.as_deref()]
+        .into_iter()
+        .flatten()
+        .collect();
+    if names.is_empty() {
         return;
     }
-    let p = plan(s);
+    let p = plan_of(s, &names);
     let values: Vec<(Option<f64>, Option<f64>)> = s
         .species
         .iter()

@@ -844,6 +844,17 @@ pub fn potential_plot(
 ) -> Plot<'static> {
     // The hover text names the input with its unit, as the axis does.
     let hover_x = x_label.clone();
+    // The legend goes in the top corner the first curve leaves free: a falling curve starts
+    // at the top left (a substitution that hyperpolarizes), a rising one ends at the top right.
+    let falling = curves
+        .first()
+        .and_then(|(_, p)| Some(p.first()?[1] > p.last()?[1]))
+        .unwrap_or(false);
+    let corner = if falling {
+        egui_plot::Corner::RightTop
+    } else {
+        egui_plot::Corner::LeftTop
+    };
     Plot::new(id.to_string())
         .height(height)
         .x_axis_label(if log {
@@ -853,11 +864,7 @@ pub fn potential_plot(
         })
         .y_axis_label("Potential (mV)")
         .y_axis_min_width(40.0)
-        .legend(
-            Legend::default()
-                .position(egui_plot::Corner::LeftTop)
-                .background_alpha(0.6),
-        )
+        .legend(Legend::default().position(corner).background_alpha(0.6))
         .x_axis_formatter(move |mark, _| short(if log { 10f64.powf(mark.value) } else { mark.value }))
         .label_formatter(move |h: &HoverPosition<'_>| {
             let (near, p) = match h {

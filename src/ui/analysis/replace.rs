@@ -6,14 +6,12 @@
 //! substitution is planned in the window.
 
 use egui::{RichText, Ui};
-use egui_plot::{Line, LineStyle, PlotPoints};
 
 use super::{PlotView, line_of, potential_lines, short};
 use crate::analysis::scan::{ScanControl, ScanRange};
 use crate::scenario::Scenario;
 use crate::solutions::Catalog;
 use crate::solutions::replace::{Replace, ReplacePoint};
-use crate::ui::theme::species_color;
 
 /// What the user asks to replace, and in how many steps.
 #[derive(Debug, Clone, PartialEq)]
@@ -37,13 +35,17 @@ pub struct ReplaceOutput {
     pub elapsed_ms: f64,
 }
 
-/// The compounds of the bath solution, or none when the bath is not a solution.
-pub fn bath_compounds(s: &Scenario) -> Vec<String> {
+/// The bath solution's compounds with their mM, or none when the bath is not a solution.
+fn bath_parts(s: &Scenario) -> &[(String, f64)] {
     s.outside
         .as_deref()
         .and_then(|b| s.solution_index(b))
-        .map(|i| s.solutions[i].parts.iter().map(|p| p.0.clone()).collect())
-        .unwrap_or_default()
+        .map_or(&[], |i| s.solutions[i].parts.as_slice())
+}
+
+/// The compounds of the bath solution, or none when the bath is not a solution.
+pub fn bath_compounds(s: &Scenario) -> Vec<String> {
+    bath_parts(s).iter().map(|p| p.0.clone()).collect()
 }
 
 /// Every compound that can take OLD's place: all the scenario knows, but OLD itself.
@@ -61,8 +63,7 @@ pub fn new_choices(s: &Scenario, old: &str) -> Vec<String> {
 /// usually changes), by NMDG-Cl (an impermeant cation of common practice) or else the first
 /// compound the bath does not hold. `None` when the bath is not a solution.
 pub fn default_form(s: &Scenario) -> Option<ReplaceForm> {
-    let i = s.outside.as_deref().and_then(|b| s.solution_index(b))?;
-    let parts = &s.solutions[i].parts;
+    let parts = bath_parts(s);
     let old = parts.iter().max_by(|a, b| a.1.total_cmp(&b.1))?.0.clone();
     let choices = new_choices(s, &old);
     let new = choices
@@ -99,7 +100,7 @@ pub fn compute(s: &Scenario, form: &ReplaceForm, control: &ScanControl) -> Resul
     })
 }
 
-/// The form's pickers; returns nothing, the form is edited in place.
+/// The form's pickers, editing `form` in place.
 pub fn form_ui(ui: &mut Ui, s: &Scenario, form: &mut ReplaceForm) {
     ui.horizontal_wrapped(|ui| {
         let label = ui.label("Replace");
@@ -123,10 +124,14 @@ pub fn form_ui(ui: &mut Ui, s: &Scenario, form: &mut ReplaceForm) {
             })
             .response
             .labelled_by(label.id);
-        let label = ui.label("in the bath, equimolar, in");
+        let label = ui.label("in the bath, mM for mM:");
         ui.add(egui::DragValue::new(&mut form.points).range(2..=500))
             .labelled_by(label.id);
-        ui.label("steps");
+        let most = bath_parts(s)
+            .iter()
+            .find(|p| p.0 == form.old)
+            .map_or(0.0, |p| p.1);
+        ui.label(format!("mixes, from none to all {} mM", short(most)));
     });
     if form.new == form.old {
         // The old compound changed under the new one: offer the first other choice.
@@ -171,29 +176,35 @@ pub fn table(ui: &mut Ui, out: &ReplaceOutput) {
         });
 }
 
-/// Potentials against the mM of NEW: the steady state, the GHK potential and the junction.
+/// From none to all replaced, how much the membrane and the junction move: the two changes an
+/// ion substitution is planned around (the recorded potential shows their sum).
+pub fn summary(out: &ReplaceOutput) -> Option<String> {
+    let (first, last) = (out.points.first()?, out.points.last()?);
+    let change = |a: Option<f64>, b: Option<f64>, what: &str| {
+        Some(format!("{what} {:.2} → {:.2} mV (Δ {:+.2} mV)", a?, b?, b? - a?))
+    };
+    let membrane = change(first.resting_mv, last.resting_mv, "steady state");
+    let junction = change(first.ljp_mv, last.ljp_mv, "junction");
+    let parts: Vec<String> = [membrane, junction].into_iter().flatten().collect();
+    (!parts.is_empty()).then(|| format!("From none to all replaced: {}", parts.join("; ")))
+}
+
+/// Potentials against the mM of NEW: the steady state and the GHK potential. The junction,
+/// some ten mV against potentials near −60, would flatten them on one axis: its change is in
+/// the summary line and its values in the table.
 pub fn plot(ui: &mut Ui, out: &ReplaceOutput, view: &mut PlotView) {
     let dark = ui.visuals().dark_mode;
+    if let Some(text) = summary(out) {
+        ui.label(text);
+    }
     let rest = line_of(out.points.iter().map(|p| (p.value, p.resting_mv)), false);
     let ghk = line_of(out.points.iter().map(|p| (p.value, p.ghk_mv)), false);
-    let ljp = line_of(out.points.iter().map(|p| (p.value, p.ljp_mv)), false);
-    let mut curves = vec![
+    let curves = vec![
         ("Steady state".to_string(), rest.clone()),
         ("GHK potential".to_string(), ghk.clone()),
     ];
-    if !ljp.is_empty() {
-        curves.push(("Junction".to_string(), ljp.clone()));
-    }
     let x_label = format!("{} replacing {} (mM)", out.new, out.old);
     view.show(ui, "replace plot", x_label, false, curves, |pui| {
         potential_lines(pui, dark, ghk, rest);
-        if !ljp.is_empty() {
-            pui.line(
-                Line::new("Junction", PlotPoints::new(ljp))
-                    .color(species_color(2))
-                    .style(LineStyle::dashed_loose())
-                    .width(1.5),
-            );
-        }
     });
 }

@@ -266,7 +266,9 @@ impl Placer {
 
     fn paint(&self, ui: &Ui, r: Rect, text: &str, color: Color32) {
         let painter = ui.painter().with_clip_rect(self.frame);
-        let bg = ui.visuals().extreme_bg_color.gamma_multiply(0.8);
+        // Nearly opaque: where no clear place exists (a train of spikes), a trace under the
+        // label showed through a lighter plate and crossed its text.
+        let bg = ui.visuals().extreme_bg_color.gamma_multiply(0.94);
         painter.rect_filled(r, 3.0, bg);
         painter.text(
             r.left_center() + vec2(3.0, 0.0),
