@@ -601,41 +601,24 @@ impl Analysis {
             return;
         };
         replace::form_ui(ui, s, form);
-        ui.horizontal(|ui| {
-            if ui
-                .add_enabled(!busy, egui::Button::new("Compute replacement"))
-                .on_hover_text(
-                    "GHK and steady-state potential and the junction potential at each mix, on every core",
-                )
-                .clicked()
-            {
-                commands.push(Command::Analysis(AnalysisCommand::StartReplace));
-            }
-            if let Some(Ok(out)) = &self.replace {
-                if ui
-                    .button("Export values as CSV…")
-                    .on_hover_text("value,ghk_mv,resting_mv,ljp_mv: the table `permeant scan --csv` writes")
-                    .clicked()
-                {
-                    commands.push(Command::Export(ExportKind::ScanCsv));
-                }
-                ui.label(
-                    RichText::new(format!("{} mixes in {:.1} ms", out.points.len(), out.elapsed_ms)).weak(),
-                );
-            }
-        });
-        match &self.replace {
-            None => {}
-            Some(Err(e)) => {
-                ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
-            }
-            Some(Ok(out)) => {
-                egui::CollapsingHeader::new(format!("Values ({} mixes)", out.points.len()))
-                    .id_salt("replace values")
-                    .show(ui, |ui| replace::table(ui, out));
-                replace::plot(ui, out, &mut self.replace_view);
-            }
-        }
+        let labels = ScanLabels {
+            compute: "Compute replacement",
+            compute_hover: "GHK and steady-state potential and the junction potential at each mix, on every core",
+            start: AnalysisCommand::StartReplace,
+            columns: "value,ghk_mv,resting_mv,ljp_mv",
+            noun: "mixes",
+            id: "replace values",
+        };
+        let view = &mut self.replace_view;
+        scan_results(
+            ui,
+            busy,
+            &labels,
+            &self.replace,
+            replace::table,
+            |ui, out| replace::plot(ui, out, view),
+            commands,
+        );
     }
 
     fn input_scan(&mut self, ui: &mut Ui, s: &Scenario, commands: &mut Vec<Command>) {
@@ -673,39 +656,24 @@ impl Analysis {
             );
         }
         range_fields(ui, &mut form.range, form.vary.unit(), true);
-        ui.horizontal(|ui| {
-            if ui
-                .add_enabled(!busy, egui::Button::new("Compute scan"))
-                .on_hover_text("GHK and steady-state potential at each point, on every core")
-                .clicked()
-            {
-                commands.push(Command::Analysis(AnalysisCommand::StartScan));
-            }
-            if let Some(Ok(out)) = &self.scan {
-                if ui
-                    .button("Export values as CSV…")
-                    .on_hover_text("value,ghk_mv,resting_mv: the table `permeant scan --csv` writes")
-                    .clicked()
-                {
-                    commands.push(Command::Export(ExportKind::ScanCsv));
-                }
-                ui.label(
-                    RichText::new(format!("{} points in {:.1} ms", out.points.len(), out.elapsed_ms)).weak(),
-                );
-            }
-        });
-        match &self.scan {
-            None => {}
-            Some(Err(e)) => {
-                ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
-            }
-            Some(Ok(out)) => {
-                egui::CollapsingHeader::new(format!("Values ({} points)", out.points.len()))
-                    .id_salt("scan values")
-                    .show(ui, |ui| scan_table(ui, out));
-                scan_plot(ui, out, &mut self.scan_view);
-            }
-        }
+        let labels = ScanLabels {
+            compute: "Compute scan",
+            compute_hover: "GHK and steady-state potential at each point, on every core",
+            start: AnalysisCommand::StartScan,
+            columns: "value,ghk_mv,resting_mv",
+            noun: "points",
+            id: "scan values",
+        };
+        let view = &mut self.scan_view;
+        scan_results(
+            ui,
+            busy,
+            &labels,
+            &self.scan,
+            scan_table,
+            |ui, out| scan_plot(ui, out, view),
+            commands,
+        );
     }
 
     fn dose_tab(&mut self, ui: &mut Ui, commands: &mut Vec<Command>) {
@@ -747,6 +715,98 @@ impl Analysis {
                 ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
             }
             Some(Ok(d)) => dose_plot(ui, d, &mut self.dose_view),
+        }
+    }
+}
+
+/// What the Scan tab's two scans (one input, a replacement in the bath) write alike.
+struct ScanLabels {
+    compute: &'static str,
+    compute_hover: &'static str,
+    start: AnalysisCommand,
+    /// The CSV's columns, as the export's hover names them.
+    columns: &'static str,
+    /// What one row is ("points", "mixes").
+    noun: &'static str,
+    id: &'static str,
+}
+
+/// A computed scan's size and the time it took.
+trait Computed {
+    fn rows(&self) -> usize;
+    fn elapsed_ms(&self) -> f64;
+}
+
+impl Computed for ScanOutput {
+    fn rows(&self) -> usize {
+        self.points.len()
+    }
+    fn elapsed_ms(&self) -> f64 {
+        self.elapsed_ms
+    }
+}
+
+impl Computed for ReplaceOutput {
+    fn rows(&self) -> usize {
+        self.points.len()
+    }
+    fn elapsed_ms(&self) -> f64 {
+        self.elapsed_ms
+    }
+}
+
+/// The part of the Scan tab both scans share: the compute button, then once computed the
+/// export of its values and the time it took, and the error or the table of values (folded)
+/// and the plot.
+fn scan_results<T: Computed>(
+    ui: &mut Ui,
+    busy: bool,
+    labels: &ScanLabels,
+    result: &Option<Result<T, String>>,
+    table: impl FnOnce(&mut Ui, &T),
+    plot: impl FnOnce(&mut Ui, &T),
+    commands: &mut Vec<Command>,
+) {
+    ui.horizontal(|ui| {
+        if ui
+            .add_enabled(!busy, egui::Button::new(labels.compute))
+            .on_hover_text(labels.compute_hover)
+            .clicked()
+        {
+            commands.push(Command::Analysis(labels.start.clone()));
+        }
+        if let Some(Ok(out)) = result {
+            if ui
+                .button("Export values as CSV…")
+                .on_hover_text(format!(
+                    "{}: the table `permeant scan --csv` writes",
+                    labels.columns
+                ))
+                .clicked()
+            {
+                commands.push(Command::Export(ExportKind::ScanCsv));
+            }
+            ui.label(
+                RichText::new(format!(
+                    "{} {} in {:.1} ms",
+                    out.rows(),
+                    labels.noun,
+                    out.elapsed_ms()
+                ))
+                .weak(),
+            );
+        }
+    });
+    match result {
+        None => {}
+        Some(Err(e)) => {
+            ui.label(RichText::new(e).color(ui.visuals().error_fg_color));
+        }
+        Some(Ok(out)) => {
+            egui::CollapsingHeader::new(format!("Values ({} {})", out.rows(), labels.noun))
+                .id_salt(labels.id)
+                .show(ui, |ui| table(ui, out));
+            plot(ui, out);
         }
     }
 }

@@ -75,8 +75,11 @@ pub fn default_form(s: &Scenario) -> Option<ReplaceForm> {
 }
 
 /// Whether `form` still fits `s` (a renamed bath compound, a bath that became a species list).
+/// Asked every frame the Analysis window is open, so it lists nothing.
 pub fn still_fits(form: &ReplaceForm, s: &Scenario) -> bool {
-    bath_compounds(s).contains(&form.old) && new_choices(s, &form.old).contains(&form.new)
+    form.new != form.old
+        && bath_parts(s).iter().any(|p| p.0 == form.old)
+        && Catalog::with_user(&s.compounds).0.compound(&form.new).is_some()
 }
 
 /// Runs the replacement of `form` on `s` (on the current rayon pool).
